@@ -1,0 +1,21 @@
+// Command gridloupe is a streaming power-quality analyzer for motor-drive
+// cabinets. See `gridloupe --help` and the README.
+package main
+
+import (
+	"context"
+	"fmt"
+	"os"
+	"os/signal"
+	"syscall"
+)
+
+func main() {
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	err := run(ctx, os.Args[1:], os.Stdin, os.Stdout, os.Stderr)
+	stop()
+	if err != nil {
+		fmt.Fprintln(os.Stderr, "gridloupe:", err)
+		os.Exit(exitCode(err))
+	}
+}

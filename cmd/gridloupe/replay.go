@@ -1,0 +1,208 @@
+package main
+
+import (
+	"bufio"
+	"context"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"github.com/schollz/progressbar/v3"
+	"golang.org/x/term"
+
+	"github.com/gridloupe/gridloupe/config"
+	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/stream"
+	"github.com/gridloupe/gridloupe/stream/encode"
+	"github.com/gridloupe/gridloupe/stream/input"
+)
+
+const replayHelp = `Usage: gridloupe replay --config FILE [flags] INPUT
+
+Analyses a recorded waveform file and prints one record per interval:
+synchronized 10-cycle (50 Hz) or 12-cycle (60 Hz) windows of about 200 ms,
+or their 3 s and 10 min aggregates (IEC 61000-4-30 aggregation).
+
+INPUT is a CSV file (a header row naming the config's channels, optional
+first column t in seconds, '#' comments) or a WAV file (16/24/32-bit PCM or
+32-bit float, channels in config order). Values are raw; the config's
+scale and offset turn them into volts and amperes.
+
+Flags:
+`
+
+func cmdReplay(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("replay", flag.ContinueOnError)
+	cfgPath := fs.String("config", "", "config `FILE` (YAML); required")
+	ivName := fs.String("interval", "200ms", "interval to print: "+strings.Join(metrics.IntervalLabels()[:3], ", "))
+	format := fs.String("format", "jsonl", "output format: jsonl (unrounded), csv, or table (rounded, for people)")
+	startStr := fs.String("start", "", "wall time of the first sample, RFC 3339 (default 1970-01-01T00:00:00Z)")
+	progress := fs.Bool("progress", true, "show a progress bar on stderr when it is a terminal")
+	fs.Usage = func() {
+		fmt.Fprint(fs.Output(), replayHelp)
+		fs.PrintDefaults()
+	}
+	if err := parseFlags(fs, args, stdout); err != nil {
+		return err
+	}
+	if *cfgPath == "" {
+		return usagef("replay: --config FILE is required")
+	}
+	if fs.NArg() != 1 {
+		return usagef("replay: want exactly one INPUT file, got %d", fs.NArg())
+	}
+	inPath := fs.Arg(0)
+	iv, ok := metrics.ParseInterval(*ivName)
+	if !ok || iv == metrics.Int2h {
+		return usagef("replay: --interval %q: allowed are 200ms, 3s, 10min", *ivName)
+	}
+	fmtKind, ok := encode.ParseFormat(*format)
+	if !ok {
+		return usagef("replay: --format %q: allowed are jsonl, csv, table", *format)
+	}
+	var base time.Time
+	if *startStr != "" {
+		t, err := time.Parse(time.RFC3339Nano, *startStr)
+		if err != nil {
+			return usagef("replay: --start %q is not RFC 3339 (e.g. 2026-03-01T10:00:00Z)", *startStr)
+		}
+		base = t.UTC()
+	}
+
+	cfg, err := config.Load(*cfgPath)
+	if err != nil {
+		return &usageError{err}
+	}
+	setup, cal, err := setupFromConfig(cfg)
+	if err != nil {
+		return err
+	}
+
+	f, err := os.Open(inPath)
+	if err != nil {
+		return fmt.Errorf("input: %w", err)
+	}
+	defer f.Close()
+	var size int64
+	if st, err := f.Stat(); err == nil {
+		size = st.Size()
+	}
+	var r io.Reader = f
+	if *progress && size > 0 && isTerminal(stderr) {
+		bar := progressbar.NewOptions64(size,
+			progressbar.OptionSetWriter(stderr),
+			progressbar.OptionSetDescription("replay "+filepath.Base(inPath)),
+			progressbar.OptionShowBytes(true),
+			progressbar.OptionThrottle(200*time.Millisecond),
+			progressbar.OptionClearOnFinish(),
+		)
+		defer bar.Finish()
+		r = io.TeeReader(f, bar)
+	}
+
+	names := make([]string, len(setup.Channels))
+	for i, ch := range setup.Channels {
+		names[i] = ch.Name
+	}
+	src, inRate, where, err := openInput(inPath, r, names)
+	if err != nil {
+		return err
+	}
+	if ex, ok := src.(interface{ Extra() []string }); ok && len(ex.Extra()) > 0 {
+		fmt.Fprintf(stderr, "gridloupe: warning: %s: columns not in the config are ignored: %s\n", inPath, strings.Join(ex.Extra(), ", "))
+	}
+	rate, err := resolveRate(cfg, inRate, inPath)
+	if err != nil {
+		return err
+	}
+	if err := checkRate(cfg, rate); err != nil {
+		return err
+	}
+	pc := pipelineConfig(cfg, setup, cal, rate)
+	pc.Base = base
+	p, err := stream.New(pc)
+	if err != nil {
+		return err
+	}
+
+	out := bufio.NewWriterSize(stdout, 64<<10)
+	enc, err := newEncoder(fmtKind, out, setup, cfg)
+	if err != nil {
+		return err
+	}
+	agg := stream.NewIntervals(setup, iv)
+	emit := func(r *metrics.Record) error {
+		if r.Interval != iv {
+			return nil
+		}
+		return enc.Write(r)
+	}
+	runErr := p.Run(ctx, src, func(r *metrics.Record) error { return agg.Add(r, emit) })
+	var cut bool
+	if errors.Is(runErr, input.ErrTruncated) {
+		cut, runErr = true, nil
+	}
+	if runErr == nil {
+		runErr = agg.Flush(emit)
+	}
+	if err := enc.Flush(); err != nil && runErr == nil {
+		runErr = err
+	}
+	if err := out.Flush(); err != nil && runErr == nil {
+		runErr = err
+	}
+	if runErr != nil {
+		return runErr
+	}
+	if cut || p.Leftover() > 0 {
+		fmt.Fprintf(stderr, "gridloupe: warning: %s: input ends mid-window at %s; the last %d samples (%.3f s) are not in the output\n",
+			inPath, where(), p.Leftover(), float64(p.Leftover())/rate)
+	}
+	return nil
+}
+
+// recordWriter is what replay needs of an encoder.
+type recordWriter interface {
+	Write(r *metrics.Record) error
+	Flush() error
+}
+
+func newEncoder(k encode.Format, w io.Writer, s *metrics.Setup, cfg *config.Config) (recordWriter, error) {
+	switch k {
+	case encode.FormatJSONL:
+		return encode.NewJSONL(w, s), nil
+	case encode.FormatCSV:
+		return encode.NewCSV(w, s), nil
+	case encode.FormatTable:
+		return encode.NewTable(w, s, encode.TableOptions{Title: cfg.Site}), nil
+	}
+	return nil, usagef("unknown format")
+}
+
+// openInput opens a CSV or WAV source by file extension. It returns the
+// source, the sample rate the file carries (0 if none) and a function that
+// says where in the file reading stopped (for the cut-recording warning).
+func openInput(path string, r io.Reader, names []string) (stream.FrameReader, float64, func() string, error) {
+	if strings.EqualFold(filepath.Ext(path), ".wav") {
+		w, err := input.NewWAV(path, r, len(names))
+		if err != nil {
+			return nil, 0, nil, err
+		}
+		return w, w.SampleRate(), func() string { return fmt.Sprintf("byte offset %d", w.Offset()) }, nil
+	}
+	c, err := input.NewCSV(path, r, names)
+	if err != nil {
+		return nil, 0, nil, err
+	}
+	return c, c.SampleRate(), func() string { return fmt.Sprintf("line %d", c.Line()) }, nil
+}
+
+func isTerminal(w io.Writer) bool {
+	f, ok := w.(*os.File)
+	return ok && term.IsTerminal(int(f.Fd()))
+}

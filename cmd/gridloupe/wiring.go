@@ -1,0 +1,101 @@
+package main
+
+import (
+	"fmt"
+	"math"
+
+	"github.com/gridloupe/gridloupe/config"
+	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/stream"
+)
+
+// setupFromConfig translates the validated config into the computations'
+// setup and the per-channel calibration.
+func setupFromConfig(cfg *config.Config) (*metrics.Setup, []stream.Cal, error) {
+	s := metrics.Setup{
+		Orders:    cfg.Harmonics.Orders,
+		AllOrders: cfg.Harmonics.All,
+		NominalV:  cfg.Nominal.VoltageV,
+		NominalI:  cfg.Nominal.CurrentA,
+		ILA:       cfg.ILA,
+		Wiring:    metrics.Wye,
+		Reference: -1,
+	}
+	if cfg.Wiring == "single-phase" {
+		s.Wiring = metrics.SinglePhase
+	}
+	cal := make([]stream.Cal, len(cfg.Channels))
+	for i, ch := range cfg.Channels {
+		k := metrics.Voltage
+		if ch.Kind == "current" {
+			k = metrics.Current
+		}
+		ph := byte('a')
+		if len(ch.Phase) > 0 {
+			ph = ch.Phase[0]
+		}
+		s.Channels = append(s.Channels, metrics.Channel{Name: ch.Name, Kind: k, Phase: ph,
+			FullScale: ch.FullScale, DelayS: ch.DelayUS * 1e-6})
+		cal[i] = stream.Cal{Scale: ch.Scale, Offset: ch.Offset}
+		if ch.Name == cfg.Reference {
+			s.Reference = i
+		}
+	}
+	if s.Reference < 0 {
+		for i, ch := range s.Channels {
+			if ch.Kind == metrics.Voltage {
+				s.Reference = i
+				break
+			}
+		}
+	}
+	setup, err := metrics.NewSetup(s)
+	if err != nil {
+		return nil, nil, &usageError{fmt.Errorf("%s: %w", cfg.Path, err)}
+	}
+	return setup, cal, nil
+}
+
+// pipelineConfig builds the stream configuration for a sample rate.
+func pipelineConfig(cfg *config.Config, setup *metrics.Setup, cal []stream.Cal, fs float64) stream.Config {
+	return stream.Config{
+		Setup:      setup,
+		Cal:        cal,
+		SampleRate: fs,
+		NominalHz:  cfg.Nominal.FrequencyHz,
+		LockMinRMS: cfg.LockMinPct / 100 * cfg.Nominal.VoltageV,
+	}
+}
+
+// resolveRate reconciles the config's sample_rate_hz with the input's own
+// rate (WAV header or CSV t column): they must agree when both are given.
+func resolveRate(cfg *config.Config, fromInput float64, inputPath string) (float64, error) {
+	// a rate from a t column carries rounding: snap to a whole hertz when
+	// it is within a part per million of one
+	if r := math.Round(fromInput); fromInput > 0 && math.Abs(fromInput-r) <= 1e-6*fromInput {
+		fromInput = r
+	}
+	switch {
+	case fromInput > 0 && cfg.SampleRateHz > 0:
+		if math.Abs(fromInput-cfg.SampleRateHz) > 1e-4*cfg.SampleRateHz {
+			return 0, usagef("%s: sample_rate_hz %v disagrees with %v Hz from %s; remove the key or correct it", cfg.Path, cfg.SampleRateHz, fromInput, inputPath)
+		}
+		return cfg.SampleRateHz, nil
+	case fromInput > 0:
+		return fromInput, nil
+	case cfg.SampleRateHz > 0:
+		return cfg.SampleRateHz, nil
+	}
+	return 0, usagef("%s: %s carries no sample rate (no t column); set sample_rate_hz in the config", cfg.Path, inputPath)
+}
+
+// checkRate rejects rates too low for the requested orders: order h at up
+// to 1.15 × nominal (69 Hz on 60 Hz systems) needs fs above 2·h·f.
+func checkRate(cfg *config.Config, fs float64) error {
+	maxH := cfg.Harmonics.Orders[len(cfg.Harmonics.Orders)-1]
+	need := 2 * float64(maxH) * 1.15 * cfg.Nominal.FrequencyHz
+	if fs <= need {
+		return usagef("%s: sample rate %v Hz is too low for harmonic order %d (needs more than %.0f Hz); lower the orders in `harmonics` or record faster", cfg.Path, fs, maxH, need)
+	}
+	return nil
+}

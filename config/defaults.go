@@ -1,0 +1,90 @@
+package config
+
+// Defaults returns a commented YAML document listing every key with its
+// default and allowed values, for `gridloupe config --defaults`. The keys
+// without a default (nominal values) hold an example; channels, and keys
+// whose default is derived (gateway, reference, client_id), are comments.
+// With a channels list appended it parses to the defaults.
+func Defaults() string { return defaultsDoc }
+
+const defaultsDoc = `# gridloupe configuration: every key, with its default and allowed values.
+# CAUTION: wiring to mains can kill. Installation is work for qualified personnel
+# under local electrical codes, with voltage sensors and CTs rated for the
+# circuit and its measurement category. Never open-circuit a loaded CT
+# secondary. gridloupe is a monitor, not a protective device.
+#
+# Durations use Go's syntax: 500ms, 30s, 20m, 168h. An empty value is the same
+# as leaving the key out. Relative paths are relative to this file's folder.
+
+site: site                 # free text: report title and MQTT topic level
+# gateway: <host name>     # this gateway's name and MQTT topic level; default: the host name
+nominal:
+  frequency_hz: 50         # required: 50 or 60
+  voltage_v: 230           # required: declared voltage in V (phase-to-neutral for wye and single-phase)
+  current_a: 0             # base for near-zero floors when a current channel has no full_scale; 0 = unset
+wiring: wye                # single-phase | wye   (delta comes later)
+sample_rate_hz: 0          # Hz, only when the input carries none; 0 = from the input.
+                           # Must exceed 2 x highest order x 1.15 x nominal frequency
+                           # (5750 Hz at 50 Hz, 6900 Hz at 60 Hz with harmonics: all)
+# reference: va            # angle and frequency reference, a voltage channel; default: the first voltage channel
+harmonics: all             # all (orders 1..50; needed for thd_h50_pct and tdd_h50_pct) or a list of orders 2..50, e.g. [5, 7, 11, 13]
+il_a: 0                    # maximum demand load current in A, for TDD and pct_il (IEEE 519); 0 = unset
+isc_a: 0                   # short-circuit current at the PCC in A, for the IEEE 519 table row; 0 = unset
+lock_min_pct: 10           # below this % of the nominal voltage the tracker reports no lock; more than 0, less than 100
+
+# channels:                # required, at least one voltage channel; matched by name to CSV columns, in file order for WAV
+#   - name: va             # required, unique; no commas or white space
+#     kind: voltage        # required: voltage | current
+#     phase: a             # required: a | b | c | n (n: a neutral current)
+#     scale: 1.0           # engineering value = raw x scale + offset; never 0
+#     offset: 0.0
+#     full_scale: 0        # engineering units, enables the clipped flag; 0 = none
+#     delay_us: 0          # sampling skew or sensor lag to correct, microseconds (less than one cycle)
+# single-phase: one voltage on phase a, currents on a (and n).
+# wye: voltages on a, b, c; each phase with a current needs its voltage.
+
+# source:                  # daemon input; default: none (replay names its input on the command line)
+#   kind: sim              # required in a source: sim | csv | wav
+#   speed: 1               # sim only: 1 = real time, 60 = a minute per second, 0 = as fast as possible
+#   path: rec.csv          # csv and wav only, required: the recording
+
+store:
+  path: ""                 # bbolt file; "" = not configured
+  commit_every: 60s        # aggregates are batched; alarm transitions commit at once; more than 0
+  max_size_mb: 512         # hard cap in MiB, 1..2047 (the whole file is memory-mapped)
+  retention:               # how long each level is kept; more than 0
+    3s: 168h
+    10min: 9600h
+    2h: 87600h
+
+mqtt:
+  broker: ""               # "" = off | tcp://host:port | ssl://host:port | embedded
+  # client_id: <gateway>   # default: the gateway name
+  username: ""             # required when a password is set
+  password_file: ""        # file holding the password (trailing line break removed); never logged
+  password_env: ""         # or: an environment variable holding it; not both
+  tls:                     # PEM files for ssl:// (or the embedded broker); cert and key go together
+    ca: ""
+    cert: ""
+    key: ""
+  topic_prefix: gridloupe  # one or more topic levels separated by /; no +, # or leading $
+  telemetry: [10min]       # levels published, from 3s, 10min, 2h; [] = none
+
+alarms: []
+# alarms:                          # alarm rules; raised and cleared over MQTT with hysteresis
+#   - name: current-distortion     # required, unique
+#     metric: tdd_h50_pct          # required: rms | thd_pct | thd_h50_pct | tdd_pct | tdd_h50_pct | pct | pct_il
+#                                  #   | pf | dpf | freq_hz | unbalance_voltage_pct | unbalance_current_pct
+#                                  # (h50: needs harmonics: all; tdd and pct_il: need il_a)
+#     channel: ia                  # per-channel metrics: a configured channel
+#     phase: total                 # pf and dpf: a | b | c | total (default total)
+#     harmonic: 5                  # pct and pct_il only: the order, 2..50, among those computed
+#     level: 10min                 # 200ms | 3s | 10min | 2h (default 10min)
+#     above: 8.0                   # exactly one of above or below, in the metric's units
+#     # below: 0.9
+#     deadband: 0.0                # hysteresis in the metric's units, >= 0
+#     on_delay: 0s                 # sample time the condition must hold before raising
+#     off_delay: 0s                # sample time it must be clear before clearing
+#     severity: warning            # info | warning | critical (default warning)
+#     min_load_pct: 0              # quiet below this % of il_a (or the current channel's full_scale); 0 = off
+`

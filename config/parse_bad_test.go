@@ -1,0 +1,236 @@
+package config
+
+import (
+	"errors"
+	"fmt"
+	"strings"
+	"testing"
+)
+
+// hdr1 is a minimal valid single-voltage document of three lines; cases
+// append from line 4.
+const hdr1 = "nominal: {frequency_hz: 50, voltage_v: 230}\n" +
+	"channels:\n" +
+	"  - {name: va, kind: voltage, phase: a}\n"
+
+// hdr3 is a valid three-phase document of nine lines; cases append from
+// line 10.
+const hdr3 = "nominal: {frequency_hz: 50, voltage_v: 230}\n" +
+	"il_a: 160\n" +
+	"channels:\n" +
+	"  - {name: va, kind: voltage, phase: a}\n" +
+	"  - {name: vb, kind: voltage, phase: b}\n" +
+	"  - {name: vc, kind: voltage, phase: c}\n" +
+	"  - {name: ia, kind: current, phase: a}\n" +
+	"  - {name: ib, kind: current, phase: b}\n" +
+	"  - {name: ic, kind: current, phase: c}\n"
+
+// Sources of the rules the bad cases check.
+const (
+	srcBrief   = "config brief: validation list (file:line:col, key path, what is allowed)"
+	srcDesign  = "DESIGN.md, Interface contract / Config (YAML)"
+	srcDaemon  = "DESIGN.md, Daemon keys, MQTT and store"
+	srcMeasure = "DESIGN.md, Conventions of measurement"
+	srcRate    = "DESIGN.md, Performance notes: orders to 50 at up to 69 Hz need fs above 6.9 kHz; rule fs > 2·order·1.15·f"
+	srcMQTT    = "MQTT 3.1.1 §4.7 (topic wildcards +, #; $-topics) and §1.5.3 (UTF-8, control characters)"
+	srcYAML    = "YAML 1.2 §6.1 (tabs are not indentation) / §9.2 (documents); go.yaml.in/yaml/v3 parser message"
+)
+
+// badCase is one document that must be rejected: its *Error must carry
+// line (and col when nonzero), key, and a phrase of the message.
+type badCase struct {
+	name, doc string
+	line, col int
+	key       string
+	phrase    string
+	src       string
+}
+
+var badCases = []badCase{
+	// YAML syntax and document shape.
+	{name: "unclosed flow mapping", doc: "nominal: {frequency_hz: 50\nchannels: []\n", line: 1, phrase: "YAML syntax", src: srcYAML},
+	{name: "tab indentation", doc: "nominal:\n\tfrequency_hz: 50\n", line: 2, phrase: "YAML syntax: found character that cannot start any token", src: srcYAML},
+	{name: "empty document", doc: "", line: 1, phrase: "empty document", src: srcBrief},
+	{name: "comment only", doc: "# nothing\n", line: 1, phrase: "empty document", src: srcBrief},
+	{name: "two documents", doc: hdr1 + "---\nsite: x\n", line: 4, phrase: "a second YAML document", src: srcYAML},
+	{name: "top level is a list", doc: "- a\n- b\n", line: 1, phrase: "must be a mapping with keys site, gateway, nominal", src: srcBrief},
+	{name: "anchored unknown key", doc: "base: &b {frequency_hz: 50}\n", line: 1, key: "base", phrase: "unknown key", src: srcBrief},
+	{name: "merge key used", doc: "nominal:\n  <<: {frequency_hz: 50}\n", line: 2, key: "nominal", phrase: "merge keys (<<) are not supported", src: srcBrief},
+	{name: "complex key", doc: "? [a]\n: b\n", line: 1, phrase: "keys must be plain words", src: srcBrief},
+
+	// Unknown keys, duplicates, wrong types.
+	{name: "unknown top key", doc: hdr1 + "sites: x\n", line: 4, col: 1, key: "sites", phrase: `unknown key (did you mean "site"?); allowed here: site, gateway, nominal, wiring`, src: srcBrief},
+	{name: "unknown channel key", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, knd: voltage, phase: a}\n", line: 3, col: 16, key: "channels[0].knd", phrase: "allowed here: name, kind, phase, scale, offset, full_scale, delay_us", src: srcBrief},
+	{name: "unknown retention level", doc: hdr1 + "store: {retention: {200ms: 1h}}\n", line: 4, key: "store.retention.200ms", phrase: "allowed here: 3s, 10min, 2h", src: srcDaemon},
+	{name: "duplicate key", doc: hdr1 + "site: a\nsite: b\n", line: 5, col: 1, key: "site", phrase: "given twice (first at line 4)", src: srcBrief},
+	{name: "number as text", doc: "nominal: {frequency_hz: \"50\", voltage_v: 230}\n", line: 1, col: 25, key: "nominal.frequency_hz", phrase: `must be a number, not "50"`, src: srcBrief},
+	{name: "list for mapping", doc: "nominal: [50, 230]\n", line: 1, col: 10, key: "nominal", phrase: "must be a mapping with keys frequency_hz, voltage_v, current_a", src: srcBrief},
+	{name: "mapping for number", doc: "nominal: {frequency_hz: {a: 1}, voltage_v: 230}\n", line: 1, key: "nominal.frequency_hz", phrase: "must be a number, not a mapping", src: srcBrief},
+	{name: "not a finite number", doc: "nominal: {frequency_hz: 50, voltage_v: .nan}\n", line: 1, key: "nominal.voltage_v", phrase: "must be a finite number", src: srcMeasure + " (never NaN or Inf)"},
+	{name: "binary tag for text", doc: hdr1 + "site: !!binary aGVsbG8=\n", line: 4, key: "site", phrase: "must be text", src: srcBrief},
+	{name: "channels not a list", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels: {name: va}\n", line: 2, key: "channels", phrase: "must be a list of channels", src: srcBrief},
+
+	// nominal.
+	{name: "frequency 55", doc: "nominal: {frequency_hz: 55, voltage_v: 230}\nchannels: [{name: va, kind: voltage, phase: a}]\n", line: 1, key: "nominal.frequency_hz", phrase: "55 Hz is not allowed; use 50 or 60", src: srcDesign},
+	{name: "frequency missing", doc: "nominal: {voltage_v: 230}\nchannels: [{name: va, kind: voltage, phase: a}]\n", line: 1, col: 10, key: "nominal.frequency_hz", phrase: "required: 50 or 60", src: srcDesign},
+	{name: "nominal missing", doc: "channels: [{name: va, kind: voltage, phase: a}]\n", line: 1, key: "nominal", phrase: "required: frequency_hz (50 or 60) and voltage_v", src: srcDesign},
+	{name: "nominal empty", doc: "site: x\nnominal:\nchannels: [{name: va, kind: voltage, phase: a}]\n", line: 2, col: 1, key: "nominal", phrase: "required", src: srcDesign},
+	{name: "voltage missing", doc: "nominal: {frequency_hz: 60}\nchannels: [{name: va, kind: voltage, phase: a}]\n", line: 1, key: "nominal.voltage_v", phrase: "required: the declared voltage", src: srcDesign},
+	{name: "voltage zero", doc: "nominal: {frequency_hz: 60, voltage_v: 0}\nchannels: [{name: va, kind: voltage, phase: a}]\n", line: 1, key: "nominal.voltage_v", phrase: "must be more than 0 V", src: srcDesign},
+	{name: "current negative", doc: "nominal: {frequency_hz: 60, voltage_v: 277, current_a: -1}\nchannels: [{name: va, kind: voltage, phase: a}]\n", line: 1, key: "nominal.current_a", phrase: "must not be negative", src: srcDesign},
+
+	// wiring, rates, scalars.
+	{name: "delta", doc: hdr1 + "wiring: delta\n", line: 4, col: 9, key: "wiring", phrase: "delta comes later", src: srcDesign},
+	{name: "wiring unknown", doc: hdr1 + "wiring: star\n", line: 4, key: "wiring", phrase: `"star" is not allowed; use single-phase or wye`, src: srcDesign},
+	{name: "rate at the 60 Hz floor", doc: "nominal: {frequency_hz: 60, voltage_v: 277}\nchannels: [{name: va, kind: voltage, phase: a}]\nsample_rate_hz: 6900\n", line: 3, key: "sample_rate_hz", phrase: "must exceed twice that, 6900 Hz", src: srcRate + ": 2·50·69 = 6900"},
+	{name: "rate under the 50 Hz floor", doc: hdr1 + "sample_rate_hz: 5000\n", line: 4, key: "sample_rate_hz", phrase: "order 50 lies at 2875 Hz, so sampling must exceed twice that, 5750 Hz", src: srcRate + ": 50·57.5 = 2875, 2·2875 = 5750"},
+	{name: "rate under a listed order", doc: hdr1 + "harmonics: [5, 7]\nsample_rate_hz: 800\n", line: 5, key: "sample_rate_hz", phrase: "the highest listed order is 7", src: srcRate + ": 2·7·57.5 = 805"},
+	{name: "rate negative", doc: hdr1 + "sample_rate_hz: -1\n", line: 4, key: "sample_rate_hz", phrase: "must not be negative", src: srcBrief},
+	{name: "rate absurd", doc: hdr1 + "sample_rate_hz: 5e6\n", line: 4, key: "sample_rate_hz", phrase: "out of range", src: "common practice, no source (1 MHz cap)"},
+	{name: "il_a negative", doc: hdr1 + "il_a: -160\n", line: 4, key: "il_a", phrase: "must not be negative", src: srcBrief},
+	{name: "isc_a negative", doc: hdr1 + "isc_a: -1\n", line: 4, key: "isc_a", phrase: "must not be negative", src: srcBrief},
+	{name: "lock_min_pct zero", doc: hdr1 + "lock_min_pct: 0\n", line: 4, key: "lock_min_pct", phrase: "more than 0 and less than 100", src: srcBrief},
+	{name: "lock_min_pct 100", doc: hdr1 + "lock_min_pct: 100\n", line: 4, key: "lock_min_pct", phrase: "more than 0 and less than 100", src: srcBrief},
+
+	// harmonics.
+	{name: "harmonic order 51", doc: hdr1 + "harmonics: [1, 51]\n", line: 4, col: 16, key: "harmonics[1]", phrase: "order 51 is out of range; list orders from 2 to 50", src: srcMeasure},
+	{name: "harmonic order 0", doc: hdr1 + "harmonics: [0]\n", line: 4, key: "harmonics[0]", phrase: "out of range", src: srcMeasure},
+	{name: "harmonic order twice", doc: hdr1 + "harmonics:\n  - 5\n  - 5\n", line: 6, key: "harmonics[1]", phrase: "order 5 is listed twice (first at line 5)", src: srcBrief},
+	{name: "harmonic order fraction", doc: hdr1 + "harmonics: [5.5]\n", line: 4, key: "harmonics[0]", phrase: "must be a whole number, a harmonic order from 2 to 50", src: srcBrief},
+	{name: "harmonics word", doc: hdr1 + "harmonics: some\n", line: 4, key: "harmonics", phrase: `"some" is not allowed; use all, or a list of orders from 2 to 50`, src: srcDesign},
+
+	// channels.
+	{name: "no channels", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels: []\n", line: 2, key: "channels", phrase: "no channels", src: srcBrief},
+	{name: "channels missing", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\n", line: 1, key: "channels", phrase: "no channels", src: srcBrief},
+	{name: "no voltage channel", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels: [{name: ia, kind: current, phase: a}]\n", line: 2, key: "channels", phrase: "no voltage channel", src: srcBrief},
+	{name: "name missing", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {kind: voltage, phase: a}\n", line: 3, key: "channels[0].name", phrase: "required", src: srcBrief},
+	{name: "name with space", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: \"v a\", kind: voltage, phase: a}\n", line: 3, key: "channels[0].name", phrase: "must not contain commas or white space", src: srcBrief},
+	{name: "name with comma", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: \"v,a\", kind: voltage, phase: a}\n", line: 3, key: "channels[0].name", phrase: "must not contain commas", src: srcBrief},
+	{name: "name empty", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: \"\", kind: voltage, phase: a}\n", line: 3, key: "channels[0].name", phrase: "must not be empty", src: srcMQTT},
+	{name: "duplicate names", doc: hdr1 + "  - {name: va, kind: current, phase: a}\n", line: 4, key: "channels[1].name", phrase: `"va" is used twice (first at line 3)`, src: srcBrief},
+	{name: "names collide as topic levels", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: v+a, kind: voltage, phase: a}\n  - {name: v#a, kind: voltage, phase: b}\n", line: 4, key: "channels[1].name", phrase: `both become the MQTT topic level "v_a"`, src: srcMQTT},
+	{name: "kind missing", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, phase: a}\n", line: 3, key: "channels[0].kind", phrase: "required: voltage or current", src: srcDesign},
+	{name: "kind unknown", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: volt, phase: a}\n", line: 3, key: "channels[0].kind", phrase: `"volt" is not allowed; use one of: voltage, current`, src: srcDesign},
+	{name: "phase missing", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: voltage}\n", line: 3, key: "channels[0].phase", phrase: "required: a, b or c", src: srcDesign},
+	{name: "phase d", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: voltage, phase: d}\n", line: 3, key: "channels[0].phase", phrase: "use one of: a, b, c, n", src: srcDesign},
+	{name: "voltage on neutral", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: vn, kind: voltage, phase: n}\n", line: 3, key: "channels[0].phase", phrase: "n is for a neutral current", src: srcDesign},
+	{name: "scale zero", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: voltage, phase: a, scale: 0}\n", line: 3, key: "channels[0].scale", phrase: "must not be 0", src: srcBrief},
+	{name: "full_scale negative", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: voltage, phase: a, full_scale: -400}\n", line: 3, key: "channels[0].full_scale", phrase: "must not be negative", src: srcBrief},
+	{name: "delay a cycle", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: voltage, phase: a, delay_us: 20000}\n", line: 3, key: "channels[0].delay_us", phrase: "a cycle or more at 50 Hz", src: "analytic: one period at 50 Hz = 20000 µs"},
+	{name: "two voltages on a phase", doc: hdr1 + "  - {name: va2, kind: voltage, phase: a}\n", line: 4, key: "channels[1].phase", phrase: "a second voltage channel on phase a (first: va, line 3)", src: srcDesign + " (one voltage per phase)"},
+	{name: "too many channels", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels: [" + strings.Repeat("{name: x},", 65) + "]\n", line: 2, key: "channels", phrase: "65 entries; at most 64", src: "common practice, no source (64-channel cap)"},
+	{name: "wye current without voltage", doc: hdr1 + "  - {name: ib, kind: current, phase: b}\n", line: 4, key: "channels[1].phase", phrase: "a phase with a current but no voltage", src: srcBrief},
+	{name: "single-phase two voltages", doc: hdr1 + "  - {name: vb, kind: voltage, phase: b}\nwiring: single-phase\n", line: 5, key: "wiring", phrase: "exactly one voltage channel, on phase a", src: srcBrief},
+	{name: "single-phase voltage on b", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nwiring: single-phase\nchannels: [{name: vb, kind: voltage, phase: b}]\n", line: 2, key: "wiring", phrase: "on phase a", src: srcBrief},
+	{name: "single-phase current on c", doc: hdr1 + "  - {name: ic, kind: current, phase: c}\nwiring: single-phase\n", line: 4, key: "channels[1].phase", phrase: "currents on phase a (and n) only, not c", src: srcBrief},
+
+	// reference.
+	{name: "reference unknown", doc: hdr3 + "reference: vx\n", line: 10, col: 12, key: "reference", phrase: `no channel is named "vx"; the reference is a voltage channel: va, vb, vc`, src: srcDesign},
+	{name: "reference a current", doc: hdr3 + "reference: ia\n", line: 10, key: "reference", phrase: `"ia" is a current channel`, src: srcMeasure},
+
+	// names that become topic levels.
+	{name: "site empty", doc: hdr1 + "site: \"\"\n", line: 4, key: "site", phrase: "must not be empty", src: srcMQTT},
+	{name: "site control character", doc: hdr1 + "site: \"a\\ab\"\n", line: 4, key: "site", phrase: "control character U+0007", src: srcMQTT},
+	{name: "gateway empty", doc: hdr1 + "gateway: ''\n", line: 4, key: "gateway", phrase: "must not be empty", src: srcMQTT},
+
+	// source.
+	{name: "source kind missing", doc: hdr1 + "source: {speed: 2}\n", line: 4, key: "source.kind", phrase: "required: sim, csv or wav", src: srcDaemon},
+	{name: "source kind live", doc: hdr1 + "source: {kind: live}\n", line: 4, key: "source.kind", phrase: "use one of: sim, csv, wav", src: srcDaemon},
+	{name: "csv without path", doc: hdr1 + "source: {kind: csv}\n", line: 4, key: "source.path", phrase: "required for kind csv", src: srcBrief},
+	{name: "speed with wav", doc: hdr1 + "source: {kind: wav, path: a.wav, speed: 2}\n", line: 4, key: "source.speed", phrase: "applies to kind sim only", src: srcBrief},
+	{name: "path with sim", doc: hdr1 + "source: {kind: sim, path: a.csv}\n", line: 4, key: "source.path", phrase: "applies to kinds csv and wav", src: srcBrief},
+	{name: "speed negative", doc: hdr1 + "source: {kind: sim, speed: -1}\n", line: 4, key: "source.speed", phrase: "must not be negative", src: srcBrief},
+
+	// store.
+	{name: "commit_every zero", doc: hdr1 + "store: {commit_every: 0s}\n", line: 4, key: "store.commit_every", phrase: "must be more than 0", src: srcDaemon},
+	{name: "duration without unit", doc: hdr1 + "store: {commit_every: 60}\n", line: 4, key: "store.commit_every", phrase: "not a duration: give a number with a unit", src: "Go time.ParseDuration syntax"},
+	{name: "duration as interval label", doc: hdr1 + "store:\n  retention:\n    10min: 10min\n", line: 6, key: "store.retention.10min", phrase: "(write 10m)", src: "Go time.ParseDuration syntax"},
+	{name: "retention zero", doc: hdr1 + "store: {retention: {2h: 0s}}\n", line: 4, key: "store.retention.2h", phrase: "must be more than 0", src: srcDaemon},
+	{name: "negative duration", doc: hdr1 + "store: {commit_every: -5s}\n", line: 4, key: "store.commit_every", phrase: "must not be negative", src: srcBrief},
+	{name: "max_size_mb zero", doc: hdr1 + "store: {max_size_mb: 0}\n", line: 4, key: "store.max_size_mb", phrase: "allowed: 1 to 2047", src: "bbolt maxMapSize on 32-bit targets (just under 2 GiB)"},
+	{name: "max_size_mb huge", doc: hdr1 + "store: {max_size_mb: 99999999999}\n", line: 4, key: "store.max_size_mb", phrase: "allowed: 1 to 2047", src: "bbolt maxMapSize on 32-bit targets (just under 2 GiB)"},
+	{name: "max_size_mb fraction", doc: hdr1 + "store: {max_size_mb: 1.5}\n", line: 4, key: "store.max_size_mb", phrase: "must be a whole number", src: srcBrief},
+
+	// mqtt.
+	{name: "both password sources", doc: hdr1 + "mqtt: {username: u, password_file: p, password_env: P}\n", line: 4, key: "mqtt.password_env", phrase: "set password_file or password_env, not both", src: srcBrief},
+	{name: "password without user", doc: hdr1 + "mqtt: {password_env: P}\n", line: 4, key: "mqtt.username", phrase: "MQTT 3.1.1 §3.1.2.9", src: "MQTT 3.1.1 §3.1.2.9: password flag needs the user name flag"},
+	{name: "cert without key", doc: hdr1 + "mqtt:\n  broker: ssl://127.0.0.1:8883\n  tls: {cert: c.pem}\n", line: 6, key: "mqtt.tls.key", phrase: "required with tls.cert", src: srcBrief},
+	{name: "key without cert", doc: hdr1 + "mqtt:\n  broker: ssl://127.0.0.1:8883\n  tls: {key: k.pem}\n", line: 6, key: "mqtt.tls.cert", phrase: "required with tls.key", src: srcBrief},
+	{name: "tls with tcp broker", doc: hdr1 + "mqtt:\n  broker: tcp://127.0.0.1:1883\n  tls: {ca: ca.pem}\n", line: 6, key: "mqtt.tls", phrase: "applies to ssl:// brokers", src: "common practice, no source"},
+	{name: "broker scheme", doc: hdr1 + "mqtt: {broker: \"http://127.0.0.1:1883\"}\n", line: 4, key: "mqtt.broker", phrase: `use "" (off), tcp://host:port, ssl://host:port or embedded`, src: srcDaemon},
+	{name: "broker without port", doc: hdr1 + "mqtt: {broker: \"tcp://127.0.0.1\"}\n", line: 4, key: "mqtt.broker", phrase: "needs a host and a port", src: srcDaemon},
+	{name: "broker with path", doc: hdr1 + "mqtt: {broker: \"tcp://127.0.0.1:1883/x\"}\n", line: 4, key: "mqtt.broker", phrase: "scheme://host:port only", src: srcDaemon},
+	{name: "client_id empty", doc: hdr1 + "mqtt: {client_id: ''}\n", line: 4, key: "mqtt.client_id", phrase: "must not be empty", src: srcDaemon},
+	{name: "prefix with empty level", doc: hdr1 + "mqtt: {topic_prefix: a//b}\n", line: 4, key: "mqtt.topic_prefix", phrase: "empty level", src: srcMQTT},
+	{name: "prefix with wildcard", doc: hdr1 + "mqtt: {topic_prefix: a/+/b}\n", line: 4, key: "mqtt.topic_prefix", phrase: "must not contain + or #", src: srcMQTT},
+	{name: "prefix reserved", doc: hdr1 + "mqtt: {topic_prefix: $SYS}\n", line: 4, key: "mqtt.topic_prefix", phrase: "start with $", src: srcMQTT},
+	{name: "telemetry 200ms", doc: hdr1 + "mqtt: {telemetry: [200ms]}\n", line: 4, key: "mqtt.telemetry[0]", phrase: "use one of: 3s, 10min, 2h", src: srcDaemon},
+	{name: "telemetry twice", doc: hdr1 + "mqtt: {telemetry: [3s, 3s]}\n", line: 4, key: "mqtt.telemetry[1]", phrase: "3s is listed twice", src: srcBrief},
+	{name: "telemetry scalar", doc: hdr1 + "mqtt: {telemetry: 10min}\n", line: 4, key: "mqtt.telemetry", phrase: "must be a list of interval labels", src: srcDaemon},
+
+	// alarms.
+	{name: "alarm metric unknown", doc: hdr3 + "alarms: [{name: x, metric: thd, channel: ia, above: 5}]\n", line: 10, key: "alarms[0].metric", phrase: "use one of: rms, thd_pct, thd_h50_pct, tdd_pct, tdd_h50_pct, pct, pct_il, pf, dpf, freq_hz, unbalance_voltage_pct, unbalance_current_pct", src: srcBrief},
+	{name: "alarm name missing", doc: hdr3 + "alarms: [{metric: rms, channel: ia, above: 5}]\n", line: 10, key: "alarms[0].name", phrase: "required", src: srcBrief},
+	{name: "alarm metric missing", doc: hdr3 + "alarms: [{name: x, channel: ia, above: 5}]\n", line: 10, key: "alarms[0].metric", phrase: "required: one of rms", src: srcBrief},
+	{name: "alarm names twice", doc: hdr3 + "alarms:\n  - {name: x, metric: rms, channel: ia, above: 5}\n  - {name: x, metric: rms, channel: ib, above: 5}\n", line: 12, key: "alarms[1].name", phrase: `"x" is used twice (first at line 11)`, src: srcBrief},
+	{name: "h50 needs harmonics all", doc: hdr3 + "harmonics: [5, 7]\nalarms: [{name: x, metric: thd_h50_pct, channel: va, above: 5}]\n", line: 11, key: "alarms[0].metric", phrase: "needs harmonics: all", src: srcMeasure},
+	{name: "tdd needs il_a", doc: hdr1 + "  - {name: ia, kind: current, phase: a}\nalarms: [{name: x, metric: tdd_pct, channel: ia, above: 5}]\n", line: 5, key: "alarms[0].metric", phrase: "set il_a", src: srcMeasure + " (TDD uses IL)"},
+	{name: "pct_il needs il_a", doc: hdr1 + "  - {name: ia, kind: current, phase: a}\nalarms: [{name: x, metric: pct_il, channel: ia, harmonic: 5, above: 5}]\n", line: 5, key: "alarms[0].metric", phrase: "set il_a", src: srcMeasure},
+	{name: "tdd on a voltage", doc: hdr3 + "alarms: [{name: x, metric: tdd_pct, channel: va, above: 5}]\n", line: 10, key: "alarms[0].channel", phrase: `"va" is a voltage channel`, src: srcMeasure},
+	{name: "alarm channel unknown", doc: hdr3 + "alarms: [{name: x, metric: rms, channel: iz, above: 5}]\n", line: 10, key: "alarms[0].channel", phrase: `no channel is named "iz"`, src: srcBrief},
+	{name: "alarm channel missing", doc: hdr3 + "alarms: [{name: x, metric: rms, above: 5}]\n", line: 10, key: "alarms[0].channel", phrase: "required for rms", src: srcBrief},
+	{name: "phase on a channel metric", doc: hdr3 + "alarms: [{name: x, metric: rms, channel: ia, phase: a, above: 5}]\n", line: 10, key: "alarms[0].phase", phrase: "applies to pf and dpf", src: srcBrief},
+	{name: "channel on pf", doc: hdr3 + "alarms: [{name: x, metric: pf, channel: ia, below: 0.9}]\n", line: 10, key: "alarms[0].channel", phrase: "set phase (a, b, c or total)", src: srcBrief},
+	{name: "pf phase without a pair", doc: hdr1 + "  - {name: vb, kind: voltage, phase: b}\n  - {name: ia, kind: current, phase: a}\nalarms: [{name: x, metric: pf, phase: b, below: 0.9}]\n", line: 6, key: "alarms[0].phase", phrase: "phase b has no voltage and current pair", src: srcDesign + " (phases need a voltage and a current)"},
+	{name: "pf without any current", doc: hdr1 + "alarms: [{name: x, metric: pf, below: 0.9}]\n", line: 4, key: "alarms[0].metric", phrase: "needs a phase with both a voltage and a current", src: srcDesign},
+	{name: "pf phase n", doc: hdr3 + "alarms: [{name: x, metric: pf, phase: n, below: 0.9}]\n", line: 10, key: "alarms[0].phase", phrase: "use one of: a, b, c, total", src: srcBrief},
+	{name: "above and below", doc: hdr3 + "alarms: [{name: x, metric: rms, channel: ia, above: 5, below: 1}]\n", line: 10, key: "alarms[0].below", phrase: "set exactly one of above or below", src: srcBrief},
+	{name: "no threshold", doc: hdr3 + "alarms:\n  - {name: x, metric: rms, channel: ia}\n", line: 11, key: "alarms[0]", phrase: "set exactly one of above or below", src: srcBrief},
+	{name: "pct without harmonic", doc: hdr3 + "alarms: [{name: x, metric: pct, channel: ia, above: 5}]\n", line: 10, key: "alarms[0].harmonic", phrase: "required for pct", src: srcBrief},
+	{name: "harmonic not computed", doc: hdr3 + "harmonics: [5, 7]\nalarms: [{name: x, metric: pct, channel: ia, harmonic: 11, above: 5}]\n", line: 11, key: "alarms[0].harmonic", phrase: "order 11 is not computed", src: srcMeasure},
+	{name: "harmonic 1", doc: hdr3 + "alarms: [{name: x, metric: pct, channel: ia, harmonic: 1, above: 5}]\n", line: 10, key: "alarms[0].harmonic", phrase: "allowed: 2 to 50", src: srcBrief},
+	{name: "harmonic on rms", doc: hdr3 + "alarms: [{name: x, metric: rms, channel: ia, harmonic: 5, above: 5}]\n", line: 10, key: "alarms[0].harmonic", phrase: "applies to metrics pct and pct_il only", src: srcBrief},
+	{name: "level 1h", doc: hdr3 + "alarms: [{name: x, metric: rms, channel: ia, level: 1h, above: 5}]\n", line: 10, key: "alarms[0].level", phrase: "use one of: 200ms, 3s, 10min, 2h", src: "DESIGN.md, Time: interval labels are a closed set"},
+	{name: "severity high", doc: hdr3 + "alarms: [{name: x, metric: rms, channel: ia, severity: high, above: 5}]\n", line: 10, key: "alarms[0].severity", phrase: "use one of: info, warning, critical", src: srcBrief},
+	{name: "pf threshold above 1", doc: hdr3 + "alarms: [{name: x, metric: pf, below: 1.5}]\n", line: 10, key: "alarms[0].below", phrase: "allowed: -1 to 1", src: "IEEE 1459: |PF| ≤ 1"},
+	{name: "negative rms threshold", doc: hdr3 + "alarms: [{name: x, metric: rms, channel: ia, above: -5}]\n", line: 10, key: "alarms[0].above", phrase: "must not be negative for rms", src: "analytic: an RMS value is ≥ 0"},
+	{name: "negative deadband", doc: hdr3 + "alarms: [{name: x, metric: rms, channel: ia, above: 5, deadband: -1}]\n", line: 10, key: "alarms[0].deadband", phrase: "must not be negative", src: srcBrief},
+	{name: "negative on_delay", doc: hdr3 + "alarms: [{name: x, metric: rms, channel: ia, above: 5, on_delay: -5s}]\n", line: 10, key: "alarms[0].on_delay", phrase: "must not be negative", src: srcBrief},
+	{name: "min_load_pct on a voltage", doc: hdr3 + "alarms: [{name: x, metric: thd_pct, channel: va, above: 5, min_load_pct: 10}]\n", line: 10, key: "alarms[0].min_load_pct", phrase: "applies to rules on current channels and to pf and dpf", src: srcDaemon},
+	{name: "min_load_pct without base", doc: hdr1 + "  - {name: ia, kind: current, phase: a}\nalarms: [{name: x, metric: thd_pct, channel: ia, above: 5, min_load_pct: 10}]\n", line: 5, key: "alarms[0].min_load_pct", phrase: "needs a base: set il_a, or full_scale on current channel ia", src: srcDaemon},
+	{name: "min_load_pct 150", doc: hdr3 + "alarms: [{name: x, metric: pf, below: 0.9, min_load_pct: 150}]\n", line: 10, key: "alarms[0].min_load_pct", phrase: "allowed: 0 to 100", src: srcBrief},
+	{name: "unbalance on single-phase", doc: hdr1 + "wiring: single-phase\nalarms: [{name: x, metric: unbalance_voltage_pct, above: 2}]\n", line: 5, key: "alarms[0].metric", phrase: "needs wiring: wye", src: srcDesign + " (single-phase: no sequence or unbalance)"},
+	{name: "current unbalance without ic", doc: hdr1 + "  - {name: vb, kind: voltage, phase: b}\n  - {name: ia, kind: current, phase: a}\n  - {name: ib, kind: current, phase: b}\nalarms: [{name: x, metric: unbalance_current_pct, above: 2}]\n", line: 7, key: "alarms[0].metric", phrase: "needs current channels on phases a, b and c; phase c has none", src: "IEC 61000-4-30 unbalance: three phases"},
+	{name: "channel on freq", doc: hdr3 + "alarms: [{name: x, metric: freq_hz, channel: va, below: 49.5}]\n", line: 10, key: "alarms[0].channel", phrase: "does not apply to freq_hz", src: srcBrief},
+	{name: "freq threshold zero", doc: hdr3 + "alarms: [{name: x, metric: freq_hz, below: 0}]\n", line: 10, key: "alarms[0].below", phrase: "must be more than 0 Hz", src: "common practice, no source"},
+	{name: "alarms not a list", doc: hdr3 + "alarms: {name: x}\n", line: 10, key: "alarms", phrase: "must be a list of alarm rules", src: srcBrief},
+}
+
+func TestParseBad(t *testing.T) {
+	t.Parallel()
+	for _, tc := range badCases {
+		t.Run(tc.name, func(t *testing.T) {
+			t.Parallel()
+			c, err := Parse("bad.yaml", []byte(tc.doc))
+			if err == nil {
+				t.Fatalf("Parse accepted the document (src: %s); got %+v", tc.src, c)
+			}
+			var e *Error
+			if !errors.As(err, &e) {
+				t.Fatalf("error %T %v is not an *Error", err, err)
+			}
+			if !errors.Is(err, ErrInvalid) {
+				t.Errorf("errors.Is(err, ErrInvalid) = false for %v", err)
+			}
+			if e.File != "bad.yaml" || e.Line != tc.line || e.Key != tc.key || !strings.Contains(e.Msg, tc.phrase) {
+				t.Errorf("got  %s\nwant bad.yaml:%d: key %q, message containing %q (src: %s)", e, tc.line, tc.key, tc.phrase, tc.src)
+			}
+			if tc.col != 0 && e.Col != tc.col {
+				t.Errorf("column = %d, want %d (%s)", e.Col, tc.col, e)
+			}
+			if want := fmt.Sprintf("bad.yaml:%d:", tc.line); !strings.HasPrefix(e.Error(), want) {
+				t.Errorf("Error() = %q, want prefix %q", e.Error(), want)
+			}
+		})
+	}
+}

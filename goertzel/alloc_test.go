@@ -1,0 +1,45 @@
+//go:build !race
+
+package goertzel
+
+import "testing"
+
+// The race detector changes allocation counts, hence the build constraint.
+
+func TestBankAllocs(t *testing.T) {
+	const w = 50.0 / 10240
+	b := mustBank(t, seq(1, 50))
+	x := drive50(2048, w, 1)
+	dst := make([]complex128, b.Len())
+	// src: STYLE.md §5, zero allocations on per-sample paths.
+	for name, f := range map[string]func(){
+		"Reset":   func() { b.Reset(w) },
+		"Write":   func() { b.Write(x[:128]) },
+		"Write1":  func() { b.Write(x[:1]) },
+		"Phasors": func() { b.Phasors(dst) },
+		"Window":  func() { b.Reset(w); b.Write(x); b.Phasors(dst) },
+	} {
+		if n := testing.AllocsPerRun(100, f); n != 0 {
+			t.Errorf("Bank.%s: %v allocs per call, want 0", name, n)
+		}
+	}
+}
+
+func TestSlidingAllocs(t *testing.T) {
+	s := mustSliding(t, 64, []int{1, 3, 5})
+	x := drive50(256, 1.0/64, 2)
+	var sink complex128
+	// 100 runs of 256 samples pass several periodic re-sums (every 64·64).
+	// src: STYLE.md §5, zero allocations on per-sample paths.
+	for name, f := range map[string]func(){
+		"Push":       func() { s.Push(x[7]) },
+		"Write":      func() { s.Write(x) },
+		"Phasor":     func() { sink += s.Phasor(1) },
+		"SumSquares": func() { sink += complex(s.SumSquares(), 0) },
+	} {
+		if n := testing.AllocsPerRun(100, f); n != 0 {
+			t.Errorf("Sliding.%s: %v allocs per call, want 0", name, n)
+		}
+	}
+	_ = sink
+}

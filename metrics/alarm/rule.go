@@ -1,0 +1,284 @@
+package alarm
+
+import (
+	"fmt"
+	"math"
+	"slices"
+	"time"
+
+	"github.com/gridloupe/gridloupe/metrics"
+)
+
+// Metric names a rule can watch. They are the record's JSON key names.
+const (
+	MetricRMS        = "rms"                   // channel RMS, V or A
+	MetricTHD        = "thd_pct"               // channel THD-F, all components, %
+	MetricTHDH50     = "thd_h50_pct"           // channel THD over orders 2..50, %
+	MetricTDD        = "tdd_pct"               // current TDD, all components, % of IL
+	MetricTDDH50     = "tdd_h50_pct"           // current TDD over orders 2..50, % of IL
+	MetricPct        = "pct"                   // one harmonic, % of the channel's fundamental
+	MetricPctIL      = "pct_il"                // one current harmonic, % of IL
+	MetricPF         = "pf"                    // power factor of a phase or the total
+	MetricDPF        = "dpf"                   // displacement power factor of a phase or the total
+	MetricFreq       = "freq_hz"               // line frequency, Hz
+	MetricUnbalanceV = "unbalance_voltage_pct" // voltage unbalance, %
+	MetricUnbalanceI = "unbalance_current_pct" // current unbalance, %
+)
+
+type metric uint8
+
+const (
+	mRMS metric = iota + 1
+	mTHD
+	mTHDH50
+	mTDD
+	mTDDH50
+	mPct
+	mPctIL
+	mPF
+	mDPF
+	mFreq
+	mUnbV
+	mUnbI
+)
+
+var metricNames = [...]string{mRMS: MetricRMS, mTHD: MetricTHD, mTHDH50: MetricTHDH50,
+	mTDD: MetricTDD, mTDDH50: MetricTDDH50, mPct: MetricPct, mPctIL: MetricPctIL,
+	mPF: MetricPF, mDPF: MetricDPF, mFreq: MetricFreq, mUnbV: MetricUnbalanceV, mUnbI: MetricUnbalanceI}
+
+// Metrics lists every metric name a Rule may use, for help and error texts.
+func Metrics() []string { return append([]string(nil), metricNames[1:]...) }
+
+func parseMetric(s string) (metric, bool) {
+	for i, n := range metricNames {
+		if i > 0 && n == s {
+			return metric(i), true
+		}
+	}
+	return 0, false
+}
+
+func (m metric) perChannel() bool  { return m >= mRMS && m <= mPctIL }
+func (m metric) perHarmonic() bool { return m == mPct || m == mPctIL }
+func (m metric) currentOnly() bool { return m == mTDD || m == mTDDH50 || m == mPctIL }
+func (m metric) needsAll() bool    { return m == mTHDH50 || m == mTDDH50 }
+func (m metric) power() bool       { return m == mPF || m == mDPF }
+
+// Target says where a rule's metric is read.
+type Target struct {
+	Channel int  // index in Setup.Channels for channel metrics; −1 (ignored) otherwise
+	Phase   byte // pf, dpf per phase: 'a', 'b' or 'c'; 0 with Total
+	Total   bool // pf, dpf of the three-phase (or single-phase) total
+}
+
+// Rule is one alarm rule, as the command-line wiring builds it from the
+// config file's alarms section.
+type Rule struct {
+	Name     string // unique; names the alarm in messages and in the store
+	Metric   string // one of Metrics()
+	Harmonic int    // pct, pct_il: the order, 2..50, computed by the setup
+	Target   Target
+	Level    metrics.Interval // only records of this level are evaluated
+
+	Above     bool    // true: raise when value > Threshold; false: raise when value < Threshold
+	Threshold float64 // metric units
+	// Deadband is the hysteresis in metric units, ≥ 0: a raised rule clears
+	// only when value < Threshold − Deadband (Above) or value > Threshold +
+	// Deadband (below rules).
+	Deadband float64
+
+	// OnDelay and OffDelay are how long, in sample time (record start +
+	// duration, not wall time), the raise (clear) condition must hold
+	// before the transition; 0 = on the first record that meets it.
+	OnDelay, OffDelay time.Duration
+
+	Severity string // free text carried into transitions (info, warning, critical)
+
+	// MinLoad is an absolute current, A: when the mean RMS of LoadChannels
+	// is below it (or null), the rule holds its state, neither raising nor
+	// clearing (quiet at light load). 0 = no minimum.
+	MinLoad      float64
+	LoadChannels []int // current channels compared with MinLoad (the rule's channel, or the phase currents)
+
+	Text string // human text for the alarm message
+}
+
+// compiled is a validated rule with its lookups resolved against the setup.
+type compiled struct {
+	m     metric
+	ch    int // channel index (channel metrics)
+	hk    int // index of Harmonic in Setup.Orders (pct, pct_il)
+	phase int // index in Setup.Pairs / Record.Phases; −1 for the total
+	load  []int
+}
+
+// compile validates r against s.
+func compile(r *Rule, s *metrics.Setup) (compiled, error) {
+	c := compiled{ch: -1, hk: -1, phase: -1}
+	if r.Name == "" {
+		return c, fmt.Errorf("rule without a name: %w", ErrRule)
+	}
+	m, ok := parseMetric(r.Metric)
+	if !ok {
+		return c, fmt.Errorf("rule %q: metric %q (allowed: %v): %w", r.Name, r.Metric, Metrics(), ErrMetric)
+	}
+	c.m = m
+	if r.Level.String() == "invalid" {
+		return c, fmt.Errorf("rule %q: level %d (allowed: %v): %w", r.Name, r.Level, metrics.IntervalLabels(), ErrRule)
+	}
+	if !finite(r.Threshold) {
+		return c, fmt.Errorf("rule %q: threshold %v: %w", r.Name, r.Threshold, ErrRule)
+	}
+	if !(r.Deadband >= 0) || math.IsInf(r.Deadband, 0) {
+		return c, fmt.Errorf("rule %q: deadband %v must be a finite number ≥ 0: %w", r.Name, r.Deadband, ErrRule)
+	}
+	if r.OnDelay < 0 || r.OffDelay < 0 {
+		return c, fmt.Errorf("rule %q: delays %v/%v must be ≥ 0: %w", r.Name, r.OnDelay, r.OffDelay, ErrRule)
+	}
+	if !(r.MinLoad >= 0) || math.IsInf(r.MinLoad, 0) {
+		return c, fmt.Errorf("rule %q: min load %v must be a finite number ≥ 0: %w", r.Name, r.MinLoad, ErrRule)
+	}
+	if err := c.target(r, s); err != nil {
+		return c, fmt.Errorf("rule %q: metric %s: %w", r.Name, r.Metric, err)
+	}
+	if r.MinLoad > 0 && len(r.LoadChannels) == 0 {
+		return c, fmt.Errorf("rule %q: min load %v A without load channels: %w", r.Name, r.MinLoad, ErrTarget)
+	}
+	for _, li := range r.LoadChannels {
+		if li < 0 || li >= len(s.Channels) || s.Channels[li].Kind != metrics.Current {
+			return c, fmt.Errorf("rule %q: load channel %d is not a current channel: %w", r.Name, li, ErrTarget)
+		}
+	}
+	c.load = slices.Clone(r.LoadChannels)
+	return c, nil
+}
+
+func (c *compiled) target(r *Rule, s *metrics.Setup) error {
+	m := c.m
+	switch {
+	case m.perChannel():
+		ci := r.Target.Channel
+		if ci < 0 || ci >= len(s.Channels) {
+			return fmt.Errorf("channel index %d (setup has %d): %w", ci, len(s.Channels), ErrTarget)
+		}
+		ch := s.Channels[ci]
+		if m.currentOnly() {
+			if ch.Kind != metrics.Current {
+				return fmt.Errorf("channel %q is a %s; needs a current: %w", ch.Name, ch.Kind, ErrTarget)
+			}
+			if !(s.ILA > 0) {
+				return fmt.Errorf("channel %q: needs IL (il_a) configured: %w", ch.Name, ErrTarget)
+			}
+		}
+		if m.needsAll() && !s.AllOrders {
+			return fmt.Errorf("needs all harmonic orders 2..50 (harmonics: all): %w", ErrTarget)
+		}
+		if m.perHarmonic() {
+			k := slices.Index(s.Orders, r.Harmonic)
+			if r.Harmonic < 2 || k < 0 {
+				return fmt.Errorf("harmonic %d is not a computed order 2..%d (computed: %v): %w",
+					r.Harmonic, metrics.MaxOrder, s.Orders, ErrTarget)
+			}
+			c.hk = k
+		}
+		c.ch = ci
+	case m.power():
+		switch {
+		case r.Target.Total && r.Target.Phase != 0:
+			return fmt.Errorf("both phase %q and total: %w", r.Target.Phase, ErrTarget)
+		case r.Target.Total:
+			if len(s.Pairs) == 0 {
+				return fmt.Errorf("total needs a phase with both a voltage and a current: %w", ErrTarget)
+			}
+		default:
+			k := slices.IndexFunc(s.Pairs, func(p metrics.Pair) bool { return p.Phase == r.Target.Phase })
+			if k < 0 {
+				return fmt.Errorf("phase %q has no voltage and current pair: %w", r.Target.Phase, ErrTarget)
+			}
+			c.phase = k
+		}
+	case m == mUnbV || m == mUnbI:
+		idx, what := s.VIdx, "voltages"
+		if m == mUnbI {
+			idx, what = s.IIdx, "currents"
+		}
+		if s.Wiring != metrics.Wye || idx[0] < 0 || idx[1] < 0 || idx[2] < 0 {
+			return fmt.Errorf("needs wye wiring with three phase %s: %w", what, ErrTarget)
+		}
+	}
+	return nil
+}
+
+func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
+
+// value reads c's metric from r: NaN when null, absent or out of shape.
+func (c *compiled) value(r *metrics.Record) float64 {
+	var v float64
+	switch c.m {
+	case mRMS, mTHD, mTHDH50, mTDD, mTDDH50, mPct, mPctIL:
+		if c.ch < 0 || c.ch >= len(r.Channels) {
+			return math.NaN()
+		}
+		cv := &r.Channels[c.ch]
+		switch c.m {
+		case mRMS:
+			v = cv.RMS
+		case mTHD:
+			v = cv.THDPct
+		case mTHDH50:
+			v = cv.THDH50Pct
+		case mTDD:
+			v = cv.TDDPct
+		case mTDDH50:
+			v = cv.TDDH50Pct
+		default:
+			if c.hk < 0 || c.hk >= len(cv.H) {
+				return math.NaN()
+			}
+			if c.m == mPct {
+				v = cv.H[c.hk].Pct
+			} else {
+				v = cv.H[c.hk].PctIL
+			}
+		}
+	case mPF, mDPF:
+		if len(r.Phases) == 0 || c.phase >= len(r.Phases) {
+			return math.NaN()
+		}
+		switch {
+		case c.phase >= 0 && c.m == mPF:
+			v = r.Phases[c.phase].PF
+		case c.phase >= 0:
+			v = r.Phases[c.phase].DPF
+		case c.m == mPF:
+			v = r.Total.PF
+		default:
+			v = r.Total.DPF
+		}
+	case mFreq:
+		v = r.FreqHz
+	case mUnbV:
+		v = r.UnbV
+	case mUnbI:
+		v = r.UnbI
+	default:
+		return math.NaN()
+	}
+	if !finite(v) {
+		return math.NaN()
+	}
+	return v
+}
+
+// loadA returns the mean RMS of the load channels in r, A; NaN when any is
+// null or absent.
+func (c *compiled) loadA(r *metrics.Record) float64 {
+	sum := 0.0
+	for _, li := range c.load {
+		if li >= len(r.Channels) || !finite(r.Channels[li].RMS) {
+			return math.NaN()
+		}
+		sum += r.Channels[li].RMS
+	}
+	return sum / float64(len(c.load))
+}

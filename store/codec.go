@@ -1,0 +1,311 @@
+package store
+
+import (
+	"encoding/binary"
+	"fmt"
+	"math"
+
+	"github.com/gridloupe/gridloupe/metrics"
+)
+
+// recordVersion is the leading byte of every stored record.
+const recordVersion = 1
+
+// RecordBudget8Ch50 is the byte budget of one stored record with 8 channels,
+// all 50 orders, three phases and both sequence sets (see the package doc).
+const RecordBudget8Ch50 = 4096
+
+// nullPhase is the int16 stored for an undefined phase angle.
+const nullPhase = math.MinInt16
+
+// presence bits.
+const (
+	hasFreq10s = 1 << iota
+	hasSeqV
+	hasSeqI
+)
+
+// channel flag bits.
+const (
+	chPctNull = 1 << iota
+	chPctILNull
+)
+
+var be = binary.BigEndian
+
+func appendF32(b []byte, v float64) []byte { return be.AppendUint32(b, math.Float32bits(float32(v))) }
+
+func appendPhase(b []byte, deg float64) []byte {
+	if deg != deg {
+		return be.AppendUint16(b, uint16(0x8000))
+	}
+	c := math.Round(deg * 100)
+	// Angles are in (−180, 180]; clamp so a stray value cannot hit the null sentinel.
+	c = math.Max(-18000, math.Min(18000, c))
+	return be.AppendUint16(b, uint16(int16(c)))
+}
+
+// encodeRecord appends r's compact form (layout s, id lid) to dst.
+func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) ([]byte, error) {
+	no := len(s.Orders)
+	if len(r.Channels) != len(s.Channels) {
+		return dst, fmt.Errorf("%d channels, layout has %d: %w", len(r.Channels), len(s.Channels), ErrBadLayout)
+	}
+	for i := range r.Channels {
+		h := r.Channels[i].H
+		if len(h) != no {
+			return dst, fmt.Errorf("channel %q: %d orders, layout has %d: %w", s.Channels[i].Name, len(h), no, ErrBadLayout)
+		}
+		for j := range h {
+			if h[j].H != s.Orders[j] {
+				return dst, fmt.Errorf("channel %q: order %d, layout has %d: %w", s.Channels[i].Name, h[j].H, s.Orders[j], ErrBadLayout)
+			}
+		}
+	}
+	if len(r.Phases) > 3 {
+		return dst, fmt.Errorf("%d phases: %w", len(r.Phases), ErrBadLayout)
+	}
+	var pres byte
+	if r.HasFreq10s {
+		pres |= hasFreq10s
+	}
+	for k, sq := range [2][]metrics.Seq{r.SeqV, r.SeqI} {
+		if len(sq) == 0 {
+			continue
+		}
+		if len(sq) != no {
+			return dst, fmt.Errorf("%d sequence orders, layout has %d: %w", len(sq), no, ErrBadLayout)
+		}
+		pres |= hasSeqV << k
+	}
+	b := append(dst, recordVersion)
+	b = be.AppendUint16(b, lid)
+	b = be.AppendUint64(b, uint64(r.Start.UnixNano()))
+	b = be.AppendUint64(b, math.Float64bits(r.DurationS))
+	b = binary.AppendUvarint(b, r.Samples)
+	b = be.AppendUint16(b, uint16(r.Flags))
+	b = append(b, pres)
+	b = appendF32(b, r.FreqHz)
+	if r.HasFreq10s {
+		b = appendF32(b, r.Freq10sHz)
+	}
+	for i := range r.Channels {
+		c := &r.Channels[i]
+		var f byte
+		if c.H[0].Pct != c.H[0].Pct {
+			f |= chPctNull
+		}
+		if c.H[0].PctIL != c.H[0].PctIL {
+			f |= chPctILNull
+		}
+		b = append(b, f)
+		b = appendF32(b, c.RMS)
+		b = appendF32(b, c.DC)
+		b = appendF32(b, c.THDPct)
+		b = appendF32(b, c.THDH50Pct)
+		b = appendF32(b, c.TDDPct)
+		b = appendF32(b, c.TDDH50Pct)
+		for j := range c.H {
+			b = appendF32(b, c.H[j].RMS)
+			b = appendPhase(b, c.H[j].PhaseDeg)
+		}
+	}
+	b = append(b, byte(len(r.Phases)))
+	for i := range r.Phases {
+		p := &r.Phases[i]
+		b = append(b, p.Phase)
+		for _, v := range [...]float64{p.P, p.P1, p.Q1, p.S, p.S1, p.SN, p.DI, p.DV, p.SH, p.PF, p.DPF} {
+			b = appendF32(b, v)
+		}
+	}
+	if len(r.Phases) > 0 {
+		t := &r.Total
+		for _, v := range [...]float64{t.P, t.Q1, t.S, t.Se, t.Se1, t.Ve, t.Ie, t.PF, t.DPF} {
+			b = appendF32(b, v)
+		}
+	}
+	for _, sq := range [2][]metrics.Seq{r.SeqV, r.SeqI} {
+		for j := range sq {
+			b = appendF32(b, sq[j].Pos)
+			b = appendF32(b, sq[j].Neg)
+			b = appendF32(b, sq[j].Zero)
+		}
+	}
+	b = appendF32(b, r.UnbV)
+	b = appendF32(b, r.UnbI)
+	return b, nil
+}
+
+// reader consumes a byte slice; the first short read sets err and later reads return zero.
+type reader struct {
+	b   []byte
+	err error
+}
+
+func (r *reader) take(n int) []byte {
+	if r.err != nil || len(r.b) < n {
+		if r.err == nil {
+			r.err = fmt.Errorf("record truncated: %w", ErrCorrupt)
+		}
+		return nil
+	}
+	p := r.b[:n]
+	r.b = r.b[n:]
+	return p
+}
+
+func (r *reader) u8() byte {
+	if p := r.take(1); p != nil {
+		return p[0]
+	}
+	return 0
+}
+
+func (r *reader) u16() uint16 {
+	if p := r.take(2); p != nil {
+		return be.Uint16(p)
+	}
+	return 0
+}
+
+func (r *reader) u64() uint64 {
+	if p := r.take(8); p != nil {
+		return be.Uint64(p)
+	}
+	return 0
+}
+
+func (r *reader) f32() float64 {
+	if p := r.take(4); p != nil {
+		return float64(math.Float32frombits(be.Uint32(p)))
+	}
+	return 0
+}
+
+func (r *reader) phase() float64 {
+	v := int16(r.u16())
+	if v == nullPhase {
+		return math.NaN()
+	}
+	return float64(v) / 100
+}
+
+func (r *reader) uvarint() uint64 {
+	if r.err != nil {
+		return 0
+	}
+	v, n := binary.Uvarint(r.b)
+	if n <= 0 {
+		r.err = fmt.Errorf("bad uvarint: %w", ErrCorrupt)
+		return 0
+	}
+	r.b = r.b[n:]
+	return v
+}
+
+// recordLayoutID returns the layout id of an encoded record.
+func recordLayoutID(b []byte) (uint16, error) {
+	if len(b) < 3 {
+		return 0, fmt.Errorf("record of %d bytes: %w", len(b), ErrCorrupt)
+	}
+	if b[0] != recordVersion {
+		return 0, fmt.Errorf("record version %d: %w", b[0], ErrCorrupt)
+	}
+	return be.Uint16(b[1:3]), nil
+}
+
+// newRecord returns a Record whose slices are sized for layout s.
+func newRecord(s *metrics.Setup) *metrics.Record {
+	r := &metrics.Record{Channels: make([]metrics.ChannelValues, len(s.Channels))}
+	hs := make([]metrics.Harmonic, len(s.Channels)*len(s.Orders))
+	for i := range r.Channels {
+		r.Channels[i].H = hs[i*len(s.Orders) : (i+1)*len(s.Orders) : (i+1)*len(s.Orders)]
+	}
+	return r
+}
+
+// decodeRecord decodes b, written with layout s, into a new Record.
+func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Record, error) {
+	if _, err := recordLayoutID(b); err != nil {
+		return nil, err
+	}
+	rd := &reader{b: b[3:]}
+	r := newRecord(s)
+	r.Interval = iv
+	r.Start = unixNano(int64(rd.u64()))
+	r.DurationS = math.Float64frombits(rd.u64())
+	r.Samples = rd.uvarint()
+	r.Flags = metrics.Flags(rd.u16())
+	pres := rd.u8()
+	r.FreqHz = rd.f32()
+	r.Freq10sHz = math.NaN()
+	if pres&hasFreq10s != 0 {
+		r.HasFreq10s = true
+		r.Freq10sHz = rd.f32()
+	}
+	for i := range r.Channels {
+		c := &r.Channels[i]
+		f := rd.u8()
+		c.RMS, c.DC, c.THDPct, c.THDH50Pct, c.TDDPct, c.TDDH50Pct = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
+		for j := range c.H {
+			c.H[j].H = s.Orders[j]
+			c.H[j].RMS = rd.f32()
+			c.H[j].PhaseDeg = rd.phase()
+		}
+		fillPct(c, f, s.Channels[i].Kind, s.ILA)
+	}
+	np := int(rd.u8())
+	if np > 3 {
+		return nil, fmt.Errorf("%d phases: %w", np, ErrCorrupt)
+	}
+	if rd.err == nil && np > 0 {
+		r.Phases = make([]metrics.PhaseValues, np)
+	}
+	for i := range r.Phases {
+		p := &r.Phases[i]
+		p.Phase = rd.u8()
+		p.P, p.P1, p.Q1, p.S, p.S1, p.SN = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
+		p.DI, p.DV, p.SH, p.PF, p.DPF = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
+	}
+	if np > 0 {
+		t := &r.Total
+		t.P, t.Q1, t.S, t.Se, t.Se1 = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
+		t.Ve, t.Ie, t.PF, t.DPF = rd.f32(), rd.f32(), rd.f32(), rd.f32()
+	}
+	for k, dst := range [2]*[]metrics.Seq{&r.SeqV, &r.SeqI} {
+		if pres&(hasSeqV<<k) == 0 || rd.err != nil {
+			continue
+		}
+		sq := make([]metrics.Seq, len(s.Orders))
+		for j := range sq {
+			sq[j] = metrics.Seq{H: s.Orders[j], Pos: rd.f32(), Neg: rd.f32(), Zero: rd.f32()}
+		}
+		*dst = sq
+	}
+	r.UnbV = rd.f32()
+	r.UnbI = rd.f32()
+	if rd.err != nil {
+		return nil, rd.err
+	}
+	if len(rd.b) != 0 {
+		return nil, fmt.Errorf("%d bytes after record: %w", len(rd.b), ErrCorrupt)
+	}
+	return r, nil
+}
+
+// fillPct recomputes pct (of the channel's fundamental) and pct_il (of IL).
+func fillPct(c *metrics.ChannelValues, f byte, k metrics.Kind, il float64) {
+	h1 := c.H[0].RMS
+	for j := range c.H {
+		h := &c.H[j]
+		h.Pct, h.PctIL = math.NaN(), math.NaN()
+		if f&chPctNull == 0 && h1 > 0 {
+			h.Pct = 100 * h.RMS / h1
+		}
+		if f&chPctILNull == 0 && k == metrics.Current && il > 0 {
+			h.PctIL = 100 * h.RMS / il
+		}
+	}
+}
+
+func nan() float64 { return math.NaN() }

@@ -1,0 +1,440 @@
+package stream
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"log/slog"
+	"math"
+	"math/cmplx"
+	"time"
+
+	"github.com/gridloupe/gridloupe/goertzel"
+	"github.com/gridloupe/gridloupe/metrics"
+)
+
+// Cal is one channel's calibration: engineering value = raw·Scale + Offset.
+type Cal struct {
+	Scale  float64 // 0 means 1
+	Offset float64
+}
+
+// Config configures a Pipeline. Zero values are documented per field.
+type Config struct {
+	Setup      *metrics.Setup // from metrics.NewSetup; required
+	Cal        []Cal          // per Setup.Channels; nil = raw values are engineering values
+	SampleRate float64        // Hz; required
+	NominalHz  float64        // 50 or 60; required
+	// LockMinRMS is the reference fundamental RMS (engineering units) below
+	// which the tracker reports no lock. 0 means 10 % of Setup.NominalV.
+	LockMinRMS float64
+	// Base is the wall time of sample 0. Zero means 1970-01-01T00:00:00Z,
+	// so replay output is deterministic.
+	Base time.Time
+	// BlockFrames is the number of frames read per call; 0 means 512.
+	BlockFrames int
+	// Unsynced, when set, is asked once per window whether the system clock
+	// lacks synchronisation (records then carry clock_unsynced). nil = synced.
+	Unsynced func() bool
+	// Logger receives rate-limited warnings; nil discards.
+	Logger *slog.Logger
+}
+
+// Tracker limits, documented in the package and README.
+const (
+	// trackRange bounds the tracked frequency to ±30 % of nominal, wider
+	// than the IEC 61000-4-30 range of 42.5–57.5 Hz / 51–69 Hz.
+	trackRange = 0.30
+	// syncTol is the relative frequency error of a window's cut above which
+	// the window is not synchronized and is flagged no_lock (0.1 %).
+	syncTol = 1e-3
+	// refineRange is the largest relative error the half-window phase method
+	// resolves without ambiguity (it wraps at 10 %); beyond 4 % the
+	// zero-crossing estimate is used instead.
+	refineRange = 0.04
+	// maxStepHz bounds the per-window frequency step used for prediction
+	// (2 Hz/s at 200 ms windows), so a glitch cannot throw the cut far off.
+	maxStepHz = 0.4
+	// edgeSnap is the distance, in samples, within which an ideal window
+	// edge is put on the nearest sample (4·10⁻⁶ of a 2048-sample window).
+	edgeSnap = 0.01
+)
+
+// Pipeline runs the per-sample path for one source. It is not safe for
+// concurrent use; one goroutine owns it.
+type Pipeline struct {
+	cfg    Config
+	setup  *metrics.Setup
+	log    *slog.Logger
+	clock  Clock
+	fs     float64
+	nomHz  float64
+	cycles float64
+	lockV  float64
+	nch    int
+	ref    int
+
+	raw   []float64
+	buf   [][]float64
+	scale []float64
+	off   []float64
+	fsc   []float64 // clip threshold per channel, +Inf when none
+
+	banks []*goertzel.Bank
+	half  *goertzel.Bank
+	halfX [1]complex128
+
+	in  metrics.Input
+	rec *metrics.Record
+	zc  crossings
+
+	// window state
+	idx      uint64  // index of the next sample
+	winStart uint64  // first sample of the current window
+	winN     int     // samples in the current window
+	filled   int     // samples accumulated so far
+	edgeI    uint64  // ideal start edge of the next window: integer part
+	edgeR    float64 // and fraction in [0, 1)
+	fUsed    float64 // frequency the current window was cut for
+	fPrev    float64 // measured frequency of the previous window, NaN if none
+	locked   bool
+	tenEnd   uint64 // sample index where the current 10 s interval ends
+	leftover int    // samples of an unfinished window at EOF
+	windows  uint64
+}
+
+// New validates cfg and allocates every buffer the run needs.
+func New(cfg Config) (*Pipeline, error) {
+	s := cfg.Setup
+	if s == nil || len(s.Channels) == 0 {
+		return nil, fmt.Errorf("%w: no channels", ErrConfig)
+	}
+	if !(cfg.SampleRate > 0) || math.IsInf(cfg.SampleRate, 0) {
+		return nil, fmt.Errorf("%w: sample rate %v Hz", ErrConfig, cfg.SampleRate)
+	}
+	if cfg.NominalHz != 50 && cfg.NominalHz != 60 {
+		return nil, fmt.Errorf("%w: nominal frequency %v Hz, want 50 or 60", ErrConfig, cfg.NominalHz)
+	}
+	if cfg.Cal != nil && len(cfg.Cal) != len(s.Channels) {
+		return nil, fmt.Errorf("%w: %d calibrations for %d channels", ErrConfig, len(cfg.Cal), len(s.Channels))
+	}
+	maxOrder := s.Orders[len(s.Orders)-1]
+	if float64(maxOrder)*cfg.NominalHz*(1+trackRange) >= cfg.SampleRate/2 {
+		// still runs, but the top orders alias; config validation warns earlier
+		if cfg.Logger != nil {
+			cfg.Logger.Warn("sample rate too low for the highest order", "order", maxOrder, "sample_rate_hz", cfg.SampleRate)
+		}
+	}
+	p := &Pipeline{cfg: cfg, setup: s, fs: cfg.SampleRate, nomHz: cfg.NominalHz, nch: len(s.Channels), ref: s.Reference}
+	p.log = cfg.Logger
+	if p.log == nil {
+		p.log = slog.New(slog.DiscardHandler)
+	}
+	p.cycles = 10
+	if cfg.NominalHz == 60 {
+		p.cycles = 12
+	}
+	p.lockV = cfg.LockMinRMS
+	if p.lockV <= 0 {
+		p.lockV = 0.10 * s.NominalV
+	}
+	base := cfg.Base
+	if base.IsZero() {
+		base = time.Unix(0, 0).UTC()
+	}
+	p.clock = NewClock(base, cfg.SampleRate)
+	bf := cfg.BlockFrames
+	if bf <= 0 {
+		bf = 512
+	}
+	p.raw = make([]float64, bf*p.nch)
+	p.buf = make([][]float64, p.nch)
+	p.scale = make([]float64, p.nch)
+	p.off = make([]float64, p.nch)
+	p.fsc = make([]float64, p.nch)
+	p.banks = make([]*goertzel.Bank, p.nch)
+	p.in.Ch = make([]metrics.ChannelSums, p.nch)
+	for c := range p.nch {
+		p.buf[c] = make([]float64, bf)
+		p.scale[c], p.off[c] = 1, 0
+		if cfg.Cal != nil {
+			if cfg.Cal[c].Scale != 0 {
+				p.scale[c] = cfg.Cal[c].Scale
+			}
+			p.off[c] = cfg.Cal[c].Offset
+		}
+		p.fsc[c] = math.Inf(1)
+		if fs := s.Channels[c].FullScale; fs > 0 {
+			p.fsc[c] = fs
+		}
+		b, err := goertzel.NewBank(s.Orders)
+		if err != nil {
+			return nil, fmt.Errorf("%w: channel %q: %w", ErrConfig, s.Channels[c].Name, err)
+		}
+		p.banks[c] = b
+		p.in.Ch[c].Phasors = make([]complex128, len(s.Orders))
+	}
+	h, err := goertzel.NewBank([]int{1})
+	if err != nil {
+		return nil, fmt.Errorf("%w: %w", ErrConfig, err)
+	}
+	p.half = h
+	p.in.SumVI = make([]float64, len(s.Pairs))
+	p.rec = metrics.NewRecord(s)
+	// hysteresis: a tenth of the lock threshold's peak keeps noise from
+	// re-arming the detector; a locked signal is far larger.
+	p.zc = newCrossings(cfg.SampleRate, cfg.NominalHz, 0.1*p.lockV*math.Sqrt2)
+	p.fUsed = p.nomHz
+	p.fPrev = math.NaN()
+	p.tenEnd = p.nextTenEnd(0)
+	p.zc.setTen(p.tenEnd)
+	p.startWindow()
+	return p, nil
+}
+
+// nextTenEnd returns the sample index of the first 10 s wall-clock boundary
+// strictly after sample idx.
+func (p *Pipeline) nextTenEnd(idx uint64) uint64 {
+	t := p.clock.Time(idx)
+	b := t.Truncate(10 * time.Second).Add(10 * time.Second)
+	return p.clock.Index(b)
+}
+
+// startWindow cuts the next window: it holds p.cycles cycles of p.fUsed,
+// its ideal edges are carried with their fractions so that no sample is lost
+// or counted twice and rounding never accumulates.
+func (p *Pipeline) startWindow() {
+	f := p.fUsed
+	l := p.cycles * p.fs / f
+	startCeil := p.edgeI
+	if p.edgeR > 0 {
+		startCeil++
+	}
+	r := p.edgeR + l
+	// An ideal edge within edgeSnap of a whole sample is put on it: with
+	// the tracked frequency jittering by parts per million, an edge sitting
+	// on a sample would otherwise flip between neighbours and cut windows
+	// of N+1 and N−1 samples in turn.
+	if rr := math.Round(r); math.Abs(r-rr) < edgeSnap {
+		r = rr
+	}
+	whole := math.Floor(r)
+	p.edgeI += uint64(whole)
+	p.edgeR = r - whole
+	endCeil := p.edgeI
+	if p.edgeR > 0 {
+		endCeil++
+	}
+	p.winStart = p.idx // equals startCeil: windows are gapless by construction
+	p.winN = int(endCeil - startCeil)
+	p.filled = 0
+	w := f / p.fs
+	for c := range p.nch {
+		p.banks[c].Reset(w)
+		ch := &p.in.Ch[c]
+		ch.N, ch.Sum, ch.SumSq, ch.Clipped, ch.Bad = 0, 0, 0, false, false
+	}
+	p.half.Reset(w)
+	for i := range p.in.SumVI {
+		p.in.SumVI[i] = 0
+	}
+}
+
+// Windows returns how many windows have been emitted.
+func (p *Pipeline) Windows() uint64 { return p.windows }
+
+// Leftover returns the samples of an unfinished window dropped at the end of
+// the input (a cut recording); 0 when the input ended on a window edge.
+func (p *Pipeline) Leftover() int { return p.leftover }
+
+// Samples returns the number of samples consumed.
+func (p *Pipeline) Samples() uint64 { return p.idx }
+
+// Clock returns the pipeline's sample clock.
+func (p *Pipeline) Clock() Clock { return p.clock }
+
+// Run reads src until io.EOF, an error or ctx's cancellation, calling emit
+// with each window record (200 ms). emit must not keep the record: it is
+// reused. Run returns nil at io.EOF and on cancellation; an error from src
+// is wrapped with ErrSource after the frames that came with it are
+// processed; an error from emit stops the run and is returned as is.
+func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.Record) error) error {
+	for {
+		if err := ctx.Err(); err != nil {
+			return nil
+		}
+		n, rerr := src.ReadFrames(p.raw)
+		if n < 0 || n*p.nch > len(p.raw) {
+			return fmt.Errorf("%w: source returned %d frames for a %d-frame buffer", ErrSource, n, len(p.raw)/p.nch)
+		}
+		if n > 0 {
+			if err := p.block(n, emit); err != nil {
+				return err
+			}
+		}
+		if rerr != nil {
+			p.leftover = p.filled
+			if errors.Is(rerr, io.EOF) {
+				return nil
+			}
+			return fmt.Errorf("%w: %w", ErrSource, rerr)
+		}
+	}
+}
+
+// block calibrates and de-interleaves n frames, then feeds them window by window.
+func (p *Pipeline) block(n int, emit func(*metrics.Record) error) error {
+	nch := p.nch
+	for c := range nch {
+		dst := p.buf[c][:n]
+		sc, of := p.scale[c], p.off[c]
+		for i := range dst {
+			dst[i] = p.raw[i*nch+c]*sc + of
+		}
+	}
+	off := 0
+	for off < n {
+		k := min(p.winN-p.filled, n-off)
+		p.segment(off, k)
+		off += k
+		if p.filled == p.winN {
+			if err := p.finish(emit); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}
+
+// segment accumulates samples [off, off+k) of the current block into the window.
+func (p *Pipeline) segment(off, k int) {
+	for c := range p.nch {
+		seg := p.buf[c][off : off+k]
+		p.banks[c].Write(seg)
+		ch := &p.in.Ch[c]
+		s, ss := ch.Sum, ch.SumSq
+		lim := p.fsc[c]
+		clip := false
+		for _, x := range seg {
+			s += x
+			ss += x * x
+			if x >= lim || -x >= lim {
+				clip = true
+			}
+		}
+		ch.Sum, ch.SumSq, ch.N = s, ss, ch.N+k
+		if clip {
+			ch.Clipped = true
+		}
+	}
+	ref := p.buf[p.ref][off : off+k]
+	if m := p.winN / 2; p.filled < m {
+		p.half.Write(ref[:min(k, m-p.filled)])
+	}
+	p.zc.write(ref)
+	for i, pr := range p.setup.Pairs {
+		v, cur := p.buf[pr.V][off:off+k], p.buf[pr.I][off:off+k]
+		acc := p.in.SumVI[i]
+		for j, x := range v {
+			acc += x * cur[j]
+		}
+		p.in.SumVI[i] = acc
+	}
+	p.filled += k
+	p.idx += uint64(k)
+}
+
+// finish closes the current window: frequency, metrics, emit, next cut.
+func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
+	for c := range p.nch {
+		ch := &p.in.Ch[c]
+		p.banks[c].Phasors(ch.Phasors)
+		if math.IsNaN(ch.Sum) || math.IsInf(ch.Sum, 0) || math.IsNaN(ch.SumSq) || math.IsInf(ch.SumSq, 0) {
+			ch.Bad = true
+		}
+	}
+	used := p.fUsed
+	fMeas, lock := p.track()
+	p.in.FreqHz = fMeas
+	p.in.Lock = lock
+	p.in.OmegaHz = used
+	if lock {
+		p.in.OmegaHz = fMeas
+	}
+	rec := p.rec
+	metrics.Compute(p.setup, &p.in, rec)
+	rec.Interval = metrics.Int200ms
+	rec.Start = p.clock.Time(p.winStart)
+	rec.Samples = uint64(p.winN)
+	rec.DurationS = float64(p.winN) / p.fs
+	rec.FreqHz = fMeas
+	if !lock {
+		rec.Flags |= metrics.FlagNoLock
+	}
+	if p.cfg.Unsynced != nil && p.cfg.Unsynced() {
+		rec.Flags |= metrics.FlagClockUnsynced
+	}
+	rec.HasFreq10s = false
+	if p.idx >= p.tenEnd {
+		if p.zc.nextTen != 0 { // no crossing past the boundary yet: close now
+			p.zc.closeTen()
+		}
+		if f, ok := p.zc.takeTen(); ok && !math.IsNaN(f) {
+			rec.Freq10sHz, rec.HasFreq10s = f, true
+		}
+		p.tenEnd = p.nextTenEnd(p.tenEnd)
+		p.zc.setTen(p.tenEnd)
+	}
+	p.windows++
+	if err := emit(rec); err != nil {
+		return err
+	}
+	p.startWindow()
+	return nil
+}
+
+// track measures the window's fundamental frequency on the reference
+// channel and chooses the next window's cut.
+//
+// Within ±4 % of the cut frequency the phase method refines it: the
+// fundamental's DFT sum over the first half of the window (SA) and over the
+// second half (SB = S − SA) advance in phase by (ω − ω̂)·N/2 radians, so
+// Δf = Δφ·fs/(π·N). On a window holding a whole number of cycles both halves
+// hold five (six) whole cycles, so harmonics cancel and only noise remains.
+// Beyond that range, and after a loss of signal, the zero-crossing count of
+// the low-passed reference gives a coarse value for the next cut.
+func (p *Pipeline) track() (fMeas float64, lock bool) {
+	zcF, zcN := p.zc.windowFreq()
+	x1 := p.in.Ch[p.ref].Phasors[0]
+	if p.in.Ch[p.ref].Bad || !(cmplx.Abs(x1) >= p.lockV) {
+		p.locked = false
+		p.fPrev = math.NaN()
+		p.fUsed = p.nomHz
+		p.zc.resetCounts()
+		return math.NaN(), false
+	}
+	n := float64(p.winN)
+	m := float64(p.winN / 2)
+	p.half.Phasors(p.halfX[:])
+	sa := p.halfX[0] * complex(m/math.Sqrt2, 0)
+	sb := x1*complex(n/math.Sqrt2, 0) - sa
+	dphi := cmplx.Phase(sb * cmplx.Conj(sa))
+	fRef := p.fUsed + dphi*p.fs/(math.Pi*n)
+	fMeas = fRef
+	if zcN >= 3 && math.Abs(zcF-p.fUsed) > refineRange*p.fUsed {
+		fMeas = zcF
+	}
+	lock = math.Abs(fMeas-p.fUsed) <= syncTol*p.fUsed
+	next := fMeas
+	if !math.IsNaN(p.fPrev) {
+		step := max(-maxStepHz, min(maxStepHz, fMeas-p.fPrev))
+		next = fMeas + step
+	}
+	lo, hi := p.nomHz*(1-trackRange), p.nomHz*(1+trackRange)
+	next = max(lo, min(hi, next))
+	p.locked = lock
+	p.fPrev = fMeas
+	p.fUsed = next
+	return fMeas, lock
+}
