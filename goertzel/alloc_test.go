@@ -6,6 +6,9 @@ import "testing"
 
 // The race detector changes allocation counts, hence the build constraint.
 
+// raceEnabled: see race_test.go.
+const raceEnabled = false
+
 func TestBankAllocs(t *testing.T) {
 	const w = 50.0 / 10240
 	b := mustBank(t, seq(1, 50))

@@ -21,7 +21,7 @@ const slideMatchTol = 1e-9
 // to Σx² itself: one window of float64 additions and removals.
 const ssRelTol = 1e-9
 
-// window copies the last n samples of the test's history ring (oldest first).
+// history keeps the last n samples pushed, as the reference for Sliding.
 type history struct {
 	buf   []float64
 	count int
@@ -52,9 +52,10 @@ func (h *history) window(dst []float64) []float64 {
 
 func TestSlidingLongRunDrift(t *testing.T) {
 	t.Parallel()
-	// 10^7 samples takes about a second; -short runs 10^6.
+	// 10^7 samples takes about a second; -short and the (tenfold slower)
+	// race detector run 10^6.
 	total := 10_000_000
-	if testing.Short() {
+	if testing.Short() || raceEnabled {
 		total = 1_000_000
 	}
 	const (

@@ -45,6 +45,7 @@ Usage:
 Commands:
   replay    analyse a recorded waveform file (CSV or WAV) and print one record
             per window or aggregation interval
+  simulate  write a recording of the built-in drive-cabinet simulator (CSV)
   config    print the documented defaults of every config key, or check a file
   version   print the version and build information
 
@@ -73,11 +74,13 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 		err = cmdReplay(ctx, rest, stdout, stderr)
 	case "config":
 		err = cmdConfig(rest, stdout, stderr)
+	case "simulate":
+		err = cmdSimulate(ctx, rest, stdout, stderr)
 	case "version", "--version", "-version":
 		err = cmdVersion(rest, stdout)
 	default:
 		fmt.Fprint(stderr, rootHelp)
-		return usagef("unknown command %q (commands: replay, config, version)", cmd)
+		return usagef("unknown command %q (commands: replay, simulate, config, version)", cmd)
 	}
 	if errors.Is(err, errHelp) {
 		return nil
