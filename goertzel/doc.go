@@ -26,10 +26,13 @@
 //     window, at constant cost per sample. It is meant for event detection:
 //     with a one-cycle window its [Sliding.SumSquares] yields the one-cycle
 //     RMS refreshed every half cycle, Urms(1/2) of IEC 61000-4-30, used for
-//     dips, swells and interruptions. It is a modulated sliding DFT (feedback
-//     coefficient exactly 1, so no pole sits on the unit circle's rounding
-//     edge) whose running sums are re-summed exactly from its ring buffer at
-//     a fixed period, so rounding cannot accumulate however long it runs.
+//     dips, swells and interruptions. It is a modulated sliding DFT: the
+//     twiddle moves out of the recursion into a table, leaving a feedback
+//     coefficient of exactly 1 that rounding cannot push off the unit circle,
+//     and its running sums are re-summed exactly from its ring buffer at a
+//     fixed period, so rounding cannot accumulate however long it runs. The
+//     synchronized windows do not use it: their length follows the tracked
+//     frequency, and a sliding form would need integer bins of a fixed N.
 //
 // The package is pure computation: it does no I/O, knows nothing about
 // channels or configuration, and imports only the standard library (gonum is

@@ -355,7 +355,7 @@ func (db *DB) inUse() int64 {
 	bs := db.bdb.Stats()
 	var hwm int64
 	_ = db.bdb.View(func(tx *bolt.Tx) error { hwm = tx.Size(); return nil })
-	return hwm - int64(bs.FreePageN+bs.PendingPageN)*int64(db.bdb.Info().PageSize)
+	return hwm - int64(bs.FreePageN+bs.PendingPageN)*db.pageSize
 }
 
 // makeRoom trims when in-use space plus add would pass the high mark.
@@ -375,7 +375,7 @@ func (db *DB) trim(target int64) error {
 	db.mu.Lock()
 	db.capTrims++
 	db.mu.Unlock()
-	ps := int64(db.bdb.Info().PageSize)
+	ps := db.pageSize
 	for range maxTrimRounds {
 		cur := db.inUse()
 		if cur <= target {

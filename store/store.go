@@ -46,11 +46,12 @@ type Options struct {
 
 // DB is an open store. It is safe for concurrent use.
 type DB struct {
-	bdb    *bolt.DB
-	opts   Options
-	log    *slog.Logger
-	path   string
-	usable int64 // largest high-water mark bbolt allows under MaxSizeMB
+	bdb      *bolt.DB
+	opts     Options
+	log      *slog.Logger
+	path     string
+	usable   int64 // largest high-water mark bbolt allows under MaxSizeMB
+	pageSize int64
 
 	wmu sync.Mutex // serialises writes; owns buf
 	buf []byte
@@ -130,7 +131,9 @@ func Open(opts Options) (*DB, error) {
 		bdb: bdb, opts: opts, log: log.With("store", opts.Path), path: opts.Path,
 		layouts: map[uint16]*metrics.Setup{}, counts: map[metrics.Interval]int{}, caps: map[Class]int{},
 	}
-	db.usable = usableBytes(capBytes, int64(bdb.Info().PageSize), int64(bdb.AllocSize))
+	// Read once: bbolt's Info() reads the mmap fields unlocked and races with a remap.
+	db.pageSize = int64(bdb.Info().PageSize)
+	db.usable = usableBytes(capBytes, db.pageSize, int64(bdb.AllocSize))
 	if !opts.ReadOnly {
 		if err := bdb.Update(createBuckets); err != nil {
 			return nil, errors.Join(fmt.Errorf("store: %s: create buckets: %w", opts.Path, err), bdb.Close())
@@ -296,7 +299,7 @@ func (db *DB) Stats() Stats {
 		return st
 	}
 	bs := db.bdb.Stats()
-	ps := int64(db.bdb.Info().PageSize)
+	ps := db.pageSize
 	st.Writes = bs.TxStats.GetWrite()
 	st.BytesWritten = st.Writes * ps
 	_ = db.bdb.View(func(tx *bolt.Tx) error {

@@ -198,3 +198,20 @@ func (e *Evaluator) Active() []string {
 	}
 	return out
 }
+
+// Channel returns the name of the channel a rule reads (from names, indexed
+// like Setup.Channels), or "" for rules on a phase, the total, or none.
+func (e *Evaluator) Channel(rule string, names []string) string {
+	for i := range e.rules {
+		if e.rules[i].Name == rule {
+			if c := e.c[i].ch; c >= 0 && c < len(names) {
+				return names[c]
+			}
+			return ""
+		}
+	}
+	return ""
+}
+
+// Rules returns a copy of the rules, in order.
+func (e *Evaluator) Rules() []Rule { return append([]Rule(nil), e.rules...) }

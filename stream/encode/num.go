@@ -97,3 +97,11 @@ func appendJSONString(dst []byte, s string) []byte {
 	dst = append(dst, s[start:]...)
 	return append(dst, '"')
 }
+
+// AppendString appends s as a JSON string (encoding/json's escaping, HTML
+// escaping off), for payload builders elsewhere in the project.
+func AppendString(dst []byte, s string) []byte { return appendJSONString(dst, s) }
+
+// AppendNumber appends v as the shortest round-trip JSON number, or null
+// when v is NaN or ±Inf.
+func AppendNumber(dst []byte, v float64) []byte { return appendJSONNum(dst, v) }

@@ -80,13 +80,17 @@ type CSV struct {
 // is used only in messages. Columns not in want (other than t) are allowed and
 // listed by Extra.
 //
-// With a first column named t, NewCSV reads up to one second of rows to find
-// the sample rate, (n−1)/span, rounded to the nearest integer hertz when that
-// lies within the resolution of the printed t values. Every later row's t must
-// then stay on the grid t0 + i/fs within half a sample period, widened by half
-// the printed resolution of t (and, for a rate not snapped to an integer, by
-// the uncertainty of the estimate times i/fs): without that widening a t
-// column printed to 0.1 ms could never pass at 10 kHz.
+// NewCSV also reads the first data row, so that a decimal comma (visible only
+// there) is a header error. With a first column named t it reads up to one
+// second of rows (at most 65536) to find the sample rate, (n−1)/span, rounded
+// to the nearest integer hertz when that lies within the resolution of the
+// printed t values. Every row's t must then stay on the grid t0 + i/fs within
+// half a sample period, widened by half the printed resolution of t (and, for
+// a rate not rounded to an integer, by the uncertainty of the estimate times
+// i/fs): without that widening a t column printed to 0.1 ms could never pass
+// at 10 kHz. In the first second each step between rows is checked as well,
+// so that a missing row there is reported at its own line. A t off the grid
+// is a *DataError from ReadFrames after the rows before it.
 //
 // Header faults return a *HeaderError: no header row, a column without a
 // name, a duplicate column, a missing channel column (named, with the columns

@@ -1,0 +1,406 @@
+package gateway
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"log/slog"
+	"sync"
+	"sync/atomic"
+	"time"
+
+	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/alarm"
+	"github.com/gridloupe/gridloupe/store"
+	"github.com/gridloupe/gridloupe/stream"
+)
+
+// Topic levels below the gateway's base (DESIGN: our own layout).
+const (
+	levelTelemetry = "telemetry"
+	levelAlarm     = "alarm"
+	levelHealth    = "health"
+)
+
+// Config configures a Gateway. Zero values are documented per field.
+type Config struct {
+	Pipeline stream.Config      // the per-sample path; Pipeline.Setup is required
+	Source   stream.FrameReader // required
+	// Live marks a source that must never block: when the sink queue is
+	// full its records are dropped and counted. Replay and the simulator
+	// leave it false and get back-pressure.
+	Live bool
+	// EndIsError says that the source ending is a failure (live sources,
+	// the simulator): Run then returns ErrSourceEnded. Files end normally.
+	EndIsError bool
+
+	Store     *store.DB        // required
+	Alarms    *alarm.Evaluator // nil = no alarm rules
+	Channels  []string         // channel names, for alarm payloads; nil = from the setup
+	Telemetry []metrics.Interval
+	Base      string // topic base <prefix>/<site>/<gateway>; "" = nothing is queued for MQTT
+	Site      string
+	Gateway   string
+	Kick      func() // wakes the publisher after messages were queued; nil = none
+
+	CommitEvery time.Duration    // aggregate batch period (wall time); 0 = 60 s
+	QueueLen    int              // records between the two goroutines; 0 = 256
+	Now         func() time.Time // wall clock; nil = time.Now
+	Logger      *slog.Logger
+
+	// OnRecord and OnTransition are called from the store goroutine for
+	// each aggregate record and alarm transition (the demo's live table).
+	// They must not keep the record.
+	OnRecord     func(r *metrics.Record, active []string)
+	OnTransition func(t alarm.Transition)
+	// OnStoreError is called when a store write fails (the daemon logs it
+	// and publishes a status); measurement goes on.
+	OnStoreError func(err error)
+}
+
+// Stats are the gateway's counters, safe to read concurrently.
+type Stats struct {
+	Windows     uint64
+	Aggregates  uint64 // 3 s, 10 min and 2 h records handled
+	Stored      uint64 // records committed to the store
+	Dropped     uint64 // records dropped by a live source's full queue
+	Transitions uint64
+	Queued      uint64 // messages queued in the outbox
+	StoreErrors uint64
+}
+
+// Health is what the health payload reports.
+type Health struct {
+	StoreBytes      int64
+	Stored, Dropped uint64
+	Losses          []ClassCount
+	StoreErr        string
+}
+
+// ClassCount is one outbox class's loss count.
+type ClassCount struct {
+	Class string
+	N     uint64
+}
+
+// Gateway runs one source through the pipeline into the sinks. Run it once.
+type Gateway struct {
+	cfg   Config
+	setup *metrics.Setup
+	log   *slog.Logger
+	now   func() time.Time
+	names []string
+
+	windows, aggregates, stored, dropped, transitions, queued, storeErrs atomic.Uint64
+
+	// owned by the store goroutine
+	batch    []*metrics.Record
+	msgs     []store.Message
+	trans    []alarm.Transition
+	a2h      *metrics.Aggregator
+	n2h      int
+	tick2h   int64
+	start2h  time.Time
+	full2h   bool
+	seen2h   bool
+	rec2h    *metrics.Record
+	lastErr  string
+	telem    [5]bool
+	persistS map[string]alarm.State
+}
+
+// New checks cfg.
+func New(cfg Config) (*Gateway, error) {
+	if cfg.Pipeline.Setup == nil || cfg.Source == nil || cfg.Store == nil {
+		return nil, fmt.Errorf("%w: setup, source and store are required", ErrConfig)
+	}
+	g := &Gateway{cfg: cfg, setup: cfg.Pipeline.Setup, log: cfg.Logger, now: cfg.Now}
+	if g.log == nil {
+		g.log = slog.New(slog.DiscardHandler)
+	}
+	if g.now == nil {
+		g.now = time.Now
+	}
+	if g.cfg.CommitEvery <= 0 {
+		g.cfg.CommitEvery = 60 * time.Second
+	}
+	if g.cfg.QueueLen <= 0 {
+		g.cfg.QueueLen = 256
+	}
+	g.names = cfg.Channels
+	if g.names == nil {
+		for _, ch := range g.setup.Channels {
+			g.names = append(g.names, ch.Name)
+		}
+	}
+	for _, iv := range cfg.Telemetry {
+		if int(iv) < len(g.telem) {
+			g.telem[iv] = true
+		}
+	}
+	g.a2h = metrics.NewAggregator(g.setup)
+	g.rec2h = metrics.NewRecord(g.setup)
+	g.persistS = map[string]alarm.State{}
+	if cfg.Alarms != nil {
+		for k, v := range cfg.Alarms.States() {
+			g.persistS[k] = v
+		}
+	}
+	return g, nil
+}
+
+// Stats returns the counters.
+func (g *Gateway) Stats() Stats {
+	return Stats{Windows: g.windows.Load(), Aggregates: g.aggregates.Load(), Stored: g.stored.Load(),
+		Dropped: g.dropped.Load(), Transitions: g.transitions.Load(), Queued: g.queued.Load(), StoreErrors: g.storeErrs.Load()}
+}
+
+// Run measures until the source ends or ctx is cancelled, then drains the
+// queue, emits the open intervals flagged partial, and commits the last
+// batch. It returns nil on cancellation and on the normal end of a file,
+// ErrSourceEnded (wrapping the reason) when a live or simulated source
+// stops, and the pipeline's error otherwise.
+func (g *Gateway) Run(ctx context.Context) error {
+	p, err := stream.New(g.cfg.Pipeline)
+	if err != nil {
+		return err
+	}
+	g.seed2h()
+	iv := stream.NewIntervals(g.setup, metrics.Int3s, metrics.Int10min)
+	q := make(chan *metrics.Record, g.cfg.QueueLen)
+	var wg sync.WaitGroup
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		g.sink(q)
+	}()
+	send := func(r *metrics.Record) error {
+		c := clone(r)
+		if g.cfg.Live {
+			select {
+			case q <- c:
+			default:
+				g.dropped.Add(1)
+			}
+			return nil
+		}
+		q <- c
+		return nil
+	}
+	runErr := p.Run(ctx, g.cfg.Source, func(r *metrics.Record) error {
+		g.windows.Add(1)
+		return iv.Add(r, send)
+	})
+	if err := iv.Flush(send); err != nil && runErr == nil {
+		runErr = err
+	}
+	close(q)
+	wg.Wait()
+	switch {
+	case runErr != nil:
+		if errors.Is(runErr, stream.ErrSource) && g.cfg.EndIsError {
+			return fmt.Errorf("%w: %w", ErrSourceEnded, runErr)
+		}
+		return runErr
+	case ctx.Err() != nil:
+		return nil
+	case g.cfg.EndIsError:
+		return fmt.Errorf("%w: end of data after %d samples", ErrSourceEnded, p.Samples())
+	}
+	return nil
+}
+
+// sink owns every store write.
+func (g *Gateway) sink(q <-chan *metrics.Record) {
+	tick := time.NewTicker(g.cfg.CommitEvery)
+	defer tick.Stop()
+	lastPrune := g.now()
+	for {
+		select {
+		case r, ok := <-q:
+			if !ok {
+				g.close2h(true)
+				g.commit()
+				return
+			}
+			g.handle(r)
+		case <-tick.C:
+			g.commit()
+			if now := g.now(); now.Sub(lastPrune) >= time.Hour || now.Before(lastPrune) {
+				lastPrune = now
+				if n, err := g.cfg.Store.Prune(now); err != nil {
+					g.storeError(err)
+				} else if n > 0 {
+					g.log.Info("retention pruned records", "deleted", n)
+				}
+			}
+		}
+	}
+}
+
+// handle processes one aggregate record.
+func (g *Gateway) handle(r *metrics.Record) {
+	g.aggregates.Add(1)
+	g.batch = append(g.batch, r)
+	g.evaluate(r)
+	if g.cfg.Base != "" && int(r.Interval) < len(g.telem) && g.telem[r.Interval] {
+		g.msgs = append(g.msgs, store.Message{Class: store.ClassTelemetry, QoS: 0,
+			Topic:   g.cfg.Base + "/" + levelTelemetry + "/" + r.Interval.String(),
+			Payload: telemetryPayload(nil, g.cfg.Site, g.cfg.Gateway, g.setup, r)})
+	}
+	if g.cfg.OnRecord != nil {
+		var active []string
+		if g.cfg.Alarms != nil {
+			active = g.cfg.Alarms.Active()
+		}
+		g.cfg.OnRecord(r, active)
+	}
+	if r.Interval == metrics.Int10min {
+		if g.cfg.Base != "" {
+			g.msgs = append(g.msgs, g.healthMessage())
+		}
+		g.add2h(r)
+	}
+}
+
+// evaluate runs the alarm rules; each transition commits at once together
+// with its outbox entry.
+func (g *Gateway) evaluate(r *metrics.Record) {
+	if g.cfg.Alarms == nil {
+		return
+	}
+	g.trans = g.cfg.Alarms.Evaluate(r, g.trans[:0])
+	states := g.cfg.Alarms.States()
+	for _, t := range g.trans {
+		g.transitions.Add(1)
+		st := states[t.Rule]
+		ch := g.ruleChannel(t.Rule)
+		msg := store.Message{Class: store.ClassAlarm, QoS: 1,
+			Topic: g.cfg.Base + "/" + levelAlarm, Payload: alarmPayload(g.cfg.Site, g.cfg.Gateway, t, ch)}
+		ast := toStore(t.Rule, st, t.Severity)
+		if g.cfg.Base == "" {
+			if err := g.cfg.Store.SetAlarmState(ast); err != nil {
+				g.storeError(err)
+			}
+		} else if _, err := g.cfg.Store.CommitAlarm(ast, msg); err != nil {
+			g.storeError(err)
+		} else {
+			g.queued.Add(1)
+			g.kick()
+		}
+		g.persistS[t.Rule] = st
+		state := "cleared"
+		if t.Raised {
+			state = "raised"
+		}
+		g.log.Warn("alarm", "alarm", t.Rule, "state", state, "value", t.Value, "threshold", t.Threshold, "level", t.Level.String())
+		if g.cfg.OnTransition != nil {
+			g.cfg.OnTransition(t)
+		}
+	}
+}
+
+// ruleChannel returns the channel name an alarm rule watches, if any.
+func (g *Gateway) ruleChannel(rule string) string {
+	return g.cfg.Alarms.Channel(rule, g.names)
+}
+
+func toStore(name string, st alarm.State, sev string) store.AlarmState {
+	return store.AlarmState{Name: name, Raised: st.Raised, Since: st.Since, Value: st.Value,
+		Severity: sev, Pending: st.Pending, PendingSince: st.PendingSince}
+}
+
+// FromStore converts persisted alarm states for alarm.New.
+func FromStore(m map[string]store.AlarmState) map[string]alarm.State {
+	out := make(map[string]alarm.State, len(m))
+	for k, v := range m {
+		out[k] = alarm.State{Raised: v.Raised, Since: v.Since, Pending: v.Pending, PendingSince: v.PendingSince, Value: v.Value}
+	}
+	return out
+}
+
+// commit writes the batch of aggregates, queues the telemetry, and
+// persists pending-delay changes of the alarm states.
+func (g *Gateway) commit() {
+	if len(g.batch) > 0 {
+		if err := g.cfg.Store.PutAggregates(g.batch); err != nil {
+			g.storeError(err)
+		} else {
+			g.stored.Add(uint64(len(g.batch)))
+			g.clearErr()
+		}
+		g.batch = g.batch[:0]
+	}
+	if len(g.msgs) > 0 {
+		if _, err := g.cfg.Store.Enqueue(g.msgs...); err != nil {
+			g.storeError(err)
+		} else {
+			g.queued.Add(uint64(len(g.msgs)))
+			g.kick()
+		}
+		g.msgs = g.msgs[:0]
+	}
+	if g.cfg.Alarms != nil {
+		for name, st := range g.cfg.Alarms.States() {
+			if old, ok := g.persistS[name]; ok && old == st {
+				continue
+			}
+			if err := g.cfg.Store.SetAlarmState(toStore(name, st, "")); err != nil {
+				g.storeError(err)
+				continue
+			}
+			g.persistS[name] = st
+		}
+	}
+}
+
+// healthMessage builds the health message (store size, losses, last store
+// error) queued on <base>/health with every 10 min record.
+func (g *Gateway) healthMessage() store.Message {
+	st := g.cfg.Store.Stats()
+	h := Health{StoreBytes: st.FileBytes, Stored: g.stored.Load(), Dropped: g.dropped.Load(), StoreErr: g.lastErr}
+	losses := g.cfg.Store.Losses()
+	for _, c := range []store.Class{store.ClassTelemetry, store.ClassEventWaveform, store.ClassEvent, store.ClassAlarm} {
+		h.Losses = append(h.Losses, ClassCount{c.String(), losses[c]})
+	}
+	return store.Message{Class: store.ClassEvent, QoS: 1, Topic: g.cfg.Base + "/" + levelHealth,
+		Payload: healthPayload(g.cfg.Site, g.cfg.Gateway, g.now(), h)}
+}
+
+func (g *Gateway) storeError(err error) {
+	g.storeErrs.Add(1)
+	msg := err.Error()
+	if msg != g.lastErr { // log each new error once, not every batch
+		g.log.Error("store write failed; measuring goes on", "err", err)
+	}
+	g.lastErr = msg
+	if g.cfg.OnStoreError != nil {
+		g.cfg.OnStoreError(err)
+	}
+}
+
+func (g *Gateway) clearErr() {
+	if g.lastErr != "" {
+		g.log.Info("store writes recovered")
+		g.lastErr = ""
+	}
+}
+
+func (g *Gateway) kick() {
+	if g.cfg.Kick != nil {
+		g.cfg.Kick()
+	}
+}
+
+// clone deep-copies a record for the other goroutine.
+func clone(r *metrics.Record) *metrics.Record {
+	c := *r
+	c.Channels = append([]metrics.ChannelValues(nil), r.Channels...)
+	for i := range c.Channels {
+		c.Channels[i].H = append([]metrics.Harmonic(nil), r.Channels[i].H...)
+	}
+	c.Phases = append([]metrics.PhaseValues(nil), r.Phases...)
+	c.SeqV = append([]metrics.Seq(nil), r.SeqV...)
+	c.SeqI = append([]metrics.Seq(nil), r.SeqI...)
+	return &c
+}

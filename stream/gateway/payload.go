@@ -1,0 +1,98 @@
+package gateway
+
+import (
+	"strconv"
+	"time"
+
+	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/alarm"
+	"github.com/gridloupe/gridloupe/stream/encode"
+)
+
+// appendHead opens a payload object with the site and gateway names; the
+// publisher puts "seq" first when it sends it.
+func appendHead(dst []byte, site, gw string) []byte {
+	dst = append(dst, `{"site":`...)
+	dst = encode.AppendString(dst, site)
+	dst = append(dst, `,"gateway":`...)
+	dst = encode.AppendString(dst, gw)
+	return dst
+}
+
+// telemetryPayload is a record in the replay schema, with site and gateway.
+func telemetryPayload(dst []byte, site, gw string, s *metrics.Setup, r *metrics.Record) []byte {
+	dst = appendHead(dst, site, gw)
+	body := encode.AppendJSON(nil, s, r)
+	if len(body) > 1 {
+		dst = append(dst, ',')
+		dst = append(dst, body[1:]...)
+	} else {
+		dst = append(dst, '}')
+	}
+	return dst
+}
+
+func appendNum(dst []byte, v float64) []byte { return encode.AppendNumber(dst, v) }
+
+// alarmPayload describes one transition.
+func alarmPayload(site, gw string, t alarm.Transition, channel string) []byte {
+	b := appendHead(nil, site, gw)
+	b = append(b, `,"time":"`...)
+	b = append(b, encode.FormatTime(t.Time)...)
+	b = append(b, `","alarm":`...)
+	b = encode.AppendString(b, t.Rule)
+	state := "cleared"
+	if t.Raised {
+		state = "raised"
+	}
+	b = append(b, `,"state":"`...)
+	b = append(b, state...)
+	b = append(b, `","metric":`...)
+	b = encode.AppendString(b, t.Metric)
+	if channel != "" {
+		b = append(b, `,"channel":`...)
+		b = encode.AppendString(b, channel)
+	}
+	b = append(b, `,"level":"`...)
+	b = append(b, t.Level.String()...)
+	b = append(b, `","value":`...)
+	b = appendNum(b, t.Value)
+	b = append(b, `,"threshold":`...)
+	b = appendNum(b, t.Threshold)
+	b = append(b, `,"severity":`...)
+	b = encode.AppendString(b, t.Severity)
+	b = append(b, `,"text":`...)
+	b = encode.AppendString(b, t.Text)
+	return append(b, '}')
+}
+
+// healthPayload reports the gateway's own state: store size and errors,
+// messages dropped from the outbox per class, records dropped by a live
+// source's queue.
+func healthPayload(site, gw string, now time.Time, h Health) []byte {
+	b := appendHead(nil, site, gw)
+	b = append(b, `,"time":"`...)
+	b = append(b, encode.FormatTime(now)...)
+	b = append(b, `","store_bytes":`...)
+	b = strconv.AppendInt(b, h.StoreBytes, 10)
+	b = append(b, `,"records_stored":`...)
+	b = strconv.AppendUint(b, h.Stored, 10)
+	b = append(b, `,"records_dropped":`...)
+	b = strconv.AppendUint(b, h.Dropped, 10)
+	b = append(b, `,"outbox_dropped":{`...)
+	for i, c := range h.Losses {
+		if i > 0 {
+			b = append(b, ',')
+		}
+		b = encode.AppendString(b, c.Class)
+		b = append(b, ':')
+		b = strconv.AppendUint(b, c.N, 10)
+	}
+	b = append(b, `},"store_error":`...)
+	if h.StoreErr == "" {
+		b = append(b, "null"...)
+	} else {
+		b = encode.AppendString(b, h.StoreErr)
+	}
+	return append(b, '}')
+}

@@ -1,0 +1,79 @@
+package gateway
+
+import (
+	"time"
+
+	"github.com/gridloupe/gridloupe/metrics"
+)
+
+const twoHours = 2 * time.Hour
+
+// per2h is the number of 10 min values in a 2 h value (IEC 61000-4-30).
+const per2h = 12
+
+func tick2hOf(t time.Time) int64 {
+	ns := t.UnixNano()
+	q := ns / int64(twoHours)
+	if ns%int64(twoHours) < 0 {
+		q--
+	}
+	return q
+}
+
+// seed2h reloads the 10 min records of the current 2 h clock interval
+// from the store, so a restart mid-interval loses none of them.
+func (g *Gateway) seed2h() {
+	base := g.cfg.Pipeline.Base
+	if base.IsZero() {
+		return
+	}
+	tick := tick2hOf(base)
+	from := time.Unix(0, tick*int64(twoHours)).UTC()
+	_ = g.cfg.Store.Query(metrics.Int10min, from, base, func(r *metrics.Record) error {
+		g.add2h(r)
+		return nil
+	})
+}
+
+// add2h adds a 10 min record to its 2 h interval, emitting the previous
+// interval when the record opens a new one.
+func (g *Gateway) add2h(r *metrics.Record) {
+	tick := tick2hOf(r.Start)
+	if g.n2h > 0 && tick != g.tick2h {
+		g.close2h(false)
+	}
+	if g.n2h == 0 {
+		g.tick2h = tick
+		g.start2h = r.Start
+		g.full2h = g.seen2h || r.Start.UnixNano()%int64(twoHours) == 0
+		g.seen2h = true
+	}
+	g.a2h.Add(r)
+	g.n2h++
+	if g.n2h == per2h {
+		g.close2h(false)
+	}
+}
+
+// close2h emits the open 2 h value; atEnd marks the end of the run.
+func (g *Gateway) close2h(atEnd bool) {
+	if g.n2h == 0 {
+		return
+	}
+	full := g.full2h && g.n2h == per2h
+	if atEnd && g.n2h < per2h {
+		// keep it open: the next run reseeds it from the store
+		g.a2h.Reset()
+		g.n2h = 0
+		return
+	}
+	g.a2h.Result(g.rec2h)
+	g.rec2h.Interval = metrics.Int2h
+	g.rec2h.Start = g.start2h
+	if !full {
+		g.rec2h.Flags |= metrics.FlagPartial
+	}
+	g.a2h.Reset()
+	g.n2h = 0
+	g.handle(clone(g.rec2h))
+}
