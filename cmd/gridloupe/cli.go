@@ -43,6 +43,12 @@ Usage:
   gridloupe <command> [flags]
 
 Commands:
+  demo      run the whole gateway for a minute on a simulated drive cabinet:
+            simulator, embedded MQTT broker, store in a temporary folder,
+            live table, alarms raised and cleared
+  run       run the gateway unattended (source, store, alarms, MQTT) until
+            SIGINT or SIGTERM
+  export    print stored 3 s, 10 min or 2 h aggregates (CSV or JSON Lines)
   replay    analyse a recorded waveform file (CSV or WAV) and print one record
             per window or aggregation interval
   simulate  write a recording of the built-in drive-cabinet simulator (CSV)
@@ -74,13 +80,19 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 		err = cmdReplay(ctx, rest, stdout, stderr)
 	case "config":
 		err = cmdConfig(rest, stdout, stderr)
+	case "run":
+		err = cmdRun(ctx, rest, stdout, stderr)
+	case "demo":
+		err = cmdDemo(ctx, rest, stdout, stderr)
+	case "export":
+		err = cmdExport(rest, stdout, stderr)
 	case "simulate":
 		err = cmdSimulate(ctx, rest, stdout, stderr)
 	case "version", "--version", "-version":
 		err = cmdVersion(rest, stdout)
 	default:
 		fmt.Fprint(stderr, rootHelp)
-		return usagef("unknown command %q (commands: replay, simulate, config, version)", cmd)
+		return usagef("unknown command %q (commands: demo, run, export, replay, simulate, config, version)", cmd)
 	}
 	if errors.Is(err, errHelp) {
 		return nil

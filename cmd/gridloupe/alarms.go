@@ -1,0 +1,96 @@
+package main
+
+import (
+	"fmt"
+	"strings"
+
+	"github.com/gridloupe/gridloupe/config"
+	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/alarm"
+	"github.com/gridloupe/gridloupe/metrics/limits"
+)
+
+// distortionMetrics are the metrics whose limits come from IEEE 519.
+var distortionMetrics = map[string]bool{"thd_pct": true, "thd_h50_pct": true, "tdd_pct": true,
+	"tdd_h50_pct": true, "pct": true, "pct_il": true}
+
+// alarmRules translates the config's alarm rules.
+func alarmRules(cfg *config.Config, s *metrics.Setup) ([]alarm.Rule, error) {
+	var out []alarm.Rule
+	var phaseCurrents []int
+	for i, ch := range s.Channels {
+		if ch.Kind == metrics.Current && ch.Phase != 'n' {
+			phaseCurrents = append(phaseCurrents, i)
+		}
+	}
+	for _, a := range cfg.Alarms {
+		lv, ok := metrics.ParseInterval(a.Level)
+		if !ok {
+			return nil, usagef("%s:%d: alarm %q: level %q", cfg.Path, a.Line, a.Name, a.Level)
+		}
+		r := alarm.Rule{Name: a.Name, Metric: a.Metric, Harmonic: a.Harmonic, Level: lv, Deadband: a.Deadband,
+			OnDelay: a.OnDelay, OffDelay: a.OffDelay, Severity: a.Severity, Target: alarm.Target{Channel: -1}}
+		if a.Above != nil {
+			r.Above, r.Threshold = true, *a.Above
+		} else if a.Below != nil {
+			r.Threshold = *a.Below
+		}
+		ci := cfg.ChannelIndex(a.Channel)
+		switch a.Metric {
+		case "pf", "dpf":
+			if a.Phase == "" || a.Phase == "total" {
+				r.Target.Total = true
+			} else {
+				r.Target.Phase = a.Phase[0]
+			}
+		case "freq_hz", "unbalance_voltage_pct", "unbalance_current_pct":
+		default:
+			r.Target.Channel = ci
+		}
+		if a.MinLoadPct > 0 {
+			base := cfg.ILA
+			if ci >= 0 && s.Channels[ci].Kind == metrics.Current {
+				if base == 0 {
+					base = s.Channels[ci].FullScale
+				}
+				r.LoadChannels = []int{ci}
+			} else {
+				r.LoadChannels = phaseCurrents
+				if base == 0 && len(phaseCurrents) > 0 {
+					base = s.Channels[phaseCurrents[0]].FullScale
+				}
+			}
+			r.MinLoad = a.MinLoadPct / 100 * base
+		}
+		r.Text = alarmText(cfg, a)
+		out = append(out, r)
+	}
+	return out, nil
+}
+
+// alarmText is the human sentence carried in each transition message.
+func alarmText(cfg *config.Config, a config.Alarm) string {
+	var b strings.Builder
+	where := a.Channel
+	if where == "" {
+		where = a.Phase
+		if where == "" {
+			where = "total"
+		}
+	}
+	dir, th := "above", 0.0
+	if a.Above != nil {
+		th = *a.Above
+	} else if a.Below != nil {
+		dir, th = "below", *a.Below
+	}
+	metric := a.Metric
+	if a.Harmonic > 0 {
+		metric = fmt.Sprintf("h%d %s", a.Harmonic, a.Metric)
+	}
+	fmt.Fprintf(&b, "%s %s %s %g (%s values)", where, metric, dir, th, a.Level)
+	if distortionMetrics[a.Metric] {
+		b.WriteString(". " + alarm.PCCNote + " (" + limits.Edition + ")")
+	}
+	return b.String()
+}

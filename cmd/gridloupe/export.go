@@ -1,0 +1,90 @@
+package main
+
+import (
+	"bufio"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"time"
+
+	"github.com/gridloupe/gridloupe/store"
+	"github.com/gridloupe/gridloupe/stream/gateway"
+)
+
+const exportHelp = `Usage: gridloupe export --store FILE --interval 3s|10min|2h [flags]
+
+Prints stored aggregates in the replay schema (JSON Lines or CSV). While
+'gridloupe run' holds the store, the request goes through the daemon's local
+socket (FILE.sock); otherwise the file is opened read-only.
+
+Flags:
+`
+
+func cmdExport(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("export", flag.ContinueOnError)
+	dbPath := fs.String("store", "", "bbolt store `FILE`; required")
+	iv := fs.String("interval", "10min", "level to print: 3s, 10min or 2h")
+	from := fs.String("from", "", "first record start, RFC 3339 (default: the oldest)")
+	to := fs.String("to", "", "end (exclusive), RFC 3339 (default: the newest)")
+	format := fs.String("format", "jsonl", "output format: jsonl or csv")
+	timeout := fs.Duration("timeout", 2*time.Second, "how long to wait for the store's file lock")
+	fs.Usage = func() {
+		fmt.Fprint(fs.Output(), exportHelp)
+		fs.PrintDefaults()
+	}
+	if err := parseFlags(fs, args, stdout); err != nil {
+		return err
+	}
+	if *dbPath == "" || fs.NArg() != 0 {
+		return usagef("export: --store FILE is required and takes no arguments")
+	}
+	req := gateway.ExportRequest{Interval: *iv, Format: *format}
+	for _, x := range []struct {
+		s   string
+		dst *time.Time
+		n   string
+	}{{*from, &req.From, "--from"}, {*to, &req.To, "--to"}} {
+		if x.s == "" {
+			continue
+		}
+		t, err := time.Parse(time.RFC3339Nano, x.s)
+		if err != nil {
+			return usagef("export: %s %q is not RFC 3339 (e.g. 2026-03-01T10:00:00Z)", x.n, x.s)
+		}
+		*x.dst = t
+	}
+	switch req.Interval {
+	case "3s", "10min", "2h":
+	default:
+		return usagef("export: --interval %q: allowed are 3s, 10min, 2h", req.Interval)
+	}
+	if req.Format != "jsonl" && req.Format != "csv" {
+		return usagef("export: --format %q: allowed are jsonl, csv", req.Format)
+	}
+	if _, err := os.Stat(*dbPath); err != nil {
+		return fmt.Errorf("export: %w", err)
+	}
+	out := bufio.NewWriterSize(stdout, 64<<10)
+	defer out.Flush()
+	// A running daemon answers on its socket; else open the file read-only.
+	sock := gateway.SocketPath(*dbPath)
+	if _, err := os.Stat(sock); err == nil {
+		if err := gateway.RequestExport(sock, req, out); err == nil {
+			return nil
+		} else if errors.Is(err, gateway.ErrExport) {
+			return &usageError{err}
+		}
+		// stale socket of a killed daemon: fall through to the file
+	}
+	db, err := store.OpenReadOnly(*dbPath, *timeout)
+	if err != nil {
+		return fmt.Errorf("export: %w", err)
+	}
+	defer db.Close()
+	if err := gateway.WriteExport(out, db, req); err != nil {
+		return fmt.Errorf("export: %w", err)
+	}
+	return nil
+}

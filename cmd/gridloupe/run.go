@@ -1,0 +1,384 @@
+package main
+
+import (
+	"context"
+	"crypto/tls"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"log/slog"
+	"os"
+	"path/filepath"
+	"sync"
+	"time"
+
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/sdnotify"
+	"github.com/gridloupe/gridloupe/config"
+	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/alarm"
+	"github.com/gridloupe/gridloupe/store"
+	"github.com/gridloupe/gridloupe/stream"
+	"github.com/gridloupe/gridloupe/stream/gateway"
+	"github.com/gridloupe/gridloupe/stream/input"
+	"github.com/gridloupe/gridloupe/stream/mqtt"
+	"github.com/gridloupe/gridloupe/stream/mqtt/broker"
+	"github.com/gridloupe/gridloupe/stream/sim"
+)
+
+const runHelp = `Usage: gridloupe run --config FILE [flags]
+
+Runs the gateway until SIGINT or SIGTERM: reads the configured source
+(source.kind: sim, csv or wav), measures every 10/12-cycle window, keeps
+3 s, 10 min and 2 h aggregates in the bbolt store (store.path), raises and
+clears the configured alarms, and publishes status, telemetry and alarms over
+MQTT through the store's outbox (mqtt.broker; "embedded" starts a broker in
+the process on loopback). Exit status: 0 after a signal, 1 when the source
+ends or fails or the store cannot be opened, 2 for config errors.
+
+Flags:
+`
+
+// daemonOptions are the knobs the demo and tests set on top of the config.
+type daemonOptions struct {
+	logFormat string
+	logLevel  slog.Level
+	// demo hooks
+	onRecord     func(r *metrics.Record, active []string)
+	onTransition func(t alarm.Transition)
+	onReady      func(d *daemon)
+	simTweak     func(sc *sim.Config)
+	now          func() time.Time
+	stdout       io.Writer
+	brokerAddr   string
+}
+
+// daemon is one running gateway with its store, publisher and broker.
+type daemon struct {
+	cfg    *config.Config
+	setup  *metrics.Setup
+	db     *store.DB
+	gw     *gateway.Gateway
+	pub    *mqtt.Publisher
+	brk    *broker.Broker
+	log    *slog.Logger
+	source stream.FrameReader
+	sim    *sim.Source
+}
+
+func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("run", flag.ContinueOnError)
+	cfgPath := fs.String("config", "", "config `FILE` (YAML); required")
+	logFormat := fs.String("log-format", "text", "log format on stderr: text or json")
+	logLevel := fs.String("log-level", "info", "log level: debug, info, warn or error")
+	fs.Usage = func() {
+		fmt.Fprint(fs.Output(), runHelp)
+		fs.PrintDefaults()
+	}
+	if err := parseFlags(fs, args, stdout); err != nil {
+		return err
+	}
+	if *cfgPath == "" || fs.NArg() != 0 {
+		return usagef("run: --config FILE is required and takes no arguments")
+	}
+	var lvl slog.Level
+	if err := lvl.UnmarshalText([]byte(*logLevel)); err != nil {
+		return usagef("run: --log-level %q: allowed are debug, info, warn, error", *logLevel)
+	}
+	if *logFormat != "text" && *logFormat != "json" {
+		return usagef("run: --log-format %q: allowed are text, json", *logFormat)
+	}
+	cfg, err := config.Load(*cfgPath)
+	if err != nil {
+		return &usageError{err}
+	}
+	return runDaemon(ctx, cfg, daemonOptions{logFormat: *logFormat, logLevel: lvl, stdout: stdout}, stderr)
+}
+
+func newLogger(w io.Writer, format string, lvl slog.Level) *slog.Logger {
+	opts := &slog.HandlerOptions{Level: lvl}
+	if format == "json" {
+		return slog.New(slog.NewJSONHandler(w, opts))
+	}
+	return slog.New(slog.NewTextHandler(w, opts))
+}
+
+// runDaemon wires the pieces and runs them until ctx ends or the source stops.
+func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr io.Writer) (err error) {
+	log := newLogger(stderr, o.logFormat, o.logLevel)
+	now := o.now
+	if now == nil {
+		now = time.Now
+	}
+	d := &daemon{cfg: cfg, log: log}
+	setup, cal, err := setupFromConfig(cfg)
+	if err != nil {
+		return err
+	}
+	d.setup = setup
+	if cfg.Store.Path == "" {
+		return usagef("%s: store.path is required for run", cfg.Path)
+	}
+	if cfg.Source.Kind == "" {
+		return usagef("%s: source is required for run (kind: sim, csv or wav)", cfg.Path)
+	}
+
+	// Sinks first: store, publisher; then the source (STYLE.md §8).
+	if err := os.MkdirAll(filepath.Dir(cfg.Store.Path), 0o755); err != nil {
+		return fmt.Errorf("store: %w", err)
+	}
+	ret := map[metrics.Interval]time.Duration{}
+	for k, v := range cfg.Store.Retention {
+		if iv, ok := metrics.ParseInterval(k); ok {
+			ret[iv] = v
+		}
+	}
+	db, err := store.Open(store.Options{Path: cfg.Store.Path, MaxSizeMB: cfg.Store.MaxSizeMB, Retention: ret,
+		Logger: log.With("part", "store"), Clock: now})
+	if err != nil {
+		return fmt.Errorf("cannot open the store: %w", err)
+	}
+	d.db = db
+	defer func() { err = errors.Join(err, db.Close()) }()
+	if err := db.SetLayout(setup); err != nil {
+		return fmt.Errorf("store: %w", err)
+	}
+	db.OutboxCaps(map[store.Class]int{store.ClassTelemetry: 20000, store.ClassEvent: 5000, store.ClassEventWaveform: 200})
+
+	rules, err := alarmRules(cfg, setup)
+	if err != nil {
+		return err
+	}
+	var ev *alarm.Evaluator
+	if len(rules) > 0 {
+		saved, err := db.AlarmStates()
+		if err != nil {
+			return fmt.Errorf("store: alarm states: %w", err)
+		}
+		ev, err = alarm.New(rules, setup, gateway.FromStore(saved))
+		if err != nil {
+			return usagef("%s: alarms: %v", cfg.Path, err)
+		}
+		if act := ev.Active(); len(act) > 0 {
+			log.Info("alarms still raised from before the restart", "alarms", act)
+		}
+	}
+
+	// Source.
+	var rate float64
+	var closer io.Closer
+	live := false
+	endIsError := true
+	switch cfg.Source.Kind {
+	case config.SourceSim:
+		rate = cfg.SampleRateHz
+		if rate == 0 {
+			rate = sim.DefaultSampleRate
+		}
+		sc := simConfig(cfg, rate)
+		sc.Speed = cfg.Source.Speed
+		sc.Start = now().UTC()
+		sc.Filter = sim.FilterProfile{Period: 6 * time.Hour, Worst: 0.3}
+		if o.simTweak != nil {
+			o.simTweak(&sc)
+		}
+		s, err := sim.New(sc)
+		if err != nil {
+			return usagef("%s: source: %v", cfg.Path, err)
+		}
+		d.source, d.sim = s, s
+	case config.SourceCSV, config.SourceWAV:
+		f, err := os.Open(cfg.Source.Path)
+		if err != nil {
+			return fmt.Errorf("source: %w", err)
+		}
+		closer = f
+		names := make([]string, len(setup.Channels))
+		for i, ch := range setup.Channels {
+			names[i] = ch.Name
+		}
+		src, inRate, _, err := openInput(cfg.Source.Path, f, names)
+		if err != nil {
+			f.Close()
+			return err
+		}
+		if rate, err = resolveRate(cfg, inRate, cfg.Source.Path); err != nil {
+			f.Close()
+			return err
+		}
+		d.source = src
+		endIsError = false
+	default:
+		return usagef("%s: source.kind %q: allowed are sim, csv, wav", cfg.Path, cfg.Source.Kind)
+	}
+	if closer != nil {
+		defer closer.Close()
+	}
+	if err := checkRate(cfg, rate); err != nil {
+		return err
+	}
+
+	// MQTT: embedded broker and publisher.
+	pubCtx, stopPub := context.WithCancel(context.Background())
+	defer stopPub()
+	var wg sync.WaitGroup
+	base := ""
+	if cfg.MQTT.Broker != "" {
+		base = cfg.MQTT.Base
+		url := cfg.MQTT.Broker
+		pw, err := cfg.MQTT.Password()
+		if err != nil {
+			return usagef("%s: mqtt: %v", cfg.Path, err)
+		}
+		tlsCfg, err := mqttTLS(cfg)
+		if err != nil {
+			return err
+		}
+		if url == config.BrokerEmbedded {
+			b, err := broker.Start(broker.Config{Addr: embeddedAddr(o), Username: cfg.MQTT.Username, Password: pw,
+				TLS: tlsCfg, Logger: log.With("part", "broker")})
+			if err != nil {
+				return fmt.Errorf("embedded broker: %w", err)
+			}
+			d.brk = b
+			defer b.Close()
+			scheme := "tcp://"
+			if tlsCfg != nil {
+				scheme = "ssl://"
+			}
+			url = scheme + b.Addr()
+			log.Info("embedded MQTT broker listening", "addr", b.Addr())
+		}
+		pub, err := mqtt.New(mqtt.Config{Broker: url, ClientID: cfg.MQTT.ClientID, Username: cfg.MQTT.Username,
+			Password: pw, TLS: tlsCfg, Base: base, Outbox: db, Logger: log.With("part", "mqtt"), Now: now})
+		if err != nil {
+			return usagef("%s: mqtt: %v", cfg.Path, err)
+		}
+		d.pub = pub
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			if err := pub.Run(pubCtx); err != nil {
+				log.Error("publisher stopped", "err", err)
+			}
+		}()
+	}
+	defer func() {
+		stopPub()
+		wg.Wait()
+	}()
+
+	var tele []metrics.Interval
+	for _, l := range cfg.MQTT.Telemetry {
+		if iv, ok := metrics.ParseInterval(l); ok {
+			tele = append(tele, iv)
+		}
+	}
+	pc := pipelineConfig(cfg, setup, cal, rate)
+	pc.Base = now().UTC()
+	if d.sim != nil {
+		pc.Base = d.sim.Truth().Time
+	}
+	pc.Logger = log.With("part", "pipeline")
+	if cfg.Source.Kind == config.SourceSim {
+		pc.BlockFrames = 256
+	}
+	kick := func() {}
+	if d.pub != nil {
+		kick = d.pub.Kick
+	}
+	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, Live: live, EndIsError: endIsError,
+		Store: db, Alarms: ev, Telemetry: tele, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
+		CommitEvery: cfg.Store.CommitEvery, Now: now, Logger: log.With("part", "gateway"),
+		OnRecord: o.onRecord, OnTransition: o.onTransition})
+	if err != nil {
+		return err
+	}
+	d.gw = gw
+
+	// Export socket for `gridloupe export` while this process holds the store.
+	expCtx, stopExp := context.WithCancel(context.Background())
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		if err := gateway.ServeExport(expCtx, gateway.SocketPath(cfg.Store.Path), db, log); err != nil {
+			log.Warn("export socket unavailable", "err", err)
+		}
+	}()
+	defer stopExp()
+
+	// Service manager: ready, watchdog, stopping.
+	sd := sdnotify.FromEnv()
+	_ = sd.Send("READY=1\nSTATUS=measuring")
+	if iv := sdnotify.WatchdogInterval(); iv > 0 {
+		wctx, stopW := context.WithCancel(ctx)
+		defer stopW()
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			t := time.NewTicker(iv)
+			defer t.Stop()
+			last := uint64(0)
+			for {
+				select {
+				case <-wctx.Done():
+					return
+				case <-t.C:
+					// only pet the watchdog while windows keep coming
+					if w := gw.Stats().Windows; w != last {
+						last = w
+						_ = sd.Send("WATCHDOG=1")
+					}
+				}
+			}
+		}()
+	}
+	log.Info("gateway started", "site", cfg.Site, "gateway", cfg.Gateway, "source", cfg.Source.Kind,
+		"sample_rate_hz", rate, "store", cfg.Store.Path, "broker", cfg.MQTT.Broker)
+	if o.onReady != nil {
+		o.onReady(d)
+	}
+
+	runErr := gw.Run(ctx)
+	_ = sd.Send("STOPPING=1")
+	st := gw.Stats()
+	log.Info("gateway stopping", "windows", st.Windows, "aggregates", st.Aggregates, "stored", st.Stored,
+		"alarm_transitions", st.Transitions, "queued", st.Queued)
+	// Give the publisher a moment to send what the last commit queued.
+	if d.pub != nil {
+		deadline := time.Now().Add(1500 * time.Millisecond)
+		for time.Now().Before(deadline) && d.pub.Connected() {
+			if p, _ := db.Pending(0, 1); len(p) == 0 {
+				break
+			}
+			time.Sleep(50 * time.Millisecond)
+		}
+	}
+	if runErr != nil {
+		if errors.Is(runErr, gateway.ErrSourceEnded) || errors.Is(runErr, input.ErrData) || errors.Is(runErr, stream.ErrSource) {
+			log.Error("source stopped", "err", runErr)
+		}
+		return runErr
+	}
+	return nil
+}
+
+// embeddedAddr is where the embedded broker listens: loopback port 1883
+// unless the options say otherwise (the demo picks a free port).
+func embeddedAddr(o daemonOptions) string {
+	if o.brokerAddr != "" {
+		return o.brokerAddr
+	}
+	return "127.0.0.1:1883"
+}
+
+func mqttTLS(cfg *config.Config) (*tls.Config, error) {
+	if cfg.MQTT.TLS.CA == "" && cfg.MQTT.TLS.Cert == "" {
+		return nil, nil
+	}
+	t, err := mqtt.TLSConfig(cfg.MQTT.TLS.CA, cfg.MQTT.TLS.Cert, cfg.MQTT.TLS.Key)
+	if err != nil {
+		return nil, usagef("%s: mqtt.tls: %v", cfg.Path, err)
+	}
+	return t, nil
+}

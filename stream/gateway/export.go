@@ -1,0 +1,158 @@
+package gateway
+
+import (
+	"bufio"
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"log/slog"
+	"net"
+	"os"
+	"strings"
+	"sync"
+	"time"
+
+	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/store"
+	"github.com/gridloupe/gridloupe/stream/encode"
+)
+
+// ExportRequest asks for stored aggregates of one level in [From, To).
+type ExportRequest struct {
+	Interval string    `json:"interval"` // 3s, 10min or 2h
+	From     time.Time `json:"from"`     // zero = from the oldest
+	To       time.Time `json:"to"`       // zero = to the newest
+	Format   string    `json:"format"`   // jsonl or csv
+}
+
+// ErrExport reports a bad export request.
+var ErrExport = errors.New("gateway: export")
+
+// WriteExport writes the stored records matching req to w in the replay
+// schema. It is used by the daemon's socket and by `gridloupe export` when
+// no daemon holds the file.
+func WriteExport(w io.Writer, db *store.DB, req ExportRequest) error {
+	iv, ok := metrics.ParseInterval(req.Interval)
+	if !ok || iv == metrics.Int200ms {
+		return fmt.Errorf("%w: interval %q: allowed are 3s, 10min, 2h", ErrExport, req.Interval)
+	}
+	layout, err := db.Layout()
+	if err != nil {
+		if errors.Is(err, store.ErrNoLayout) {
+			return nil // an empty store: nothing to export
+		}
+		return err
+	}
+	var enc interface {
+		Write(*metrics.Record) error
+		Flush() error
+	}
+	switch req.Format {
+	case "jsonl", "":
+		enc = encode.NewJSONL(w, layout)
+	case "csv":
+		enc = encode.NewCSV(w, layout)
+	default:
+		return fmt.Errorf("%w: format %q: allowed are jsonl, csv", ErrExport, req.Format)
+	}
+	if err := db.Query(iv, req.From, req.To, enc.Write); err != nil {
+		return err
+	}
+	return enc.Flush()
+}
+
+// SocketPath returns the daemon's local export socket for a store file.
+func SocketPath(storePath string) string { return storePath + ".sock" }
+
+// ServeExport answers export requests on a unix socket until ctx ends.
+// Protocol: the client sends one JSON ExportRequest line; the server
+// answers "ok\n" and the records, or "error: <message>\n". One request is
+// served at a time (the store allows concurrent readers, but the gateway
+// board has little to spare).
+func ServeExport(ctx context.Context, path string, db *store.DB, log *slog.Logger) error {
+	if log == nil {
+		log = slog.New(slog.DiscardHandler)
+	}
+	_ = os.Remove(path) // a stale socket from a killed process
+	l, err := net.Listen("unix", path)
+	if err != nil {
+		return fmt.Errorf("gateway: export socket: %w", err)
+	}
+	var wg sync.WaitGroup
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		<-ctx.Done()
+		l.Close()
+	}()
+	defer func() {
+		l.Close()
+		wg.Wait()
+		os.Remove(path)
+	}()
+	for {
+		c, err := l.Accept()
+		if err != nil {
+			if ctx.Err() != nil {
+				return nil
+			}
+			return fmt.Errorf("gateway: export socket: %w", err)
+		}
+		serveOne(c, db, log)
+	}
+}
+
+func serveOne(c net.Conn, db *store.DB, log *slog.Logger) {
+	defer c.Close()
+	c.SetDeadline(time.Now().Add(5 * time.Minute))
+	line, err := bufio.NewReaderSize(c, 4096).ReadString('\n')
+	if err != nil {
+		return
+	}
+	var req ExportRequest
+	if err := json.Unmarshal([]byte(line), &req); err != nil {
+		fmt.Fprintf(c, "error: bad request: %v\n", err)
+		return
+	}
+	// validate before answering ok, so a bad request gets a clear error
+	if iv, ok := metrics.ParseInterval(req.Interval); !ok || iv == metrics.Int200ms {
+		fmt.Fprintf(c, "error: interval %q: allowed are 3s, 10min, 2h\n", req.Interval)
+		return
+	}
+	if req.Format != "" && req.Format != "jsonl" && req.Format != "csv" {
+		fmt.Fprintf(c, "error: format %q: allowed are jsonl, csv\n", req.Format)
+		return
+	}
+	bw := bufio.NewWriterSize(c, 64<<10)
+	bw.WriteString("ok\n")
+	if err := WriteExport(bw, db, req); err != nil {
+		log.Warn("export failed", "err", err)
+	}
+	bw.Flush()
+}
+
+// RequestExport asks a running daemon for an export and copies the answer
+// to w.
+func RequestExport(path string, req ExportRequest, w io.Writer) error {
+	c, err := net.DialTimeout("unix", path, 2*time.Second)
+	if err != nil {
+		return fmt.Errorf("gateway: no daemon answers on %s: %w", path, err)
+	}
+	defer c.Close()
+	b, _ := json.Marshal(req)
+	if _, err := c.Write(append(b, '\n')); err != nil {
+		return fmt.Errorf("gateway: export request: %w", err)
+	}
+	br := bufio.NewReaderSize(c, 64<<10)
+	head, err := br.ReadString('\n')
+	if err != nil {
+		return fmt.Errorf("gateway: export answer: %w", err)
+	}
+	if head != "ok\n" {
+		return fmt.Errorf("%w: %s", ErrExport, strings.TrimSpace(strings.TrimPrefix(head, "error: ")))
+	}
+	_, err = io.Copy(w, br)
+	return err
+}
