@@ -17,7 +17,7 @@
 // was still open after they were written (a QoS 0 write that raced a
 // connection loss is sent again rather than dropped).
 //
-// paho's memory store (its default) still holds the in-flight window while
+// paho's (ordered) memory store still holds the in-flight window while
 // an automatic reconnect is in progress and resends it after the reconnect;
 // the outbox, not paho, survives a restart. The session is clean: the
 // broker keeps nothing for the gateway between connections.

@@ -3,7 +3,6 @@ package mqtt_test
 import (
 	"bytes"
 	"context"
-	"crypto/tls"
 	"encoding/json"
 	"errors"
 	"io"
@@ -266,6 +265,7 @@ type proxy struct {
 	ln             net.Listener
 	conns          map[net.Conn]struct{}
 	wg             sync.WaitGroup
+	delay          time.Duration // slows the client-to-broker direction, per read
 }
 
 func newProxy(t testing.TB, upstream string, port int) *proxy {
@@ -303,8 +303,8 @@ func (p *proxy) Open(t testing.TB) {
 				return
 			}
 			p.wg.Add(2)
-			go p.pipe(c, u)
-			go p.pipe(u, c)
+			go p.pipe(c, u, 0)
+			go p.pipe(u, c, p.delay)
 		}
 	}()
 }
@@ -324,9 +324,25 @@ func (p *proxy) track(cs ...net.Conn) bool {
 	return true
 }
 
-func (p *proxy) pipe(dst, src net.Conn) {
+func (p *proxy) pipe(dst, src net.Conn, delay time.Duration) {
 	defer p.wg.Done()
-	_, _ = io.Copy(dst, src)
+	if delay == 0 {
+		_, _ = io.Copy(dst, src)
+	} else {
+		buf := make([]byte, 512)
+		for {
+			n, err := src.Read(buf)
+			time.Sleep(delay) // a slow uplink
+			if n > 0 {
+				if _, werr := dst.Write(buf[:n]); werr != nil {
+					break
+				}
+			}
+			if err != nil {
+				break
+			}
+		}
+	}
 	_ = dst.Close()
 	_ = src.Close()
 }
@@ -459,5 +475,3 @@ func (e *errOutbox) Ack(seqs ...uint64) error {
 	}
 	return e.DB.Ack(seqs...)
 }
-
-var _ = tls.VersionTLS12

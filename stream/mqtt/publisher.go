@@ -161,7 +161,11 @@ func New(cfg Config) (*Publisher, error) {
 	o.SetWriteTimeout(cfg.WriteTimeout)
 	o.SetConnectTimeout(connectTimeout)
 	o.SetKeepAlive(keepAlive)
-	o.SetStore(paho.NewMemoryStore())
+	// paho's memory store, in its ordered form: after an automatic reconnect
+	// paho resends what it still holds, and the plain memory store would
+	// resend it in map order. Two in-order streams of the same seqs (paho's
+	// resend and ours) keep every seq's first arrival in order.
+	o.SetStore(paho.NewOrderedMemoryStore())
 	o.SetBinaryWill(StatusTopic(cfg.Base), p.statusPayload("offline", "connection_lost", false), 1, true)
 	o.SetConnectionNotificationHandler(p.onNotify)
 	if cfg.TLS != nil {
@@ -379,10 +383,10 @@ func (p *Publisher) Run(ctx context.Context) error {
 		done, err := p.sendWindow(ctx, msgs)
 		if done > 0 {
 			after = msgs[done-1].Seq
-			p.ack(msgs[:done])
+			p.ack(msgs[:done], !errors.Is(err, ErrBadTopic))
 		}
 		if err != nil && ctx.Err() == nil {
-			if !errors.Is(err, errConnChanged) {
+			if !errors.Is(err, errConnChanged) && !errors.Is(err, ErrBadTopic) {
 				p.report("mqtt publish failed; will resend", err)
 				p.wait(ctx, nil) // back off before resending
 			}
@@ -431,13 +435,15 @@ func (p *Publisher) await(ctx context.Context, tok paho.Token, deadline time.Tim
 }
 
 // sendWindow publishes msgs (seq order) and waits for their tokens in
-// order. It returns how many leading messages are done (delivered, or
-// dropped for a bad topic) and why it stopped early.
+// order. It returns how many leading messages are delivered and why it
+// stopped early; when the first message's topic cannot be published it
+// returns 1 and an error wrapping ErrBadTopic (the message is to be dropped).
 func (p *Publisher) sendWindow(ctx context.Context, msgs []store.Message) (int, error) {
 	if !publishable(msgs[0].Topic) {
 		p.dropped.Add(1)
-		p.report("mqtt message dropped", fmt.Errorf("seq %d topic %q: %w", msgs[0].Seq, msgs[0].Topic, ErrBadTopic))
-		return 1, nil
+		err := fmt.Errorf("seq %d topic %q: %w", msgs[0].Seq, msgs[0].Topic, ErrBadTopic)
+		p.report("mqtt message dropped", err)
+		return 1, err
 	}
 	n := 1
 	for n < len(msgs) && publishable(msgs[n].Topic) {
@@ -468,8 +474,9 @@ func (p *Publisher) sendWindow(ctx context.Context, msgs []store.Message) (int, 
 	return n, nil
 }
 
-// ack deletes delivered messages from the outbox; a failed Ack is retried.
-func (p *Publisher) ack(msgs []store.Message) {
+// ack deletes delivered (or, with delivered false, dropped) messages from
+// the outbox; a failed Ack is retried.
+func (p *Publisher) ack(msgs []store.Message, delivered bool) {
 	seqs := make([]uint64, len(msgs))
 	for i := range msgs {
 		seqs[i] = msgs[i].Seq
@@ -481,7 +488,9 @@ func (p *Publisher) ack(msgs []store.Message) {
 		}
 		return
 	}
-	p.acked.Add(uint64(len(seqs)))
+	if delivered {
+		p.acked.Add(uint64(len(seqs)))
+	}
 }
 
 func (p *Publisher) retryAck() {
