@@ -8,6 +8,7 @@ require (
 	github.com/schollz/progressbar/v3 v3.19.1
 	go.etcd.io/bbolt v1.5.0
 	go.yaml.in/yaml/v3 v3.0.6
+	golang.org/x/sys v0.50.0
 	golang.org/x/term v0.48.0
 	gonum.org/v1/gonum v0.17.0
 )
@@ -19,5 +20,4 @@ require (
 	github.com/rs/xid v1.4.0 // indirect
 	golang.org/x/net v0.44.0 // indirect
 	golang.org/x/sync v0.20.0 // indirect
-	golang.org/x/sys v0.50.0 // indirect
 )

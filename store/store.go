@@ -349,3 +349,23 @@ func usableBytes(capBytes, pageSize, allocSize int64) int64 {
 	}
 	return lo * pageSize
 }
+
+// Check runs bbolt's consistency check over the whole file (every page
+// reachable once, freelist consistent) and returns every problem found,
+// joined; nil means the file is sound.
+func (db *DB) Check() error {
+	var errs []error
+	err := db.view(func(tx *bolt.Tx) error {
+		for e := range tx.Check() {
+			errs = append(errs, e)
+		}
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	if len(errs) > 0 {
+		return fmt.Errorf("store: consistency check: %w", errors.Join(errs...))
+	}
+	return nil
+}

@@ -14,6 +14,7 @@ import (
 	"time"
 
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/sdnotify"
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/sysclock"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/alarm"
@@ -51,6 +52,7 @@ type daemonOptions struct {
 	now          func() time.Time
 	stdout       io.Writer
 	brokerAddr   string
+	stopAfter    time.Duration // sim only: simulated time to run, then a clean stop
 }
 
 // daemon is one running gateway with its store, publisher and broker.
@@ -71,6 +73,7 @@ func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	cfgPath := fs.String("config", "", "config `FILE` (YAML); required")
 	logFormat := fs.String("log-format", "text", "log format on stderr: text or json")
 	logLevel := fs.String("log-level", "info", "log level: debug, info, warn or error")
+	stopAfter := fs.Duration("stop-after", 0, "with source.kind sim: stop cleanly (exit 0) after this much simulated time; for soak tests and measurements")
 	fs.Usage = func() {
 		fmt.Fprint(fs.Output(), runHelp)
 		fs.PrintDefaults()
@@ -92,7 +95,10 @@ func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	if err != nil {
 		return &usageError{err}
 	}
-	return runDaemon(ctx, cfg, daemonOptions{logFormat: *logFormat, logLevel: lvl, stdout: stdout}, stderr)
+	if *stopAfter < 0 || (*stopAfter > 0 && cfg.Source.Kind != config.SourceSim) {
+		return usagef("run: --stop-after needs a positive duration and source.kind sim")
+	}
+	return runDaemon(ctx, cfg, daemonOptions{logFormat: *logFormat, logLevel: lvl, stdout: stdout, stopAfter: *stopAfter}, stderr)
 }
 
 func newLogger(w io.Writer, format string, lvl slog.Level) *slog.Logger {
@@ -177,10 +183,14 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		}
 		sc := simConfig(cfg, rate)
 		sc.Speed = cfg.Source.Speed
-		sc.Start = now().UTC()
+		sc.Start = simStart(db, now().UTC())
 		sc.Filter = sim.FilterProfile{Period: 6 * time.Hour, Worst: 0.3}
 		if o.simTweak != nil {
 			o.simTweak(&sc)
+		}
+		if o.stopAfter > 0 {
+			sc.Limit = uint64(o.stopAfter.Seconds() * rate)
+			endIsError = false
 		}
 		s, err := sim.New(sc)
 		if err != nil {
@@ -283,13 +293,19 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	if cfg.Source.Kind == config.SourceSim {
 		pc.BlockFrames = 256
 	}
+	// Records carry clock_unsynced when their times come from an
+	// unsynchronised wall clock: a source paced in real time.
+	synced := func() bool { s, _ := sysclock.Synced(); return s }
+	if cfg.Source.Kind == config.SourceSim && cfg.Source.Speed == 1 {
+		pc.Unsynced = func() bool { return !synced() }
+	}
 	kick := func() {}
 	if d.pub != nil {
 		kick = d.pub.Kick
 	}
 	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, Live: live, EndIsError: endIsError,
 		Store: db, Alarms: ev, Telemetry: tele, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
-		CommitEvery: cfg.Store.CommitEvery, Now: now, Logger: log.With("part", "gateway"),
+		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("part", "gateway"),
 		OnRecord: o.onRecord, OnTransition: o.onTransition})
 	if err != nil {
 		return err
@@ -381,4 +397,21 @@ func mqttTLS(cfg *config.Config) (*tls.Config, error) {
 		return nil, usagef("%s: mqtt.tls: %v", cfg.Path, err)
 	}
 	return t, nil
+}
+
+// simStart is where simulated time begins: the wall clock, or, when an
+// accelerated simulator ran ahead of it before a restart, the end of the
+// newest stored record, so stored data never overlaps itself.
+func simStart(db *store.DB, wall time.Time) time.Time {
+	for _, iv := range []metrics.Interval{metrics.Int3s, metrics.Int10min} {
+		recs, err := db.Last(iv, 1)
+		if err != nil || len(recs) == 0 {
+			continue
+		}
+		end := recs[0].Start.Add(time.Duration(recs[0].DurationS * float64(time.Second)))
+		if end.After(wall) {
+			wall = end
+		}
+	}
+	return wall
 }

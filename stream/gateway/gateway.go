@@ -46,7 +46,10 @@ type Config struct {
 	CommitEvery time.Duration    // aggregate batch period (wall time); 0 = 60 s
 	QueueLen    int              // records between the two goroutines; 0 = 256
 	Now         func() time.Time // wall clock; nil = time.Now
-	Logger      *slog.Logger
+	// Synced reports whether the wall clock is synchronised; retention
+	// prunes only then, so age counts from synchronised time. nil = always.
+	Synced func() bool
+	Logger *slog.Logger
 
 	// OnRecord and OnTransition are called from the store goroutine for
 	// each aggregate record and alarm transition (the demo's live table).
@@ -226,6 +229,9 @@ func (g *Gateway) sink(q <-chan *metrics.Record) {
 			g.handle(r)
 		case <-tick.C:
 			g.commit()
+			if g.cfg.Synced != nil && !g.cfg.Synced() {
+				continue
+			}
 			if now := g.now(); now.Sub(lastPrune) >= time.Hour || now.Before(lastPrune) {
 				lastPrune = now
 				if n, err := g.cfg.Store.Prune(now); err != nil {

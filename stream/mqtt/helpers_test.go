@@ -8,6 +8,7 @@ import (
 	"io"
 	"log/slog"
 	"net"
+	"os"
 	"path/filepath"
 	"strconv"
 	"sync"
@@ -95,6 +96,9 @@ func startPub(t testing.TB, url string, db mqtt.Outbox, mod func(*mqtt.Config)) 
 	go func() { r.done <- p.Run(ctx) }()
 	t.Cleanup(func() {
 		r.stop(t)
+		if testing.Verbose() {
+			t.Log(logs.String())
+		}
 		if s := logs.String(); bytes.Contains([]byte(s), []byte(testPass)) {
 			t.Errorf("password in the publisher's log:\n%s", s)
 		}
@@ -474,4 +478,11 @@ func (e *errOutbox) Ack(seqs ...uint64) error {
 		return errInjected
 	}
 	return e.DB.Ack(seqs...)
+}
+
+func writeFile(t testing.TB, path, text string) {
+	t.Helper()
+	if err := os.WriteFile(path, []byte(text), 0o600); err != nil {
+		t.Fatal(err)
+	}
 }

@@ -8,7 +8,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
-	"github.com/gridloupe/gridloupe/stream/mqtt/internal/mosq"
+	"github.com/gridloupe/gridloupe/stream/mqtt/mqtttest"
 )
 
 // shutdownBound is how soon Run must return after cancel: the brief's bound
@@ -21,7 +21,7 @@ const statusTimeLayout = "2006-01-02T15:04:05.000000Z"
 
 func TestDeliverInOrder(t *testing.T) {
 	t.Parallel()
-	b := mosq.Start(t)
+	b := mqtttest.Start(t)
 	db := openStore(t)
 	sub := newSubscriber(t, b.URL(), nil)
 	queued := map[uint64]store.Message{}
@@ -79,13 +79,13 @@ func TestBrokerRestartNoLoss(t *testing.T) {
 	if testing.Short() {
 		outage = 3 * time.Second
 	}
-	b := mosq.Start(t)
+	b := mqtttest.Start(t)
 	db := openStore(t)
 	sub := newSubscriber(t, b.URL(), nil)
 	// The publisher reaches the broker through a proxy that stays closed
 	// after the restart until the subscriber has subscribed again (its
 	// session is clean, so it would miss what arrives before that).
-	px := newProxy(t, b.Addr(), mosq.FreePort(t))
+	px := newProxy(t, b.Addr(), mqtttest.FreePort(t))
 	px.Open(t)
 	r := startPub(t, px.URL(), db, nil)
 
@@ -152,10 +152,10 @@ func distinct(ms []seqMsg) map[uint64]bool {
 // publish the retained offline Last Will.
 func TestLastWill(t *testing.T) {
 	t.Parallel()
-	b := mosq.Start(t)
+	b := mqtttest.Start(t)
 	db := openStore(t)
 	sub := newSubscriber(t, b.URL(), nil)
-	px := newProxy(t, b.Addr(), mosq.FreePort(t))
+	px := newProxy(t, b.Addr(), mqtttest.FreePort(t))
 	px.Open(t)
 	startPub(t, px.URL(), db, nil)
 	waitUntil(t, "online", func() bool { return sub.lastStatus(t).Status == "online" })
@@ -174,7 +174,7 @@ func TestLastWill(t *testing.T) {
 
 func TestCleanShutdown(t *testing.T) {
 	t.Parallel()
-	b := mosq.Start(t)
+	b := mqtttest.Start(t)
 	db := openStore(t)
 	sub := newSubscriber(t, b.URL(), nil)
 	r := startPub(t, b.URL(), db, nil)
@@ -204,7 +204,7 @@ func TestCleanShutdown(t *testing.T) {
 // its port; a broker started there later gets the whole outbox.
 func TestUnreachableAtStart(t *testing.T) {
 	t.Parallel()
-	b := mosq.New(t) // port chosen, nothing listening yet
+	b := mqtttest.New(t) // port chosen, nothing listening yet
 	db := openStore(t)
 	n := 0
 	for i := range 4 {
@@ -237,7 +237,7 @@ func TestUnreachableAtStart(t *testing.T) {
 // not sent again, and their Ack is retried until it succeeds.
 func TestAckFailureRetried(t *testing.T) {
 	t.Parallel()
-	b := mosq.Start(t)
+	b := mqtttest.Start(t)
 	db := openStore(t)
 	ob := &errOutbox{DB: db}
 	ob.fail.Store(true)
@@ -270,7 +270,7 @@ func TestAckFailureRetried(t *testing.T) {
 // passes a non-object payload through unchanged.
 func TestBadTopicAndRawPayload(t *testing.T) {
 	t.Parallel()
-	b := mosq.Start(t)
+	b := mqtttest.Start(t)
 	db := openStore(t)
 	sub := newSubscriber(t, b.URL(), nil)
 	good := alarmMsg(1)
@@ -358,10 +358,10 @@ func TestNewErrors(t *testing.T) {
 // every seq first arrives in order.
 func TestCutMidFlight(t *testing.T) {
 	t.Parallel()
-	b := mosq.Start(t)
+	b := mqtttest.Start(t)
 	db := openStore(t)
 	sub := newSubscriber(t, b.URL(), nil)
-	px := newProxy(t, b.Addr(), mosq.FreePort(t))
+	px := newProxy(t, b.Addr(), mqtttest.FreePort(t))
 	px.delay = 3 * time.Millisecond
 	px.Open(t)
 	queued := map[uint64]store.Message{}
