@@ -226,3 +226,17 @@ type Record struct {
 	UnbV       float64         // voltage_pct, NaN when undefined
 	UnbI       float64         // current_pct
 }
+
+// Clone returns a deep copy of r, for handing a record to another
+// goroutine or keeping it past the producer's next window.
+func (r *Record) Clone() *Record {
+	c := *r
+	c.Channels = append([]ChannelValues(nil), r.Channels...)
+	for i := range c.Channels {
+		c.Channels[i].H = append([]Harmonic(nil), r.Channels[i].H...)
+	}
+	c.Phases = append([]PhaseValues(nil), r.Phases...)
+	c.SeqV = append([]Seq(nil), r.SeqV...)
+	c.SeqI = append([]Seq(nil), r.SeqI...)
+	return &c
+}

@@ -14,29 +14,7 @@ import (
 // and 3 s / 10 min aggregation all reuse their buffers (STYLE.md §5).
 func TestPipelineAllocs(t *testing.T) {
 	const fs = 10240.0
-	chans := []synthChan{
-		{tones: []tone{{1, 230, 0}, {5, 7, 40}}, noise: 0.2},
-		{tones: []tone{{1, 230, -120}, {5, 7, 160}}, noise: 0.2},
-		{tones: []tone{{1, 230, 120}, {5, 7, -80}}, noise: 0.2},
-		{tones: []tone{{1, 100, -13}, {5, 30, 150}}, noise: 0.1},
-		{tones: []tone{{1, 100, -133}, {5, 30, 270}}, noise: 0.1},
-		{tones: []tone{{1, 100, 107}, {5, 30, 30}}, noise: 0.1},
-	}
-	src := newSynth(fs, constFreq(49.97), 3.1, chans...)
-	var data []float64
-	buf := make([]float64, 6*512)
-	for {
-		n, err := src.ReadFrames(buf)
-		data = append(data, buf[:n*6]...)
-		if err != nil {
-			break
-		}
-	}
-	ch := []metrics.Channel{
-		{Name: "va", Kind: metrics.Voltage, Phase: 'a'}, {Name: "vb", Kind: metrics.Voltage, Phase: 'b'},
-		{Name: "vc", Kind: metrics.Voltage, Phase: 'c'}, {Name: "ia", Kind: metrics.Current, Phase: 'a'},
-		{Name: "ib", Kind: metrics.Current, Phase: 'b'}, {Name: "ic", Kind: metrics.Current, Phase: 'c'},
-	}
+	data, ch := sixChannels(fs, 3.1, 49.97)
 	s := setupOf(t, metrics.Wye, 230, 160, true, nil, ch...)
 	p, err := New(Config{Setup: s, SampleRate: fs, NominalHz: 50})
 	if err != nil {

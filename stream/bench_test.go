@@ -30,29 +30,7 @@ func (m *memSource) ReadFrames(dst []float64) (int, error) {
 // metrics and 3 s / 10 min aggregation.
 func BenchmarkPipeline(b *testing.B) {
 	const fs, secs = 10240.0, 10.0
-	chans := []synthChan{
-		{tones: []tone{{1, 230, 0}, {5, 7, 40}, {7, 5, -70}}, noise: 0.2},
-		{tones: []tone{{1, 230, -120}, {5, 7, 160}, {7, 5, -190}}, noise: 0.2},
-		{tones: []tone{{1, 230, 120}, {5, 7, -80}, {7, 5, 50}}, noise: 0.2},
-		{tones: []tone{{1, 128, -13}, {5, 42, 150}, {7, 20, 20}}, noise: 0.1},
-		{tones: []tone{{1, 128, -133}, {5, 42, 270}, {7, 20, -100}}, noise: 0.1},
-		{tones: []tone{{1, 128, 107}, {5, 42, 30}, {7, 20, 140}}, noise: 0.1},
-	}
-	src := newSynth(fs, constFreq(50.02), secs, chans...)
-	data := make([]float64, 0, int(fs*secs)*6)
-	buf := make([]float64, 6*1024)
-	for {
-		n, err := src.ReadFrames(buf)
-		data = append(data, buf[:n*6]...)
-		if err != nil {
-			break
-		}
-	}
-	ch := []metrics.Channel{
-		{Name: "va", Kind: metrics.Voltage, Phase: 'a'}, {Name: "vb", Kind: metrics.Voltage, Phase: 'b'},
-		{Name: "vc", Kind: metrics.Voltage, Phase: 'c'}, {Name: "ia", Kind: metrics.Current, Phase: 'a'},
-		{Name: "ib", Kind: metrics.Current, Phase: 'b'}, {Name: "ic", Kind: metrics.Current, Phase: 'c'},
-	}
+	data, ch := sixChannels(fs, secs, 50.02)
 	for _, bc := range []struct {
 		name   string
 		all    bool

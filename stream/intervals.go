@@ -54,10 +54,12 @@ func NewIntervals(s *metrics.Setup, levels ...metrics.Interval) *Intervals {
 	return iv
 }
 
-func tickOf(t time.Time) int64 {
+// Tick returns the index of the wall-clock interval of length d that holds
+// t (floor of t/d since the Unix epoch, also before 1970).
+func Tick(t time.Time, d time.Duration) int64 {
 	ns := t.UnixNano()
-	q := ns / int64(tenMin)
-	if ns%int64(tenMin) < 0 {
+	q := ns / int64(d)
+	if ns%int64(d) < 0 {
 		q--
 	}
 	return q
@@ -66,7 +68,7 @@ func tickOf(t time.Time) int64 {
 // Add takes one window record and emits whatever intervals it completes,
 // in time order. The record is not kept.
 func (iv *Intervals) Add(r *metrics.Record, emit func(*metrics.Record) error) error {
-	tick := tickOf(r.Start)
+	tick := Tick(r.Start, tenMin)
 	if iv.a10.Count() > 0 && tick != iv.tick10 {
 		if err := iv.close3(true, emit); err != nil {
 			return err
@@ -113,30 +115,28 @@ func (iv *Intervals) close3(partial bool, emit func(*metrics.Record) error) erro
 	if iv.n3 == 0 {
 		return nil
 	}
-	defer func() { iv.a3.Reset(); iv.n3 = 0 }()
-	if !iv.want3 {
-		return nil
-	}
-	iv.a3.Result(iv.out)
-	iv.out.Interval = metrics.Int3s
-	iv.out.Start = iv.start3
-	if partial {
-		iv.out.Flags |= metrics.FlagPartial
-	}
-	return emit(iv.out)
+	iv.n3 = 0
+	return iv.emitLevel(iv.a3, iv.want3, metrics.Int3s, iv.start3, partial, emit)
 }
 
 func (iv *Intervals) close10(partial bool, emit func(*metrics.Record) error) error {
 	if iv.a10.Count() == 0 {
 		return nil
 	}
-	defer iv.a10.Reset()
-	if !iv.want10 {
+	return iv.emitLevel(iv.a10, iv.want10, metrics.Int10min, iv.start10, partial, emit)
+}
+
+// emitLevel emits an aggregator's result, when the level is wanted, and
+// resets it.
+func (iv *Intervals) emitLevel(a *metrics.Aggregator, want bool, l metrics.Interval, start time.Time,
+	partial bool, emit func(*metrics.Record) error) error {
+	defer a.Reset()
+	if !want {
 		return nil
 	}
-	iv.a10.Result(iv.out)
-	iv.out.Interval = metrics.Int10min
-	iv.out.Start = iv.start10
+	a.Result(iv.out)
+	iv.out.Interval = l
+	iv.out.Start = start
 	if partial {
 		iv.out.Flags |= metrics.FlagPartial
 	}

@@ -92,14 +92,33 @@ func setupOf(tb interface{ Fatal(...any) }, wiring metrics.Wiring, nomV, il floa
 }
 
 // cloneRecord deep-copies a record (the pipeline reuses its own).
-func cloneRecord(r *metrics.Record) metrics.Record {
-	c := *r
-	c.Channels = append([]metrics.ChannelValues(nil), r.Channels...)
-	for i := range c.Channels {
-		c.Channels[i].H = append([]metrics.Harmonic(nil), r.Channels[i].H...)
+func cloneRecord(r *metrics.Record) metrics.Record { return *r.Clone() }
+
+// sixChannels returns an interleaved six-channel recording (va, vb, vc,
+// ia, ib, ic: a balanced set with 5th and 7th harmonics and noise) and the
+// matching channel descriptions, for benchmarks and allocation tests.
+func sixChannels(fs, seconds, f float64) ([]float64, []metrics.Channel) {
+	chans := []synthChan{
+		{tones: []tone{{1, 230, 0}, {5, 7, 40}, {7, 5, -70}}, noise: 0.2},
+		{tones: []tone{{1, 230, -120}, {5, 7, 160}, {7, 5, -190}}, noise: 0.2},
+		{tones: []tone{{1, 230, 120}, {5, 7, -80}, {7, 5, 50}}, noise: 0.2},
+		{tones: []tone{{1, 128, -13}, {5, 42, 150}, {7, 20, 20}}, noise: 0.1},
+		{tones: []tone{{1, 128, -133}, {5, 42, 270}, {7, 20, -100}}, noise: 0.1},
+		{tones: []tone{{1, 128, 107}, {5, 42, 30}, {7, 20, 140}}, noise: 0.1},
 	}
-	c.Phases = append([]metrics.PhaseValues(nil), r.Phases...)
-	c.SeqV = append([]metrics.Seq(nil), r.SeqV...)
-	c.SeqI = append([]metrics.Seq(nil), r.SeqI...)
-	return c
+	src := newSynth(fs, constFreq(f), seconds, chans...)
+	data := make([]float64, 0, int(fs*seconds)*6)
+	buf := make([]float64, 6*1024)
+	for {
+		n, err := src.ReadFrames(buf)
+		data = append(data, buf[:n*6]...)
+		if err != nil {
+			break
+		}
+	}
+	return data, []metrics.Channel{
+		{Name: "va", Kind: metrics.Voltage, Phase: 'a'}, {Name: "vb", Kind: metrics.Voltage, Phase: 'b'},
+		{Name: "vc", Kind: metrics.Voltage, Phase: 'c'}, {Name: "ia", Kind: metrics.Current, Phase: 'a'},
+		{Name: "ib", Kind: metrics.Current, Phase: 'b'}, {Name: "ic", Kind: metrics.Current, Phase: 'c'},
+	}
 }

@@ -10,6 +10,8 @@ import (
 	"log/slog"
 	"os"
 	"path/filepath"
+	"runtime"
+	"runtime/pprof"
 	"sync"
 	"time"
 
@@ -357,6 +359,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 
 	runErr := gw.Run(ctx)
 	_ = sd.Send("STOPPING=1")
+	writeHeapProfile(log)
 	st := gw.Stats()
 	log.Info("gateway stopping", "windows", st.Windows, "aggregates", st.Aggregates, "stored", st.Stored,
 		"alarm_transitions", st.Transitions, "queued", st.Queued)
@@ -414,4 +417,23 @@ func simStart(db *store.DB, wall time.Time) time.Time {
 		}
 	}
 	return wall
+}
+
+// writeHeapProfile writes a heap profile to $GRIDLOUPE_HEAPPROFILE, if set,
+// when the gateway stops (for memory investigations; see DEVELOPERS.md).
+func writeHeapProfile(log *slog.Logger) {
+	path := os.Getenv("GRIDLOUPE_HEAPPROFILE")
+	if path == "" {
+		return
+	}
+	f, err := os.Create(path)
+	if err != nil {
+		log.Warn("heap profile", "err", err)
+		return
+	}
+	defer f.Close()
+	runtime.GC()
+	if err := pprof.WriteHeapProfile(f); err != nil {
+		log.Warn("heap profile", "err", err)
+	}
 }

@@ -178,7 +178,7 @@ func (g *Gateway) Run(ctx context.Context) error {
 		g.sink(q)
 	}()
 	send := func(r *metrics.Record) error {
-		c := clone(r)
+		c := r.Clone()
 		if g.cfg.Live {
 			select {
 			case q <- c:
@@ -244,10 +244,20 @@ func (g *Gateway) sink(q <-chan *metrics.Record) {
 	}
 }
 
+// maxBatch bounds the aggregates held between commits: in real time a
+// 60 s batch holds about 20 records, but an accelerated simulator or a
+// replay produces them far faster, and memory must stay flat.
+const maxBatch = 32
+
 // handle processes one aggregate record.
 func (g *Gateway) handle(r *metrics.Record) {
 	g.aggregates.Add(1)
 	g.batch = append(g.batch, r)
+	defer func() {
+		if len(g.batch) >= maxBatch {
+			g.commit()
+		}
+	}()
 	g.evaluate(r)
 	if g.cfg.Base != "" && int(r.Interval) < len(g.telem) && g.telem[r.Interval] {
 		g.msgs = append(g.msgs, store.Message{Class: store.ClassTelemetry, QoS: 0,
@@ -335,6 +345,7 @@ func (g *Gateway) commit() {
 			g.stored.Add(uint64(len(g.batch)))
 			g.clearErr()
 		}
+		clear(g.batch) // drop the references so the records can be collected
 		g.batch = g.batch[:0]
 	}
 	if len(g.msgs) > 0 {
@@ -344,6 +355,7 @@ func (g *Gateway) commit() {
 			g.queued.Add(uint64(len(g.msgs)))
 			g.kick()
 		}
+		clear(g.msgs)
 		g.msgs = g.msgs[:0]
 	}
 	if g.cfg.Alarms != nil {
@@ -396,17 +408,4 @@ func (g *Gateway) kick() {
 	if g.cfg.Kick != nil {
 		g.cfg.Kick()
 	}
-}
-
-// clone deep-copies a record for the other goroutine.
-func clone(r *metrics.Record) *metrics.Record {
-	c := *r
-	c.Channels = append([]metrics.ChannelValues(nil), r.Channels...)
-	for i := range c.Channels {
-		c.Channels[i].H = append([]metrics.Harmonic(nil), r.Channels[i].H...)
-	}
-	c.Phases = append([]metrics.PhaseValues(nil), r.Phases...)
-	c.SeqV = append([]metrics.Seq(nil), r.SeqV...)
-	c.SeqI = append([]metrics.Seq(nil), r.SeqI...)
-	return &c
 }

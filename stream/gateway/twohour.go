@@ -4,6 +4,7 @@ import (
 	"time"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/stream"
 )
 
 const twoHours = 2 * time.Hour
@@ -11,14 +12,7 @@ const twoHours = 2 * time.Hour
 // per2h is the number of 10 min values in a 2 h value (IEC 61000-4-30).
 const per2h = 12
 
-func tick2hOf(t time.Time) int64 {
-	ns := t.UnixNano()
-	q := ns / int64(twoHours)
-	if ns%int64(twoHours) < 0 {
-		q--
-	}
-	return q
-}
+func tick2hOf(t time.Time) int64 { return stream.Tick(t, twoHours) }
 
 // seed2h reloads the 10 min records of the current 2 h clock interval
 // from the store, so a restart mid-interval loses none of them.
@@ -75,5 +69,5 @@ func (g *Gateway) close2h(atEnd bool) {
 	}
 	g.a2h.Reset()
 	g.n2h = 0
-	g.handle(clone(g.rec2h))
+	g.handle(g.rec2h.Clone())
 }
