@@ -209,7 +209,7 @@ func (db *DB) Query(iv metrics.Interval, from, to time.Time, fn func(r *metrics.
 			return nil
 		}
 		c := b.Cursor()
-		for k, v := c.Seek(seek[:]); k != nil && len(k) == 16 && keyStart(k) < end; k, v = c.Next() {
+		for k, v := c.Seek(seek[:]); len(k) == 16 && keyStart(k) < end; k, v = c.Next() {
 			r, err := db.decode(v, iv)
 			if err != nil {
 				return fmt.Errorf("key %x: %w", k, err)

@@ -15,7 +15,7 @@ import (
 // (RFC 8259), never contain NaN or Inf, and give back finite values exactly.
 func FuzzAppendJSON(f *testing.F) {
 	f.Add(math.Float64bits(0.1), math.Float64bits(math.NaN()), math.Float64bits(math.Inf(1)), uint16(0), "va")
-	f.Add(math.Float64bits(math.Inf(-1)), math.Float64bits(-0.0), uint64(1), uint16(0x3ff), "i\"a\\\x00\xff")
+	f.Add(math.Float64bits(math.Inf(-1)), math.Float64bits(math.Copysign(0, -1)), uint64(1), uint16(0x3ff), "i\"a\\\x00\xff")
 	f.Add(math.Float64bits(1e21), math.Float64bits(1e-7), math.Float64bits(math.MaxFloat64), uint16(0xffff), "ü\u2028")
 	f.Fuzz(func(t *testing.T, a, b, c uint64, flags uint16, name string) {
 		s := buildSetup(t, specSingle)
