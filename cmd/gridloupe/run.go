@@ -302,13 +302,21 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		pc.Unsynced = func() bool { return !synced() }
 	}
 	kick := func() {}
+	onStoreErr := func(error) {}
 	if d.pub != nil {
 		kick = d.pub.Kick
+		onStoreErr = func(err error) {
+			if err == nil {
+				d.pub.SetProblem("")
+				return
+			}
+			d.pub.SetProblem("store: " + err.Error())
+		}
 	}
 	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, Live: live, EndIsError: endIsError,
 		Store: db, Alarms: ev, Telemetry: tele, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
 		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("part", "gateway"),
-		OnRecord: o.onRecord, OnTransition: o.onTransition})
+		OnRecord: o.onRecord, OnTransition: o.onTransition, OnStoreError: onStoreErr})
 	if err != nil {
 		return err
 	}

@@ -56,8 +56,9 @@ type Config struct {
 	// They must not keep the record.
 	OnRecord     func(r *metrics.Record, active []string)
 	OnTransition func(t alarm.Transition)
-	// OnStoreError is called when a store write fails (the daemon logs it
-	// and publishes a status); measurement goes on.
+	// OnStoreError is called when a store write fails (the daemon puts it
+	// in its MQTT status), and with nil when writes succeed again;
+	// measurement goes on either way.
 	OnStoreError func(err error)
 }
 
@@ -401,6 +402,9 @@ func (g *Gateway) clearErr() {
 	if g.lastErr != "" {
 		g.log.Info("store writes recovered")
 		g.lastErr = ""
+		if g.cfg.OnStoreError != nil {
+			g.cfg.OnStoreError(nil)
+		}
 	}
 }
 

@@ -209,6 +209,7 @@ type statusMsg struct {
 	Site     string `json:"site"`
 	Gateway  string `json:"gateway"`
 	Reason   string `json:"reason"`
+	Problem  string `json:"problem"`
 	retained bool
 }
 

@@ -93,7 +93,9 @@ type Publisher struct {
 	running atomic.Bool
 
 	connects  atomic.Uint64 // successful connections
-	failing   atomic.Bool   // a connection failure was logged since the last connect
+	statusGen atomic.Uint64 // bumped by SetProblem: the online status must be republished
+	problem   atomic.Pointer[string]
+	failing   atomic.Bool // a connection failure was logged since the last connect
 	published atomic.Uint64
 	acked     atomic.Uint64
 	dropped   atomic.Uint64
@@ -242,15 +244,38 @@ type statusJSON struct {
 	Site    string `json:"site,omitempty"`
 	Gateway string `json:"gateway"`
 	Reason  string `json:"reason,omitempty"`
+	Problem string `json:"problem,omitempty"`
 }
 
 func (p *Publisher) statusPayload(status, reason string, withTime bool) []byte {
 	s := statusJSON{Status: status, Site: p.site, Gateway: p.gateway, Reason: reason}
+	if status == "online" {
+		if pr := p.problem.Load(); pr != nil {
+			s.Problem = *pr
+		}
+	}
 	if withTime {
 		s.Time = p.cfg.Now().UTC().Format(timeLayout)
 	}
 	b, _ := json.Marshal(s) // strings only: cannot fail (invalid UTF-8 becomes U+FFFD)
 	return b
+}
+
+// SetProblem sets (or, with "", clears) a problem the gateway reports in
+// its retained online status, e.g. a failing store: the outbox lives in the
+// store, so such news cannot wait in it. The status is republished at once
+// when connected. Safe for concurrent use; never blocks.
+func (p *Publisher) SetProblem(msg string) {
+	if old := p.problem.Load(); (old == nil && msg == "") || (old != nil && *old == msg) {
+		return
+	}
+	if msg == "" {
+		p.problem.Store(nil)
+	} else {
+		p.problem.Store(&msg)
+	}
+	p.statusGen.Add(1)
+	signal(p.kick)
 }
 
 // Kick tells the publisher that new messages were queued. It never blocks.
@@ -352,14 +377,14 @@ func (p *Publisher) Run(ctx context.Context) error {
 	}
 	p.log.Info("mqtt connecting", "broker", p.broker, "client_id", p.cfg.ClientID)
 	p.client.Connect() // with ConnectRetry its token completes only on success; state comes via onNotify
-	var after, seen uint64
+	var after, seen, seenGen uint64
 	for ctx.Err() == nil {
 		if !p.client.IsConnectionOpen() {
 			p.wait(ctx, nil)
 			continue
 		}
-		if c := p.connects.Load(); c != seen {
-			seen = c
+		if c, g := p.connects.Load(), p.statusGen.Load(); c != seen || g != seenGen {
+			seen, seenGen = c, g
 			if err := p.announce(ctx, c); err != nil {
 				if !errors.Is(err, errConnChanged) && ctx.Err() == nil {
 					p.report("mqtt online status not delivered", err)

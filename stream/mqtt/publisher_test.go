@@ -382,3 +382,23 @@ func TestCutMidFlight(t *testing.T) {
 	}
 	t.Logf("%d of %d undelivered at the cut", inFlight, n)
 }
+
+// TestProblemInStatus: a problem the gateway reports (a failing store,
+// whose outbox cannot carry the news) is republished at once in the
+// retained online status, and cleared the same way (DESIGN: "at runtime an
+// error-level log, a status message, and measurement continues").
+func TestProblemInStatus(t *testing.T) {
+	t.Parallel()
+	b := mqtttest.Start(t)
+	db := openStore(t)
+	sub := newSubscriber(t, b.URL(), nil)
+	r := startPub(t, b.URL(), db, nil)
+	waitUntil(t, "online", func() bool { return sub.lastStatus(t).Status == "online" })
+	r.SetProblem("store: disk full")
+	waitUntil(t, "online with the problem", func() bool { return sub.lastStatus(t).Problem == "store: disk full" })
+	r.SetProblem("")
+	waitUntil(t, "online without a problem", func() bool {
+		st := sub.lastStatus(t)
+		return st.Status == "online" && st.Problem == ""
+	})
+}
