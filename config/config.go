@@ -91,6 +91,7 @@ type Store struct {
 // MQTT configures the broker connection and topics.
 type MQTT struct {
 	Broker       string   // "" = off, "tcp://host:port", "ssl://host:port" or "embedded"
+	Listen       string   // embedded broker only: host:port it listens on; default 127.0.0.1:1883 (a non-loopback address needs TLS and credentials)
 	ClientID     string   // default: the gateway name
 	Username     string   // "" = none
 	PasswordFile string   // file holding the password (resolved against the config's folder); never logged

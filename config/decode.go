@@ -27,7 +27,7 @@ var sections = map[string][]string{
 	"source":          {"kind", "speed", "path"},
 	"store":           {"path", "commit_every", "max_size_mb", "retention"},
 	"store.retention": {"3s", "10min", "2h"},
-	"mqtt": {"broker", "client_id", "username", "password_file", "password_env", "tls",
+	"mqtt": {"broker", "listen", "client_id", "username", "password_file", "password_env", "tls",
 		"topic_prefix", "telemetry"},
 	"mqtt.tls": {"ca", "cert", "key"},
 	"alarms[]": {"name", "metric", "channel", "phase", "level", "above", "below", "deadband",
@@ -559,6 +559,8 @@ func (d *decoder) mqtt(n *yaml.Node, path string, m *MQTT) *Error {
 		switch k {
 		case "broker":
 			return d.str(v, p, &m.Broker)
+		case "listen":
+			return d.str(v, p, &m.Listen)
 		case "client_id":
 			return d.str(v, p, &m.ClientID)
 		case "username":

@@ -59,6 +59,7 @@ store:
 
 mqtt:
   broker: ""               # "" = off | tcp://host:port | ssl://host:port | embedded
+  # listen: 127.0.0.1:1883 # embedded broker only: its address; beyond loopback it needs tls and a password
   # client_id: <gateway>   # default: the gateway name
   username: ""             # required when a password is set
   password_file: ""        # file holding the password (trailing line break removed); never logged

@@ -3,6 +3,7 @@ package config
 import (
 	"fmt"
 	"math"
+	"net"
 	"net/url"
 	"path/filepath"
 	"slices"
@@ -358,6 +359,19 @@ func (v *validator) mqtt() *Error {
 	m := &v.c.MQTT
 	if e := v.broker(); e != nil {
 		return e
+	}
+	if m.Listen != "" {
+		host, port, err := net.SplitHostPort(m.Listen)
+		ip := net.ParseIP(host)
+		switch {
+		case m.Broker != BrokerEmbedded:
+			return v.fail("mqtt.listen", "applies only with broker: embedded")
+		case err != nil || port == "":
+			return v.fail("mqtt.listen", "%q is not host:port, such as 127.0.0.1:1883", m.Listen)
+		case (ip == nil || !ip.IsLoopback()) && host != "localhost" &&
+			(m.TLS.Cert == "" || m.Username == "" || (m.PasswordFile == "" && m.PasswordEnv == "")):
+			return v.fail("mqtt.listen", "%q is beyond loopback: the embedded broker then needs tls.cert/tls.key, username and a password", m.Listen)
+		}
 	}
 	switch {
 	case v.has("mqtt.client_id") && m.ClientID == "":

@@ -247,7 +247,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			return err
 		}
 		if url == config.BrokerEmbedded {
-			b, err := broker.Start(broker.Config{Addr: embeddedAddr(o), Username: cfg.MQTT.Username, Password: pw,
+			b, err := broker.Start(broker.Config{Addr: embeddedAddr(o, cfg), Username: cfg.MQTT.Username, Password: pw,
 				TLS: tlsCfg, Logger: log.With("part", "broker")})
 			if err != nil {
 				return fmt.Errorf("embedded broker: %w", err)
@@ -390,11 +390,14 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	return nil
 }
 
-// embeddedAddr is where the embedded broker listens: loopback port 1883
-// unless the options say otherwise (the demo picks a free port).
-func embeddedAddr(o daemonOptions) string {
+// embeddedAddr is where the embedded broker listens: mqtt.listen, else
+// loopback port 1883 (the demo picks a free port).
+func embeddedAddr(o daemonOptions, cfg *config.Config) string {
 	if o.brokerAddr != "" {
 		return o.brokerAddr
+	}
+	if cfg.MQTT.Listen != "" {
+		return cfg.MQTT.Listen
 	}
 	return "127.0.0.1:1883"
 }
