@@ -56,6 +56,11 @@ const (
 	// maxStepHz bounds the per-window frequency step used for prediction
 	// (2 Hz/s at 200 ms windows), so a glitch cannot throw the cut far off.
 	maxStepHz = 0.4
+	// trustTol is the relative cut error below which a window's frequency
+	// is trusted for prediction (0.5 %: up to 2.5 Hz/s at 50 Hz); a window
+	// cut much further off (acquisition, a step, the signal's return) is
+	// measured, but not extrapolated from.
+	trustTol = 5e-3
 	// edgeSnap is the distance, in samples, within which an ideal window
 	// edge is put on the nearest sample (4·10⁻⁶ of a 2048-sample window).
 	edgeSnap = 0.01
@@ -98,7 +103,7 @@ type Pipeline struct {
 	edgeR    float64 // and fraction in [0, 1)
 	fUsed    float64 // frequency the current window was cut for
 	fPrev    float64 // measured frequency of the previous window, NaN if none
-	locked   bool
+	prevOK   bool    // the previous window's frequency is trusted for prediction
 	tenEnd   uint64 // sample index where the current 10 s interval ends
 	leftover int    // samples of an unfinished window at EOF
 	windows  uint64
@@ -408,7 +413,7 @@ func (p *Pipeline) track() (fMeas float64, lock bool) {
 	zcF, zcN := p.zc.windowFreq()
 	x1 := p.in.Ch[p.ref].Phasors[0]
 	if p.in.Ch[p.ref].Bad || !(cmplx.Abs(x1) >= p.lockV) {
-		p.locked = false
+		p.prevOK = false
 		p.fPrev = math.NaN()
 		p.fUsed = p.nomHz
 		p.zc.resetCounts()
@@ -426,14 +431,16 @@ func (p *Pipeline) track() (fMeas float64, lock bool) {
 		fMeas = zcF
 	}
 	lock = math.Abs(fMeas-p.fUsed) <= syncTol*p.fUsed
+	trusted := fMeas == fRef && math.Abs(fMeas-p.fUsed) <= trustTol*p.fUsed
 	next := fMeas
-	if !math.IsNaN(p.fPrev) {
+	if trusted && p.prevOK && !math.IsNaN(p.fPrev) {
+		// both windows measured near their cut: extrapolate the trend
 		step := max(-maxStepHz, min(maxStepHz, fMeas-p.fPrev))
 		next = fMeas + step
 	}
+	p.prevOK = trusted
 	lo, hi := p.nomHz*(1-trackRange), p.nomHz*(1+trackRange)
 	next = max(lo, min(hi, next))
-	p.locked = lock
 	p.fPrev = fMeas
 	p.fUsed = next
 	return fMeas, lock
