@@ -205,6 +205,11 @@ func TestDaemonKillAndRestart(t *testing.T) {
 			count(m, base+"/telemetry/3s", nil) >= teleBefore+5
 	})
 	time.Sleep(500 * time.Millisecond) // the alarm rule has seen several 3 s values by now
+	// While the daemon holds the store, export goes through its socket.
+	ex := runCmd("export", "--store", filepath.Join(dir, "gl.db"), "--interval", "3s", "--timeout", "200ms")
+	if ex.code != 0 || strings.Count(ex.stdout, "\n") < n1 {
+		t.Errorf("export while running: exit %d, %d lines (want ≥ %d)\n%s", ex.code, strings.Count(ex.stdout, "\n"), n1, ex.stderr)
+	}
 	if err := p2.cmd.Process.Signal(syscall.SIGTERM); err != nil {
 		t.Fatal(err)
 	}
@@ -352,5 +357,34 @@ func TestDemoRaisesAndClears(t *testing.T) {
 	}
 	if !strings.Contains(r.stdout, "acknowledged by the broker") {
 		t.Errorf("demo summary lacks the published count:\n%s", r.stdout)
+	}
+}
+
+// TestRunSourceFails: a source that fails mid-run (a non-numeric cell in a
+// CSV source) shuts the daemon down cleanly with the reason, exit 1.
+func TestRunSourceFails(t *testing.T) {
+	dir := t.TempDir()
+	rec := writeCSV(t, dir, 10240, func(i int, row string) string {
+		if i == 9000 {
+			return "1.0,oops"
+		}
+		return row
+	})
+	cfg := writeFile(t, dir, "src.yaml", singleCfg+fmt.Sprintf("source: {kind: csv, path: %s}\nstore: {path: %s}\n", rec, filepath.Join(dir, "s.db")))
+	r := runCmd("run", "--config", cfg, "--log-level", "error")
+	if r.code != 1 || !strings.Contains(r.stderr, "rec.csv:9003:2") {
+		t.Errorf("exit %d, stderr:\n%s\nwant exit 1 naming rec.csv:9003:2", r.code, r.stderr)
+	}
+	db, err := store.OpenReadOnly(filepath.Join(dir, "s.db"), time.Second)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	// nothing measured is lost: the 4 windows before the bad row (9000
+	// samples) are stored as one 3 s value flagged partial
+	var got []*metrics.Record
+	db.Query(metrics.Int3s, time.Time{}, time.Time{}, func(r *metrics.Record) error { got = append(got, r.Clone()); return nil })
+	if len(got) != 1 || got[0].Flags&metrics.FlagPartial == 0 || got[0].Samples != 4*2048 {
+		t.Errorf("stored %d records (%+v), want one partial 3 s value of 4 windows", len(got), got)
 	}
 }
