@@ -176,6 +176,10 @@ func (db *DB) PutAggregates(recs []*metrics.Record) error {
 	if err != nil {
 		return fmt.Errorf("store: put %d records: %w", len(recs), err)
 	}
+	if now := time.Now(); now.Sub(db.lastRelease) >= releaseEvery || now.Before(db.lastRelease) {
+		db.lastRelease = now
+		db.releaseMapped()
+	}
 	db.mu.Lock()
 	for _, r := range recs {
 		db.counts[r.Interval]++

@@ -27,6 +27,10 @@ const (
 	trimLow  = 0.80
 )
 
+// releaseEvery is how often (wall time) PutAggregates drops the memory
+// map's resident pages (releaseMapped).
+const releaseEvery = 30 * time.Second
+
 // fillPercent for append-mostly buckets: keys arrive in ascending order, so
 // split pages can be filled almost full (bbolt's default 0.5 would leave
 // every leaf half empty).
@@ -53,8 +57,9 @@ type DB struct {
 	usable   int64 // largest high-water mark bbolt allows under MaxSizeMB
 	pageSize int64
 
-	wmu sync.Mutex // serialises writes; owns buf
-	buf []byte
+	wmu         sync.Mutex // serialises writes (and so bbolt's remaps); owns buf and lastRelease
+	lastRelease time.Time  // last releaseMapped
+	buf         []byte
 
 	mu       sync.Mutex // guards the fields below
 	closed   bool
