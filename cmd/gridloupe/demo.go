@@ -69,6 +69,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	dur := fs.Duration("duration", 60*time.Second, "how long to run (wall time)")
 	speed := fs.Float64("speed", 30, "time acceleration of the simulator (30 = half an hour per minute)")
 	dir := fs.String("dir", "", "folder for the store (default: a new temporary folder)")
+	stopAfter := fs.Duration("stop-after", 0, "also stop after this much simulated time (with --speed 0: as fast as the machine allows)")
 	verbose := fs.Bool("v", false, "log the gateway's info messages on stderr")
 	fs.Usage = func() {
 		fmt.Fprint(fs.Output(), demoHelp)
@@ -77,8 +78,8 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if err := parseFlags(fs, args, stdout); err != nil {
 		return err
 	}
-	if *dur <= 0 || *speed <= 0 || fs.NArg() != 0 {
-		return usagef("demo: --duration and --speed must be positive; no arguments")
+	if *dur <= 0 || *speed < 0 || *stopAfter < 0 || (*speed == 0 && *stopAfter == 0) || fs.NArg() != 0 {
+		return usagef("demo: --duration must be positive, --speed positive (or 0 with --stop-after); no arguments")
 	}
 	if *dir == "" {
 		d, err := os.MkdirTemp("", "gridloupe-demo-")
@@ -94,7 +95,11 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 		return fmt.Errorf("demo config: %w", err)
 	}
 
-	fmt.Fprintln(stdout, "gridloupe demo: North Weir pumping station, cabinet DC-2 (invented site), simulated at", *speed, "x real time")
+	pace := fmt.Sprintf("simulated at %g× real time", *speed)
+	if *speed == 0 {
+		pace = "simulated as fast as this machine allows"
+	}
+	fmt.Fprintln(stdout, "gridloupe demo: North Weir pumping station, cabinet DC-2 (invented site),", pace)
 	fmt.Fprintln(stdout, "CAUTION: a demo on simulated data. On a real cabinet, installation is work for qualified personnel under local")
 	fmt.Fprintln(stdout, "electrical codes, with rated sensors (CAT III or better); never open-circuit a loaded CT secondary; gridloupe is")
 	fmt.Fprintln(stdout, "not a protective device.")
@@ -111,7 +116,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	}
 	start := time.Now()
 	err = runDaemon(runCtx, cfg, daemonOptions{logFormat: "text", logLevel: lvl, stdout: stdout,
-		brokerAddr: "127.0.0.1:0",
+		brokerAddr: "127.0.0.1:0", stopAfter: *stopAfter,
 		simTweak: func(sc *sim.Config) {
 			// wear and recovery of the input reactor over 20 simulated minutes
 			sc.Filter = sim.FilterProfile{Period: 20 * time.Minute, Worst: 0.3}
