@@ -104,8 +104,8 @@ type Pipeline struct {
 	fUsed    float64 // frequency the current window was cut for
 	fPrev    float64 // measured frequency of the previous window, NaN if none
 	prevOK   bool    // the previous window's frequency is trusted for prediction
-	tenEnd   uint64 // sample index where the current 10 s interval ends
-	leftover int    // samples of an unfinished window at EOF
+	tenEnd   uint64  // sample index where the current 10 s interval ends
+	leftover int     // samples of an unfinished window at EOF
 	windows  uint64
 }
 
