@@ -351,7 +351,7 @@ func TestDemoRaisesAndClears(t *testing.T) {
 	if r.code != 0 {
 		t.Fatalf("demo: exit %d\n%s", r.code, r.stderr)
 	}
-	for _, want := range []string{"CAUTION", "RAISED  reactor-wear", "CLEARED reactor-wear", "summary", "tdd_h50%", "freq_hz",
+	for _, want := range []string{"CAUTION", "RAISED  reactor-wear", "CLEARED reactor-wear", "summary", "tdd_h50_pct(I)", "freq_hz",
 		filepath.Join(dir, "gridloupe.db")} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("demo output lacks %q", want)

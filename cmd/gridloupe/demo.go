@@ -180,9 +180,9 @@ type liveTable struct {
 }
 
 func (t *liveTable) header() {
-	fmt.Fprintf(t.w, "%-19s %-5s %-5s %7s %7s %8s %8s %8s %6s %7s  %s\n", "start", "intvl", "phase",
-		"rms(V)", "rms(I)", "thd_h50%", "thd_h50%", "tdd_h50%", "pf", "freq_hz", "active alarms")
-	fmt.Fprintf(t.w, "%-19s %-5s %-5s %7s %7s %8s %8s %8s %6s %7s\n", "", "", "", "", "", "(V)", "(I)", "(I)", "", "")
+	// the record's own key names; (V) and (I) say which channel of the phase
+	fmt.Fprintf(t.w, "%-19s %-8s %-5s %8s %8s %15s %15s %15s %6s %8s  %s\n", "start", "interval", "phase",
+		"rms(V)", "rms(I)", "thd_h50_pct(V)", "thd_h50_pct(I)", "tdd_h50_pct(I)", "pf", "freq_hz", "active alarms")
 }
 
 func (t *liveTable) record(r *metrics.Record, active []string) {
@@ -212,7 +212,7 @@ func (t *liveTable) record(r *metrics.Record, active []string) {
 		if k < len(r.Phases) {
 			pf = r.Phases[k].PF
 		}
-		fmt.Fprintf(t.w, "%-19s %-5s %-5c %7s %7s %8s %8s %8s %6s %7s  %s\n", st, iv, pr.Phase,
+		fmt.Fprintf(t.w, "%-19s %-8s %-5c %8s %8s %15s %15s %15s %6s %8s  %s\n", st, iv, pr.Phase,
 			num(v.RMS, 1), num(i.RMS, 1), num(v.THDH50Pct, 2), num(i.THDH50Pct, 2), num(i.TDDH50Pct, 2), num(pf, 3), fq, al)
 		t.rows++
 	}
