@@ -36,8 +36,9 @@ Runs the gateway until SIGINT or SIGTERM: reads the configured source
 3 s, 10 min and 2 h aggregates in the bbolt store (store.path), raises and
 clears the configured alarms, and publishes status, telemetry and alarms over
 MQTT through the store's outbox (mqtt.broker; "embedded" starts a broker in
-the process on loopback). Exit status: 0 after a signal, 1 when the source
-ends or fails or the store cannot be opened, 2 for config errors.
+the process on loopback). Exit status: 0 after a signal (and when a csv or
+wav source reaches its end), 1 when the simulator stops, a source fails or
+the store cannot be opened, 2 for config errors.
 
 Flags:
 `
