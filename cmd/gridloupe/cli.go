@@ -49,6 +49,7 @@ Commands:
   run       run the gateway unattended (source, store, alarms, MQTT) until
             SIGINT or SIGTERM
   export    print stored 3 s, 10 min or 2 h aggregates (CSV or JSON Lines)
+  evaluate  judge a stored week against the IEEE 519-2014 harmonic limits
   replay    analyse a recorded waveform file (CSV or WAV) and print one record
             per window or aggregation interval
   simulate  write a recording of the built-in drive-cabinet simulator (CSV)
@@ -86,13 +87,15 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 		err = cmdDemo(ctx, rest, stdout, stderr)
 	case "export":
 		err = cmdExport(rest, stdout, stderr)
+	case "evaluate":
+		err = cmdEvaluate(rest, stdout, stderr)
 	case "simulate":
 		err = cmdSimulate(ctx, rest, stdout, stderr)
 	case "version", "--version", "-version":
 		err = cmdVersion(rest, stdout)
 	default:
 		fmt.Fprint(stderr, rootHelp)
-		return usagef("unknown command %q (commands: demo, run, export, replay, simulate, config, version)", cmd)
+		return usagef("unknown command %q (commands: demo, run, export, evaluate, replay, simulate, config, version)", cmd)
 	}
 	if errors.Is(err, errHelp) {
 		return nil

@@ -1,0 +1,413 @@
+package main
+
+import (
+	"bufio"
+	"encoding/json"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"math"
+	"time"
+
+	"github.com/gridloupe/gridloupe/config"
+	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/compliance"
+	"github.com/gridloupe/gridloupe/store"
+)
+
+const evaluateHelp = `Usage: gridloupe evaluate --config FILE [--store DB] [flags]
+
+Evaluates one week (7 × 24 h, UTC) of stored 3 s and 10 min values against
+the harmonic limits of IEEE 519-2014 clause 5 and prints a report: for each
+voltage channel THD and harmonics 2..50 (daily 99th percentile of the 3 s
+values below 1.5 × Table 1, weekly 95th percentile of the 10 min values
+below 1.0 × Table 1), for each phase current (with il_a set) TDD and
+harmonics 3..50 (daily p99 of 3 s below 2.0 ×, weekly p99 of 10 min below
+1.5 ×, weekly p95 of 10 min below 1.0 × Table 2, row chosen by isc_a/il_a).
+Values flagged event or no_lock are excluded; a day or week with less than
+90 % of its expected values is incomplete, never passed.
+
+The week starts at --from, by default at the midnight (UTC) that lies
+7 days before the midnight at or before the end of the newest stored 10 min
+value: the last 7 whole days. The store is opened read-only: stop a running
+'gridloupe run' first, or copy the file and evaluate the copy.
+
+Exit status: 0 when the report is printed, whatever the verdict; 2 for
+usage and config errors; 1 for store errors.
+
+Flags:
+`
+
+// evalHeld is the advice printed when the daemon holds the store.
+const evalHeld = "stop the daemon (gridloupe run) first, or copy the file (e.g. cp) and evaluate the copy"
+
+func cmdEvaluate(args []string, stdout, stderr io.Writer) error {
+	fs := flag.NewFlagSet("evaluate", flag.ContinueOnError)
+	cfgPath := fs.String("config", "", "config `FILE` (YAML) with nominal voltage, wiring, il_a and isc_a; required")
+	dbPath := fs.String("store", "", "bbolt store `FILE` (default: the config's store.path)")
+	fromStr := fs.String("from", "", "start of the week, RFC 3339 (default: the last 7 whole UTC days of stored 10 min values)")
+	format := fs.String("format", "table", "output format: table (for people) or jsonl (every line, unrounded)")
+	all := fs.Bool("all", false, "table: print every line, not only THD/TDD, the highest harmonic and failures")
+	timeout := fs.Duration("timeout", 2*time.Second, "how long to wait for the store's file lock")
+	fs.Usage = func() {
+		fmt.Fprint(fs.Output(), evaluateHelp)
+		fs.PrintDefaults()
+	}
+	if err := parseFlags(fs, args, stdout); err != nil {
+		return err
+	}
+	if *cfgPath == "" || fs.NArg() != 0 {
+		return usagef("evaluate: --config FILE is required and takes no arguments")
+	}
+	if *format != "table" && *format != "jsonl" {
+		return usagef("evaluate: --format %q: allowed are table, jsonl", *format)
+	}
+	var from time.Time
+	if *fromStr != "" {
+		t, err := time.Parse(time.RFC3339Nano, *fromStr)
+		if err != nil {
+			return usagef("evaluate: --from %q is not RFC 3339 (e.g. 2026-03-02T00:00:00Z)", *fromStr)
+		}
+		from = t.UTC()
+	}
+	if *timeout <= 0 {
+		return usagef("evaluate: --timeout %v: must be positive", *timeout)
+	}
+	cfg, err := config.Load(*cfgPath)
+	if err != nil {
+		return &usageError{err}
+	}
+	path := *dbPath
+	if path == "" {
+		path = cfg.Store.Path
+	}
+	if path == "" {
+		return usagef("evaluate: no --store given and %s has no store.path", cfg.Path)
+	}
+	db, err := store.OpenReadOnly(path, *timeout)
+	if errors.Is(err, store.ErrLocked) {
+		return fmt.Errorf("evaluate: %w; %s", err, evalHeld)
+	}
+	if err != nil {
+		return fmt.Errorf("evaluate: %w", err)
+	}
+	defer db.Close()
+	res, err := evaluateStore(db, cfg, from)
+	if err != nil {
+		return err
+	}
+	out := bufio.NewWriterSize(stdout, 64<<10)
+	if *format == "jsonl" {
+		err = writeEvalJSONL(out, cfg, path, res)
+	} else {
+		writeEvalTable(out, cfg, path, res, *all)
+	}
+	if ferr := out.Flush(); err == nil {
+		err = ferr
+	}
+	return err
+}
+
+// evaluateStore runs the evaluation over the store's week from from (zero:
+// the default week).
+func evaluateStore(db *store.DB, cfg *config.Config, from time.Time) (*compliance.Result, error) {
+	setup, err := db.Layout()
+	if errors.Is(err, store.ErrNoLayout) {
+		return nil, fmt.Errorf("evaluate: the store holds no records yet: %w", err)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("evaluate: %w", err)
+	}
+	if from.IsZero() {
+		last, err := db.Last(metrics.Int10min, 1)
+		if err != nil {
+			return nil, fmt.Errorf("evaluate: %w", err)
+		}
+		if len(last) == 0 {
+			return nil, errors.New("evaluate: the store holds no 10 min values; give --from to evaluate a week anyway")
+		}
+		from = defaultWeekStart(last[0].Start)
+	}
+	busV := cfg.Nominal.VoltageV
+	if cfg.Wiring != config.WiringSinglePhase {
+		busV *= math.Sqrt(3) // wye: the table row goes by the line-to-line bus voltage
+	}
+	ev, err := compliance.New(compliance.Config{
+		Setup: setup, NominalV: cfg.Nominal.VoltageV, BusV: busV,
+		IL: cfg.ILA, Isc: cfg.IscA, Start: from,
+	})
+	if err != nil {
+		return nil, &usageError{fmt.Errorf("evaluate: %s: %w", cfg.Path, err)}
+	}
+	end := from.Add(compliance.Days * 24 * time.Hour)
+	for _, iv := range []metrics.Interval{metrics.Int3s, metrics.Int10min} {
+		if err := db.Query(iv, from, end, ev.Add); err != nil {
+			return nil, fmt.Errorf("evaluate: %s values: %w", iv, err)
+		}
+	}
+	return ev.Result(), nil
+}
+
+// defaultWeekStart returns the start of the last 7 whole UTC days that end
+// at or before the end of the newest 10 min value starting at newest.
+func defaultWeekStart(newest time.Time) time.Time {
+	end := newest.UTC().Add(10 * time.Minute).Truncate(24 * time.Hour)
+	return end.Add(-compliance.Days * 24 * time.Hour)
+}
+
+// evalCautions open every human-readable evaluation report.
+var evalCautions = []string{
+	"Connecting sensors to live conductors can kill: installation and removal are work for qualified personnel only.",
+	"Use rated voltage sensors and CTs of the right measurement category (CAT III or better in a drive cabinet).",
+	"Never open-circuit the secondary of a loaded CT: short it first.",
+	"gridloupe is a monitor, not a protective device.",
+	"Follow local electrical codes and site rules.",
+}
+
+const dayFmt = "2006-01-02"
+
+func pctStr(v float64) string {
+	if math.IsNaN(v) {
+		return "-"
+	}
+	return fmt.Sprintf("%.2f", v)
+}
+
+func writeEvalTable(w io.Writer, cfg *config.Config, path string, res *compliance.Result, all bool) {
+	fmt.Fprintf(w, "WEEKLY HARMONIC EVALUATION  %s\n", cfg.Site)
+	fmt.Fprintf(w, "week %s to %s (UTC), store %s\n\n", res.Start.Format(time.RFC3339), res.End.Format(time.RFC3339), path)
+	fmt.Fprintln(w, "SAFETY")
+	for _, c := range evalCautions {
+		fmt.Fprintf(w, "  * %s\n", c)
+	}
+	fmt.Fprintf(w, "\n%s\n\n", res.Notes[0])
+
+	fmt.Fprintln(w, "BASIS")
+	fmt.Fprintf(w, "  standard   %s, clause 5 statistics\n", res.Edition)
+	fmt.Fprintf(w, "  voltage    bus %.0f V (%s, %g V nominal): Table 1 %.1f %% individual, %.1f %% THD\n",
+		res.BusV, cfg.Wiring, res.NominalV, res.VIndivLimit, res.VTHDLimit)
+	if res.IL > 0 {
+		ratio := "unknown (isc_a not set)"
+		if !math.IsNaN(res.Ratio) {
+			ratio = fmt.Sprintf("%g A / %g A = %.1f", res.Isc, res.IL, res.Ratio)
+		}
+		fmt.Fprintf(w, "  current    ISC/IL %s: Table 2 row %s, TDD %.1f %%\n", ratio, res.Row, res.TDDLimit)
+	} else {
+		fmt.Fprintln(w, "  current    not evaluated (il_a not set)")
+	}
+	fmt.Fprintln(w, "  bases      voltage THD: % of fundamental; voltage harmonics: % of nominal voltage; TDD and current harmonics: % of IL")
+
+	fmt.Fprintf(w, "\nCOVERAGE  (a day or the week needs %.0f %% of its expected values)\n", 100*res.MinCoverage)
+	fmt.Fprintf(w, "  %-12s %8s %8s %7s %8s %9s  %s\n", "period", "used", "expected", "event", "no_lock", "coverage", "state")
+	state := func(complete, overfull bool) string {
+		switch {
+		case overfull:
+			return "incomplete (overlapping records)"
+		case complete:
+			return "complete"
+		}
+		return "incomplete"
+	}
+	for _, d := range res.Days {
+		fmt.Fprintf(w, "  %-12s %8d %8d %7d %8d %8.1f%%  %s\n", d.Start.Format(dayFmt)+" 3s", d.Used, d.Expected,
+			d.Event, d.NoLock, 100*d.Coverage, state(d.Complete, d.Overfull))
+	}
+	wk := res.Week
+	fmt.Fprintf(w, "  %-12s %8d %8d %7d %8d %8.1f%%  %s\n", "week 10min", wk.Used, wk.Expected, wk.Event, wk.NoLock,
+		100*wk.Coverage, state(wk.Complete, wk.Overfull))
+
+	fmt.Fprintln(w, "\nRESULTS  (percent; each value must stay below limit × multiplier)")
+	fmt.Fprintf(w, "  %-8s %-8s %-17s %8s %7s %5s %9s  %-10s %-10s %s\n",
+		"channel", "quantity", "statistic", "value", "limit", "mult", "threshold", "worst day", "verdict", "coverage")
+	shown := evalShown(res.Lines, all)
+	for i, l := range res.Lines {
+		if !shown[i] {
+			continue
+		}
+		day := ""
+		if l.WorstDay >= 0 {
+			day = res.Days[l.WorstDay].Start.Format(dayFmt)
+		}
+		fmt.Fprintf(w, "  %-8s %-8s %-17s %8s %7.3g %5.1f %9.3g  %-10s %-10s %5.1f%%\n",
+			l.Channel, l.Quantity, l.Statistic, pctStr(l.Value), l.Limit, l.Multiplier, l.Threshold,
+			day, l.Verdict, 100*l.Coverage)
+	}
+	var hidPass, hidInc int
+	for i, l := range res.Lines {
+		switch {
+		case shown[i]:
+		case l.Verdict == compliance.Pass:
+			hidPass++
+		default:
+			hidInc++
+		}
+	}
+	if hidPass+hidInc > 0 {
+		fmt.Fprintf(w, "  (%d more harmonic lines not shown: %d pass, %d incomplete, none failed; --all or --format jsonl lists them)\n",
+			hidPass+hidInc, hidPass, hidInc)
+	}
+	pass, fail, inc := res.Counts()
+
+	fmt.Fprintln(w, "\nNOTES")
+	for _, n := range res.Notes[1:] {
+		fmt.Fprintf(w, "  * %s\n", n)
+	}
+	fmt.Fprintf(w, "\nVERDICT  %s  (%d lines: %d pass, %d fail, %d incomplete)\n",
+		verdictWord(res.Verdict), len(res.Lines), pass, fail, inc)
+}
+
+func verdictWord(v compliance.Verdict) string {
+	switch v {
+	case compliance.Pass:
+		return "PASS: every statistic below its threshold"
+	case compliance.Fail:
+		return "FAIL: at least one statistic at or above its threshold"
+	}
+	return "INCOMPLETE: too little data to pass"
+}
+
+// evalShown picks the lines the table prints: all of them with all; else
+// every thd_h50/tdd_h50 line, every failed line, and per channel and
+// statistic the harmonic line closest to its threshold.
+func evalShown(lines []compliance.Line, all bool) []bool {
+	shown := make([]bool, len(lines))
+	type key struct {
+		ch string
+		st compliance.Statistic
+	}
+	best := map[key]int{}
+	for i, l := range lines {
+		switch {
+		case all, l.Order == 0, l.Verdict == compliance.Fail:
+			shown[i] = true
+			continue
+		}
+		k := key{l.Channel, l.Statistic}
+		j, ok := best[k]
+		if !ok || lines[j].Value/lines[j].Threshold < l.Value/l.Threshold || math.IsNaN(lines[j].Value) {
+			best[k] = i
+		}
+	}
+	for _, i := range best {
+		shown[i] = true
+	}
+	return shown
+}
+
+// jsonNum is a float64 that encodes NaN as null.
+type jsonNum float64
+
+func (n jsonNum) MarshalJSON() ([]byte, error) {
+	if math.IsNaN(float64(n)) || math.IsInf(float64(n), 0) {
+		return []byte("null"), nil
+	}
+	return json.Marshal(float64(n))
+}
+
+func writeEvalJSONL(w io.Writer, cfg *config.Config, path string, res *compliance.Result) error {
+	enc := json.NewEncoder(w)
+	type header struct {
+		Type        string   `json:"type"`
+		Site        string   `json:"site"`
+		Store       string   `json:"store"`
+		Edition     string   `json:"edition"`
+		Start       string   `json:"start"`
+		End         string   `json:"end"`
+		NominalV    float64  `json:"nominal_v"`
+		BusV        float64  `json:"bus_v"`
+		T1IndivPct  float64  `json:"table1_individual_pct"`
+		T1THDPct    float64  `json:"table1_thd_pct"`
+		ILA         float64  `json:"il_a"`
+		IscA        float64  `json:"isc_a"`
+		Ratio       jsonNum  `json:"isc_il"`
+		Row         string   `json:"table2_row,omitempty"`
+		TDDPct      float64  `json:"table2_tdd_pct,omitempty"`
+		MinCoverage float64  `json:"min_coverage"`
+		Safety      []string `json:"safety"`
+		Notes       []string `json:"notes"`
+	}
+	type period struct {
+		Type     string  `json:"type"`
+		Start    string  `json:"start"`
+		Expected int     `json:"expected"`
+		Records  int     `json:"records"`
+		Event    int     `json:"event"`
+		NoLock   int     `json:"no_lock"`
+		Used     int     `json:"used"`
+		Coverage float64 `json:"coverage"`
+		Overfull bool    `json:"overfull"`
+		Complete bool    `json:"complete"`
+	}
+	type line struct {
+		Type       string    `json:"type"`
+		Channel    string    `json:"channel"`
+		Kind       string    `json:"kind"`
+		Quantity   string    `json:"quantity"`
+		Order      int       `json:"h,omitempty"`
+		Basis      string    `json:"basis"`
+		Statistic  string    `json:"statistic"`
+		Value      jsonNum   `json:"value_pct"`
+		WorstDay   *string   `json:"worst_day,omitempty"`
+		Daily      []jsonNum `json:"daily_pct,omitempty"`
+		Limit      float64   `json:"limit_pct"`
+		Multiplier float64   `json:"multiplier"`
+		Threshold  float64   `json:"threshold_pct"`
+		Coverage   float64   `json:"coverage"`
+		Values     int       `json:"values"`
+		Nulls      int       `json:"nulls"`
+		Verdict    string    `json:"verdict"`
+	}
+	h := header{Type: "evaluation", Site: cfg.Site, Store: path, Edition: res.Edition,
+		Start: res.Start.Format(time.RFC3339), End: res.End.Format(time.RFC3339),
+		NominalV: res.NominalV, BusV: res.BusV, T1IndivPct: res.VIndivLimit, T1THDPct: res.VTHDLimit,
+		ILA: res.IL, IscA: res.Isc, Ratio: jsonNum(res.Ratio), MinCoverage: res.MinCoverage,
+		Safety: evalCautions, Notes: res.Notes}
+	if res.IL > 0 {
+		h.Row, h.TDDPct = res.Row, res.TDDLimit
+	}
+	if err := enc.Encode(h); err != nil {
+		return fmt.Errorf("evaluate: %w", err)
+	}
+	for _, d := range res.Days {
+		p := period{"day_3s", d.Start.Format(time.RFC3339), d.Expected, d.Records, d.Event, d.NoLock, d.Used, d.Coverage, d.Overfull, d.Complete}
+		if err := enc.Encode(p); err != nil {
+			return fmt.Errorf("evaluate: %w", err)
+		}
+	}
+	wk := res.Week
+	if err := enc.Encode(period{"week_10min", res.Start.Format(time.RFC3339), wk.Expected, wk.Records, wk.Event, wk.NoLock, wk.Used, wk.Coverage, wk.Overfull, wk.Complete}); err != nil {
+		return fmt.Errorf("evaluate: %w", err)
+	}
+	for _, l := range res.Lines {
+		o := line{Type: "line", Channel: l.Channel, Kind: l.Kind.String(), Quantity: l.Quantity, Order: l.Order,
+			Basis: l.Basis, Statistic: l.Statistic.String(), Value: jsonNum(l.Value), Limit: l.Limit,
+			Multiplier: l.Multiplier, Threshold: l.Threshold, Coverage: l.Coverage, Values: l.Values,
+			Nulls: l.Nulls, Verdict: l.Verdict.String()}
+		if l.Statistic == compliance.DailyP99 {
+			if l.WorstDay >= 0 {
+				s := res.Days[l.WorstDay].Start.Format(dayFmt)
+				o.WorstDay = &s
+			}
+			o.Daily = make([]jsonNum, len(l.Daily))
+			for i, v := range l.Daily {
+				o.Daily[i] = jsonNum(v)
+			}
+		}
+		if err := enc.Encode(o); err != nil {
+			return fmt.Errorf("evaluate: %w", err)
+		}
+	}
+	pass, fail, inc := res.Counts()
+	v := struct {
+		Type       string `json:"type"`
+		Verdict    string `json:"verdict"`
+		Pass       int    `json:"pass"`
+		Fail       int    `json:"fail"`
+		Incomplete int    `json:"incomplete"`
+	}{"verdict", res.Verdict.String(), pass, fail, inc}
+	if err := enc.Encode(v); err != nil {
+		return fmt.Errorf("evaluate: %w", err)
+	}
+	return nil
+}
