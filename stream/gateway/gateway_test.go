@@ -253,3 +253,35 @@ func TestTwoHourFromTenMinute(t *testing.T) {
 		t.Errorf("2 h samples %d, want the sum of twelve 10 min records", got[0].Samples)
 	}
 }
+
+// TestTwoHourAfterRestart: a restart mid-interval leaves two partial 10 min
+// values in one slot; the 2 h value still closes at the interval's last
+// slot (not at the twelfth record) and is flagged partial.
+func TestTwoHourAfterRestart(t *testing.T) {
+	r := newRig(t, filepath.Join(t.TempDir(), "g.db"), 1)
+	g := r.gateway(t, nil, nil, nil)
+	var got []*metrics.Record
+	g.cfg.OnRecord = func(rec *metrics.Record, _ []string) {
+		if rec.Interval == metrics.Int2h {
+			got = append(got, rec.Clone())
+		}
+	}
+	base := time.Date(2026, 3, 1, 4, 0, 0, 0, time.UTC)
+	for i := range 12 {
+		starts := []time.Duration{time.Duration(i) * 10 * time.Minute}
+		if i == 4 { // the restart: the slot holds two partial values
+			starts = append(starts, time.Duration(i)*10*time.Minute+4*time.Minute)
+		}
+		for _, s := range starts {
+			rec := metrics.NewRecord(r.setup)
+			rec.Interval, rec.Start, rec.DurationS, rec.Samples = metrics.Int10min, base.Add(s), 300, 1920000
+			g.handle(rec)
+		}
+	}
+	if len(got) != 1 {
+		t.Fatalf("%d 2 h records, want 1 closed by the last slot (common practice, no source)", len(got))
+	}
+	if got[0].Flags&metrics.FlagPartial == 0 {
+		t.Errorf("2 h record with a restart inside is not flagged partial")
+	}
+}

@@ -44,18 +44,24 @@ func (g *Gateway) add2h(r *metrics.Record) {
 	}
 	g.a2h.Add(r)
 	g.n2h++
-	if g.n2h == per2h {
+	// The 10 min value in the interval's last slot closes it. (Counting to
+	// twelve would close too early after a restart mid-interval, when the
+	// slot cut by the restart holds two partial 10 min values.)
+	end := time.Unix(0, (tick+1)*int64(twoHours))
+	if !r.Start.Add(10 * time.Minute).Before(end) {
 		g.close2h(false)
 	}
 }
 
-// close2h emits the open 2 h value; atEnd marks the end of the run.
+// close2h emits the open 2 h value, flagged partial unless it holds twelve
+// 10 min values of an interval seen from its start. At the end of a run the
+// open interval is not emitted: the next run reseeds it from the store.
 func (g *Gateway) close2h(atEnd bool) {
 	if g.n2h == 0 {
 		return
 	}
 	full := g.full2h && g.n2h == per2h
-	if atEnd && g.n2h < per2h {
+	if atEnd {
 		// keep it open: the next run reseeds it from the store
 		g.a2h.Reset()
 		g.n2h = 0
