@@ -435,7 +435,9 @@ func (a *Aggregator) total(g *agg, out *Record) {
 	if s.Wiring == Wye && len(out.Phases) == 3 {
 		t.Se = keep(3 * t.Ve * t.Ie)
 		t.Se1 = keep(ta.se1.mean())
-		if ta.p1p.n > 0 && ta.q1p.n > 0 {
+		// all-or-nothing: P1⁺ and Q1⁺ from only some inputs (records
+		// stored before they were kept) would weight those few alone
+		if ta.p1p.n > 0 && ta.p1p.n == ta.dpf.n && ta.q1p.n == ta.dpf.n {
 			t.DPF = dpfOf(g, t.P1Pos, t.Q1Pos, fs)
 		} else {
 			t.DPF = keep(ta.dpf.mean())

@@ -8,8 +8,10 @@ import (
 	"github.com/gridloupe/gridloupe/metrics"
 )
 
-// recordVersion is the leading byte of every stored record.
-const recordVersion = 1
+// recordVersion is the leading byte of every stored record. Version 2 adds
+// the total's positive-sequence P1⁺ and Q1⁺ (which the 2 h aggregation
+// needs for dpf); version 1 records decode them as null.
+const recordVersion = 2
 
 // RecordBudget8Ch50 is the byte budget of one stored record with 8 channels,
 // all 50 orders, three phases and both sequence sets (see the package doc).
@@ -120,7 +122,7 @@ func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) (
 	}
 	if len(r.Phases) > 0 {
 		t := &r.Total
-		for _, v := range [...]float64{t.P, t.Q1, t.S, t.Se, t.Se1, t.Ve, t.Ie, t.PF, t.DPF} {
+		for _, v := range [...]float64{t.P, t.Q1, t.S, t.Se, t.Se1, t.Ve, t.Ie, t.PF, t.DPF, t.P1Pos, t.Q1Pos} {
 			b = appendF32(b, v)
 		}
 	}
@@ -208,7 +210,7 @@ func recordLayoutID(b []byte) (uint16, error) {
 	if len(b) < 3 {
 		return 0, fmt.Errorf("record of %d bytes: %w", len(b), ErrCorrupt)
 	}
-	if b[0] != recordVersion {
+	if b[0] != recordVersion && b[0] != 1 {
 		return 0, fmt.Errorf("record version %d: %w", b[0], ErrCorrupt)
 	}
 	return be.Uint16(b[1:3]), nil
@@ -271,6 +273,10 @@ func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Rec
 		t := &r.Total
 		t.P, t.Q1, t.S, t.Se, t.Se1 = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
 		t.Ve, t.Ie, t.PF, t.DPF = rd.f32(), rd.f32(), rd.f32(), rd.f32()
+		t.P1Pos, t.Q1Pos = nan(), nan()
+		if b[0] >= 2 {
+			t.P1Pos, t.Q1Pos = rd.f32(), rd.f32()
+		}
 	}
 	for k, dst := range [2]*[]metrics.Seq{&r.SeqV, &r.SeqI} {
 		if pres&(hasSeqV<<k) == 0 || rd.err != nil {

@@ -49,7 +49,7 @@ func TestRecordRoundTrip(t *testing.T) {
 	}
 }
 
-// recordSize is the closed form of the version-1 format in doc.go.
+// recordSize is the closed form of the version-2 format in doc.go.
 func recordSize(nch, nord, nph int, freq10s, seqV, seqI bool) int {
 	n := 1 + 2 + 8 + 8 + 3 /* uvarint(30720) */ + 2 + 1 + 4
 	if freq10s {
@@ -59,7 +59,7 @@ func recordSize(nch, nord, nph int, freq10s, seqV, seqI bool) int {
 	n++
 	n += nph * (1 + 11*4)
 	if nph > 0 {
-		n += 9 * 4
+		n += 11 * 4
 	}
 	for _, b := range []bool{seqV, seqI} {
 		if b {

@@ -20,7 +20,7 @@
 // class keyed by the 8-byte big-endian message sequence number; Pending
 // merges them in sequence order.
 //
-// # Record encoding (version 1)
+// # Record encoding (version 2)
 //
 // A record is: version byte, layout id (uint16), start UnixNano (int64),
 // duration in seconds (float64), samples (uvarint), flags (uint16), a
@@ -29,7 +29,8 @@
 // thd_h50, tdd, tdd_h50 (float32) and per configured order the rms
 // (float32) and phase (int16 centi-degrees, −32768 = null); the phase count
 // and per phase its letter and P, P1, Q1, S, S1, SN, DI, DV, SH, PF, DPF
-// (float32); the totals (9 × float32) when there are phases; the sequence
+// (float32); the totals (9 × float32, then P1⁺ and Q1⁺; version 1 lacks
+// these two) when there are phases; the sequence
 // components per order (3 × float32) for voltage and current when present;
 // the two unbalance values (float32). Undefined magnitudes are float32 NaN.
 // pct and pct_il are not stored: decode recomputes them from the rms values
@@ -37,8 +38,8 @@
 //
 // Byte budget: with 8 channels (va, vb, vc, ia, ib, ic, in and one more
 // current), all 50 orders, three phases and both sequence sets a record is
-// 4,013 bytes with the 10 s frequency (RecordBudget8Ch50 = 4,096 is the asserted ceiling); with the
-// 17 orders of a typical 3 s configuration it is 1,637 bytes. Float32
+// 4,021 bytes with the 10 s frequency (RecordBudget8Ch50 = 4,096 is the asserted ceiling); with the
+// 17 orders of a typical 3 s configuration it is 1,645 bytes. Float32
 // keeps about 7 significant digits (relative 6e-8); phases are rounded to
 // 0.01°.
 //

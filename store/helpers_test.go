@@ -128,7 +128,7 @@ func fillRecord(r *metrics.Record, s *metrics.Setup, rng *rand.Rand, start time.
 			S1: val(), SN: val(), DI: val(), DV: val(), SH: val(), PF: val(), DPF: val()})
 	}
 	if len(r.Phases) > 0 {
-		r.Total = metrics.TotalValues{P: val(), Q1: val(), S: val(), Se: val(), Se1: val(), Ve: val(), Ie: val(), PF: val(), DPF: val()}
+		r.Total = metrics.TotalValues{P: val(), Q1: val(), S: val(), Se: val(), Se1: val(), Ve: val(), Ie: val(), PF: val(), DPF: val(), P1Pos: val(), Q1Pos: val()}
 	}
 	r.SeqV, r.SeqI = nil, nil
 	if withSeq {
@@ -265,8 +265,8 @@ func compareRecords(tb testing.TB, want, got *metrics.Record) {
 	}
 	if len(want.Phases) > 0 {
 		w, g := want.Total, got.Total
-		wv := []float64{w.P, w.Q1, w.S, w.Se, w.Se1, w.Ve, w.Ie, w.PF, w.DPF}
-		gv := []float64{g.P, g.Q1, g.S, g.Se, g.Se1, g.Ve, g.Ie, g.PF, g.DPF}
+		wv := []float64{w.P, w.Q1, w.S, w.Se, w.Se1, w.Ve, w.Ie, w.PF, w.DPF, w.P1Pos, w.Q1Pos}
+		gv := []float64{g.P, g.Q1, g.S, g.Se, g.Se1, g.Ve, g.Ie, g.PF, g.DPF, g.P1Pos, g.Q1Pos}
 		for k := range wv {
 			f("total value", wv[k], gv[k])
 		}
