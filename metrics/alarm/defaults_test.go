@@ -140,12 +140,13 @@ func TestDefaultRulesNorthWeirRun(t *testing.T) {
 			at = append(at, k)
 		}
 	}
-	// First record meeting the condition ends 10:10; 20 min later is the
-	// record ending 10:30, index 2 (DESIGN.md example on_delay 20m, closed form).
-	if len(trs) != 1 || trs[0].Rule != "current-distortion-ia" || !slices.Equal(at, []int{2}) {
-		t.Fatalf("transitions %+v at %v; want current-distortion-ia at record 2", trs, at)
+	// The condition holds from 10:00 (start of the first record); 20 min
+	// later is the end of record 1, 10:20 (DESIGN.md example on_delay 20m,
+	// closed form).
+	if len(trs) != 1 || trs[0].Rule != "current-distortion-ia" || !slices.Equal(at, []int{1}) {
+		t.Fatalf("transitions %+v at %v; want current-distortion-ia at record 1", trs, at)
 	}
-	if !trs[0].Time.Equal(t0.Add(30 * time.Minute)) {
-		t.Errorf("raised at %v; want 10:30", trs[0].Time)
+	if !trs[0].Time.Equal(t0.Add(20 * time.Minute)) {
+		t.Errorf("raised at %v; want 10:20", trs[0].Time)
 	}
 }

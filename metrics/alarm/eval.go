@@ -39,8 +39,9 @@ type Transition struct {
 //   - Two states, raised and cleared; every change is a Transition.
 //   - Cleared → raised when the raise condition (value > Threshold for Above
 //     rules, value < Threshold for below rules) has been met by every
-//     evaluated record from one at time t0 to this one, with t − t0 ≥
-//     OnDelay. Raised → cleared likewise with the clear condition (value <
+//     evaluated record from one starting at t0 to this one, with t − t0 ≥
+//     OnDelay: the condition has held for the delay (on_delay 20m over
+//     10 min values raises on the second value that meets it). Raised → cleared likewise with the clear condition (value <
 //     Threshold − Deadband, resp. > Threshold + Deadband) and OffDelay. A
 //     delay of 0 transitions on the first record that meets the condition.
 //   - A valid record that does not meet the condition cancels the pending
@@ -148,8 +149,11 @@ func (e *Evaluator) step(i int, r *metrics.Record, t time.Time) (Transition, boo
 		st.Pending, st.PendingSince = false, time.Time{}
 		return Transition{}, false
 	}
-	if !st.Pending || t.Before(st.PendingSince) {
-		st.Pending, st.PendingSince = true, t
+	// The condition holds from the start of the first record that meets
+	// it, so a delay counts the time it has held: on_delay 20m over 10 min
+	// values raises on the second such value.
+	if !st.Pending || r.Start.Before(st.PendingSince) {
+		st.Pending, st.PendingSince = true, r.Start
 	}
 	if t.Sub(st.PendingSince) < delay {
 		return Transition{}, false

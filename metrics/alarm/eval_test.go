@@ -17,7 +17,7 @@ const valTol = 1e-12
 // Sources of the check values in this file.
 const (
 	srcDesign = "DESIGN.md 'Daemon keys' alarm rules: delays on sample time, null holds, min load quiet"
-	srcClock  = "closed form: record k (from 0) of 200 ms ends at 0.2·(k+1) s; a delay D completes at the first record ending ≥ D after the first record that met the condition"
+	srcClock  = "closed form: record k (from 0) of 200 ms spans 0.2·k to 0.2·(k+1) s; a delay D completes at the first record ending ≥ D after the start of the first record that met the condition (the condition has then held for D)"
 	srcBand   = "DESIGN.md: deadband in metric units; clear only beyond threshold ∓ deadband"
 	src519    = "IEEE 519-2014 Table 2, ISC/IL 20<50: 5th 7 % of IL [confirmed 1992 values; 2014 from memory]"
 	srcNoSrc  = "common practice, no source"
@@ -55,14 +55,14 @@ func TestEvaluateSemantics(t *testing.T) {
 		{
 			name: "on delay 1 s raises at 1 s of sample time, not before",
 			rule: with(tddIA, func(r *Rule) { r.OnDelay = time.Second }),
-			vals: []float64{9, 9, 9, 9, 9, 9, 9}, want: []ev{{5, true}},
-			src: srcClock + ": first ends 0.2 s, record 5 ends 1.2 s",
+			vals: []float64{9, 9, 9, 9, 9, 9, 9}, want: []ev{{4, true}},
+			src: srcClock + ": held from 0 s, record 4 ends 1.0 s",
 		},
 		{
 			name: "a value below threshold restarts the on delay",
 			rule: with(tddIA, func(r *Rule) { r.OnDelay = time.Second }),
-			vals: []float64{9, 9, 9, 9, 7, 9, 9, 9, 9, 9, 9}, want: []ev{{10, true}},
-			src: srcClock + ": restart at record 5 (1.2 s), raise at record 10 (2.2 s)",
+			vals: []float64{9, 9, 9, 9, 7, 9, 9, 9, 9, 9, 9}, want: []ev{{9, true}},
+			src: srcClock + ": restart at record 5 (from 1.0 s), raise at record 9 (ends 2.0 s)",
 		},
 		{
 			name: "deadband: oscillation inside the band does not chatter",
@@ -74,14 +74,14 @@ func TestEvaluateSemantics(t *testing.T) {
 		{
 			name: "off delay 1 s",
 			rule: with(tddIA, func(r *Rule) { r.OffDelay = time.Second }),
-			vals: []float64{9, 7, 7, 7, 7, 7, 7, 7}, want: []ev{{0, true}, {6, false}},
-			src: srcClock + ": clear condition first met at record 1 (0.4 s), cleared at record 6 (1.4 s)",
+			vals: []float64{9, 7, 7, 7, 7, 7, 7, 7}, want: []ev{{0, true}, {5, false}},
+			src: srcClock + ": clear condition held from record 1 (from 0.2 s), cleared at record 5 (ends 1.2 s)",
 		},
 		{
 			name: "off delay: a value inside the band cancels the pending clear",
 			rule: with(tddIA, func(r *Rule) { r.OffDelay = time.Second; r.Deadband = 0.5 }),
-			vals: []float64{9, 7, 7, 7, 7.7, 7, 7, 7, 7, 7, 7}, want: []ev{{0, true}, {10, false}},
-			src: srcBand + "; " + srcClock + ": restart at record 5 (1.2 s), clear at record 10 (2.2 s)",
+			vals: []float64{9, 7, 7, 7, 7.7, 7, 7, 7, 7, 7, 7}, want: []ev{{0, true}, {9, false}},
+			src: srcBand + "; " + srcClock + ": restart at record 5 (from 1.0 s), clear at record 9 (ends 2.0 s)",
 		},
 		{
 			name: "null holds the raised state",
@@ -97,8 +97,8 @@ func TestEvaluateSemantics(t *testing.T) {
 		{
 			name: "null leaves the pending timer untouched",
 			rule: with(tddIA, func(r *Rule) { r.OnDelay = time.Second }),
-			vals: []float64{9, nan, nan, 9, 9, 9}, want: []ev{{5, true}},
-			src: srcDesign + "; " + srcClock + ": timer from record 0 (0.2 s) runs through the nulls, record 5 ends 1.2 s",
+			vals: []float64{9, nan, nan, 9, 9, 9}, want: []ev{{4, true}},
+			src: srcDesign + "; " + srcClock + ": timer from record 0 (0 s) runs through the nulls, record 4 ends 1.0 s",
 		},
 		{
 			name:  "min load: light load neither raises nor clears",
@@ -262,9 +262,9 @@ func TestRestart(t *testing.T) {
 			at = append(at, k+3)
 		}
 	}
-	// srcClock: pending since record 0 (0.2 s) → raised at record 5 (1.2 s).
-	if len(trs) != 1 || trs[0].Rule != "pending" || !slices.Equal(at, []int{5}) {
-		t.Fatalf("after restart: %+v at %v; want only pending at record 5 (%s)", trs, at, srcClock)
+	// srcClock: pending since the start of record 0 (0 s) → raised at record 4 (ends 1.0 s).
+	if len(trs) != 1 || trs[0].Rule != "pending" || !slices.Equal(at, []int{4}) {
+		t.Fatalf("after restart: %+v at %v; want only pending at record 4 (%s)", trs, at, srcClock)
 	}
 	st := b.States()["raised"]
 	if !st.Raised || !st.Since.Equal(t0.Add(200*time.Millisecond)) {
@@ -285,16 +285,17 @@ func TestClockStepBack(t *testing.T) {
 		put(t, s, r, ru, 9)
 	}
 	var trs []Transition
-	trs = e.Evaluate(recs[10], trs) // pending since 2.2 s
-	for _, r := range recs[:5] {    // time steps back: 0.2 .. 1.0 s
+	trs = e.Evaluate(recs[10], trs) // pending since 2.0 s
+	for _, r := range recs[:4] {    // time steps back: records from 0 to 0.8 s
 		trs = e.Evaluate(r, trs)
 	}
-	// Our choice (documented on Evaluator): the timer restarts at 0.2 s, so
-	// 1.0 s is only 0.8 s later: no raise yet; record 5 (1.2 s) raises.
+	// Our choice (documented on Evaluator): the timer restarts at 0 s (the
+	// start of record 0), so record 3, ending 0.8 s, is too early; record 4
+	// (ends 1.0 s) raises.
 	if len(trs) != 0 {
 		t.Fatalf("raised after a backward step: %+v", trs)
 	}
-	if trs = e.Evaluate(recs[5], trs); len(trs) != 1 {
+	if trs = e.Evaluate(recs[4], trs); len(trs) != 1 {
 		t.Fatalf("not raised 1 s after the restart of the timer (%s)", srcClock)
 	}
 }

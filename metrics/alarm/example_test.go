@@ -56,7 +56,7 @@ func ExampleEvaluator_Evaluate() {
 	}
 	fmt.Println("active:", e.Active())
 	// Output:
-	// 10:00:12 low-pf raised=true pf=0.86
+	// 10:00:09 low-pf raised=true pf=0.87
 	// 10:00:18 low-pf raised=false pf=0.93
 	// active: []
 }

@@ -58,7 +58,7 @@ func FuzzEvaluate(f *testing.F) {
 				inRun = false
 			}
 			if meets && !inRun {
-				inRun, condSince = true, end
+				inRun, condSince = true, r.Start
 			}
 			delay := onD
 			if raised {
