@@ -188,11 +188,17 @@ func (db *DB) PutAggregates(recs []*metrics.Record) error {
 	return nil
 }
 
+// queryPage is how many records Query decodes per read transaction: fn
+// runs outside the transaction, so a slow consumer (an export piped into
+// a pager) never holds one open while the writer needs to grow the map.
+const queryPage = 256
+
 // Query calls fn for each record of level iv whose start lies in [from, to),
 // in key order (start time, then sequence). A zero to means no upper bound.
 // fn receives a fresh Record it may keep; an error from fn stops the query
-// and is returned as is. fn runs inside a read transaction, so it should not
-// take long.
+// and is returned as is. Records are read in pages of queryPage per read
+// transaction and fn is called between transactions; records written
+// meanwhile after the current position are included.
 func (db *DB) Query(iv metrics.Interval, from, to time.Time, fn func(r *metrics.Record) error) error {
 	name, err := levelBucket(iv)
 	if err != nil {
@@ -206,31 +212,49 @@ func (db *DB) Query(iv metrics.Interval, from, to time.Time, fn func(r *metrics.
 	if !to.IsZero() {
 		end = to.UnixNano()
 	}
-	var fnErr error
-	err = db.view(func(tx *bolt.Tx) error {
-		b := tx.Bucket(name)
-		if b == nil {
+	page := make([]*metrics.Record, 0, queryPage)
+	var last [16]byte
+	started := false
+	for {
+		page = page[:0]
+		more := false
+		err = db.view(func(tx *bolt.Tx) error {
+			b := tx.Bucket(name)
+			if b == nil {
+				return nil
+			}
+			c := b.Cursor()
+			k, v := c.Seek(seek[:])
+			if started && len(k) == 16 && bytes.Equal(k, last[:]) {
+				k, v = c.Next() // resume after the last record delivered
+			}
+			for ; len(k) == 16 && keyStart(k) < end; k, v = c.Next() {
+				if len(page) == queryPage {
+					more = true
+					return nil
+				}
+				r, err := db.decode(v, iv)
+				if err != nil {
+					return fmt.Errorf("key %x: %w", k, err)
+				}
+				page = append(page, r)
+				copy(last[:], k)
+			}
+			return nil
+		})
+		if err != nil {
+			return fmt.Errorf("store: query %s: %w", iv, err)
+		}
+		for _, r := range page {
+			if err := fn(r); err != nil {
+				return err
+			}
+		}
+		if !more {
 			return nil
 		}
-		c := b.Cursor()
-		for k, v := c.Seek(seek[:]); len(k) == 16 && keyStart(k) < end; k, v = c.Next() {
-			r, err := db.decode(v, iv)
-			if err != nil {
-				return fmt.Errorf("key %x: %w", k, err)
-			}
-			if fnErr = fn(r); fnErr != nil {
-				return fnErr
-			}
-		}
-		return nil
-	})
-	if fnErr != nil {
-		return fnErr
+		seek, started = last, true
 	}
-	if err != nil {
-		return fmt.Errorf("store: query %s: %w", iv, err)
-	}
-	return nil
 }
 
 func (db *DB) decode(v []byte, iv metrics.Interval) (*metrics.Record, error) {
