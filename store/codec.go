@@ -315,3 +315,26 @@ func fillPct(c *metrics.ChannelValues, f byte, k metrics.Kind, il float64) {
 }
 
 func nan() float64 { return math.NaN() }
+
+// RecordBytes estimates the encoded size of one aggregate record for
+// layout s (version 2, with the 10 s frequency, sequences when the wiring
+// has them), plus bbolt's per-entry overhead: for sizing retention
+// against MaxSizeMB.
+func RecordBytes(s *metrics.Setup) int {
+	nch, nord, nph := len(s.Channels), len(s.Orders), len(s.Pairs)
+	n := 1 + 2 + 8 + 8 + 3 + 2 + 1 + 4 + 4
+	n += nch * (1 + 6*4 + nord*(4+2))
+	n += 1 + nph*(1+11*4)
+	if nph > 0 {
+		n += 11 * 4
+	}
+	if s.Wiring == metrics.Wye {
+		if s.VIdx[0] >= 0 && s.VIdx[1] >= 0 && s.VIdx[2] >= 0 {
+			n += nord * 3 * 4
+		}
+		if s.IIdx[0] >= 0 && s.IIdx[1] >= 0 && s.IIdx[2] >= 0 {
+			n += nord * 3 * 4
+		}
+	}
+	return n + 2*4 + 16 + leafElemOverhead
+}

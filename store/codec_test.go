@@ -209,3 +209,18 @@ func FuzzLayout(f *testing.F) {
 		}
 	})
 }
+
+// TestRecordBytes: the exported estimate matches the encoder (closed form of
+// the format in doc.go, plus the 16-byte key and bbolt's leaf element).
+func TestRecordBytes(t *testing.T) {
+	s := setup8(allOrders())
+	r := metrics.NewRecord(s)
+	r.Interval, r.Start, r.DurationS, r.Samples, r.HasFreq10s = metrics.Int3s, time.Unix(1, 0), 3, 30720, true
+	b, err := encodeRecord(nil, r, 1, s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got, want := RecordBytes(s), len(b)+16+leafElemOverhead; got != want {
+		t.Errorf("RecordBytes %d, encoder %d + key and leaf overhead = %d", got, len(b), want)
+	}
+}

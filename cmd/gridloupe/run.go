@@ -153,6 +153,10 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		return fmt.Errorf("store: %w", err)
 	}
 	db.OutboxCaps(map[store.Class]int{store.ClassTelemetry: 20000, store.ClassEvent: 5000, store.ClassEventWaveform: 200})
+	if need := retentionBytes(setup, ret); need > int64(cfg.Store.MaxSizeMB)<<20*8/10 {
+		log.Warn("retention needs more room than store.max_size_mb: the oldest 3 s values will be trimmed before their retention ends",
+			"needed_mb", need>>20, "max_size_mb", cfg.Store.MaxSizeMB)
+	}
 
 	rules, err := alarmRules(cfg, setup)
 	if err != nil {
@@ -448,4 +452,18 @@ func writeHeapProfile(log *slog.Logger) {
 	if err := pprof.WriteHeapProfile(f); err != nil {
 		log.Warn("heap profile", "err", err)
 	}
+}
+
+// retentionBytes estimates the store size the retention periods need:
+// records per level × the encoded record size.
+func retentionBytes(s *metrics.Setup, ret map[metrics.Interval]time.Duration) int64 {
+	per := int64(store.RecordBytes(s))
+	var n int64
+	for iv, d := range map[metrics.Interval]time.Duration{metrics.Int3s: 3 * time.Second,
+		metrics.Int10min: 10 * time.Minute, metrics.Int2h: 2 * time.Hour} {
+		if r := ret[iv]; r > 0 {
+			n += int64(r/d) * per
+		}
+	}
+	return n
 }
