@@ -203,7 +203,11 @@ func New(cfg Config) (*Pipeline, error) {
 func (p *Pipeline) nextTenEnd(idx uint64) uint64 {
 	t := p.clock.Time(idx)
 	b := t.Truncate(10 * time.Second).Add(10 * time.Second)
-	return p.clock.Index(b)
+	next := p.clock.Index(b)
+	if next <= idx { // cannot happen with exact Index; never let the boundary stall
+		next = idx + 1
+	}
+	return next
 }
 
 // startWindow cuts the next window: it holds p.cycles cycles of p.fUsed,

@@ -250,3 +250,34 @@ func TestGaplessWindows(t *testing.T) {
 		}
 	}
 }
+
+// TestTenSecondAcrossGap: an interruption inside a 10 s interval leaves no
+// cycles behind, so the 10 s value stays right: whole cycles counted divided
+// by their own duration (IEC 61000-4-30, from memory), not by the span that
+// includes the gap.
+func TestTenSecondAcrossGap(t *testing.T) {
+	const fs = 10240.0
+	gain := func(t float64) float64 {
+		if t >= 3 && t < 4 {
+			return 0
+		}
+		return 1
+	}
+	v := synthChan{tones: []tone{{1, 230, 0}, {5, 11.5, 30}}, noise: 0.2, gain: gain}
+	s := setupOf(t, metrics.SinglePhase, 230, 0, false, []int{1, 5},
+		metrics.Channel{Name: "v", Kind: metrics.Voltage, Phase: 'a'})
+	recs, _ := runPipeline(t, Config{Setup: s, SampleRate: fs, NominalHz: 50}, newSynth(fs, constFreq(49.97), 10.5, v))
+	n := 0
+	for _, r := range recs {
+		if !r.HasFreq10s {
+			continue
+		}
+		n++
+		if d := math.Abs(r.Freq10sHz - 49.97); !(d <= freqTol) {
+			t.Errorf("freq_10s_hz %.4f with a 1 s interruption inside, want 49.97 ± %g (IEC 61000-4-30 class A, from memory)", r.Freq10sHz, freqTol)
+		}
+	}
+	if n == 0 {
+		t.Fatal("no 10 s value")
+	}
+}

@@ -2,6 +2,7 @@ package stream
 
 import (
 	"math"
+	"math/bits"
 	"time"
 )
 
@@ -32,20 +33,21 @@ func (c Clock) Time(idx uint64) time.Time {
 }
 
 // Index returns the first sample index whose time is at or after t
-// (0 for times before the base).
+// (0 for times before the base): ceil(Δt·fs), in exact 128-bit integer
+// arithmetic for any Δt.
 func (c Clock) Index(t time.Time) uint64 {
 	d := t.Sub(c.base)
 	if d <= 0 {
 		return 0
 	}
-	sec := uint64(d / time.Second)
-	ns := uint64(d % time.Second)
-	// idx = ceil((sec + ns/1e9) · fsMilli / 1000)
-	if sec > math.MaxUint64/2_000_000_000/c.fsMilli { // centuries ahead: float is close enough
-		return uint64(math.Ceil(d.Seconds() * float64(c.fsMilli) / 1000))
+	// idx = ceil(d[ns] · fsMilli / 1e12); d·fsMilli < 2^63·2^40 fits 128 bits
+	// and the quotient fits 64 bits, so Div64 cannot overflow.
+	hi, lo := bits.Mul64(uint64(d), c.fsMilli)
+	q, r := bits.Div64(hi, lo, 1_000_000_000_000)
+	if r != 0 {
+		q++
 	}
-	num := sec*c.fsMilli*1_000_000_000 + ns*c.fsMilli // ns < 1e9, fsMilli < ~1e9: fits
-	return (num + 1_000_000_000_000 - 1) / 1_000_000_000_000
+	return q
 }
 
 // Base returns the clock's base time.

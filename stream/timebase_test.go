@@ -40,8 +40,9 @@ func TestClockPast32Bits(t *testing.T) {
 			if d := got.Sub(want); d < -time.Nanosecond || d > time.Nanosecond {
 				t.Errorf("Time(%d) = %v, want %v (exact, math/big): off by %v (%s)", tc.idx, got, want, d, tc.src)
 			}
-			// Index is the inverse: the first sample at or after the time
-			if back := c.Index(got); back != tc.idx && back != tc.idx+1 {
+			// Index is the exact inverse: Time truncates to the nanosecond,
+			// so the first sample at or after Time(idx) is idx itself
+			if back := c.Index(got); back != tc.idx {
 				t.Errorf("Index(Time(%d)) = %d", tc.idx, back)
 			}
 		})
@@ -60,6 +61,25 @@ func TestClockIndexBoundaries(t *testing.T) {
 	} {
 		if got := c.Index(base.Add(tc.at)); got != tc.want {
 			t.Errorf("Index(+%v) = %d, want %d (closed form ceil(t·fs))", tc.at, got, tc.want)
+		}
+	}
+}
+
+// TestClockIndexUnalignedBase: with a base whose sub-second part is not a
+// whole number of samples (a live base taken from the system clock),
+// Index stays the exact inverse of Time for weeks of samples; float
+// arithmetic drifts off by one after days (review finding).
+func TestClockIndexUnalignedBase(t *testing.T) {
+	base := time.Date(2026, 3, 1, 10, 0, 0, 97_656, time.UTC)
+	for _, fs := range []float64{10240, 12800, 10240.5} {
+		c := NewClock(base, fs)
+		for _, days := range []float64{0.01, 1, 24.5, 30, 400} {
+			idx := uint64(days * 86400 * fs)
+			for k := range uint64(50) {
+				if back := c.Index(c.Time(idx + k)); back != idx+k {
+					t.Fatalf("fs %v, day %v: Index(Time(%d)) = %d (exact inverse, math/big-free closed form)", fs, days, idx+k, back)
+				}
+			}
 		}
 	}
 }

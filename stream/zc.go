@@ -43,11 +43,32 @@ type crossings struct {
 	settle  uint64 // samples left before the filter output is trusted
 	idx     uint64 // index of the next sample
 	fs      float64
-	win     span // crossings in the current window
-	ten     span // crossings in the current 10 s interval
+	win     span   // crossings in the current window
+	ten     cycles // whole cycles in the current 10 s interval
+	lastI   uint64 // the previous crossing, for the cycle it ends
+	lastF   float64
+	hasLast bool
+	minP    float64 // shortest and longest plausible period, samples
+	maxP    float64
 	nextTen uint64
 	closed  float64 // value of the last closed 10 s interval, NaN if none
 	hasTen  bool
+}
+
+// cycles sums whole cycles and their durations (in samples). A gap in the
+// signal (an interruption, a stretch below the hysteresis) leaves no cycle
+// behind, so it does not count as time: the value is the whole cycles
+// counted divided by their total duration, as IEC 61000-4-30 defines it.
+type cycles struct {
+	n   int
+	dur float64
+}
+
+func (c *cycles) freq(fs float64) float64 {
+	if c.n == 0 || c.dur <= 0 {
+		return math.NaN()
+	}
+	return float64(c.n) * fs / c.dur
 }
 
 // span counts crossings between a first and a last one.
@@ -82,7 +103,8 @@ func (s *span) freq(fs float64) float64 {
 func newCrossings(fs, nominalHz, hyst float64) crossings {
 	fc := 1.5 * nominalHz // passes 42.5–69 Hz with little attenuation, takes 5th and up down by ~20 dB or more
 	return crossings{f1: lowpass(fc, fs), f2: lowpass(fc, fs), hyst: hyst, fs: fs,
-		settle: uint64(fs / nominalHz * 3), closed: math.NaN()}
+		settle: uint64(fs / nominalHz * 3), closed: math.NaN(),
+		minP: fs / (nominalHz * (1 + trackRange)), maxP: fs / (nominalHz * (1 - trackRange))}
 }
 
 // setTen sets the sample index at which the current 10 s interval ends.
@@ -114,10 +136,16 @@ func (c *crossings) write(x []float64) {
 				pi, pf = 0, 0
 			}
 			if c.nextTen > 0 && pi >= c.nextTen {
-				c.closeTen()
+				c.closeTen() // the cycle ending here straddles the edge: discarded
 			}
 			c.win.add(pi, pf)
-			c.ten.add(pi, pf)
+			if c.hasLast {
+				if d := float64(pi-c.lastI) + (pf - c.lastF); d >= c.minP && d <= c.maxP {
+					c.ten.n++
+					c.ten.dur += d
+				}
+			}
+			c.lastI, c.lastF, c.hasLast = pi, pf, true
 		}
 		c.prev = y
 	}
@@ -125,10 +153,13 @@ func (c *crossings) write(x []float64) {
 
 // closeTen ends the current 10 s interval: at the first crossing past its
 // end, or when the window holding the end finishes, whichever comes first.
+//
+// Cycles straddling the interval's edges are discarded (IEC 61000-4-30).
 func (c *crossings) closeTen() {
 	c.closed = c.ten.freq(c.fs)
 	c.hasTen = true
-	c.ten = span{}
+	c.ten = cycles{}
+	c.hasLast = false
 	c.nextTen = 0
 }
 
@@ -153,4 +184,5 @@ func (c *crossings) takeTen() (float64, bool) {
 func (c *crossings) resetCounts() {
 	c.win = span{}
 	c.armed = false
+	c.hasLast = false
 }

@@ -34,7 +34,7 @@ type Config struct {
 	// the simulator): Run then returns ErrSourceEnded. Files end normally.
 	EndIsError bool
 
-	Store     *store.DB        // required
+	Store     Store            // required; a *store.DB
 	Alarms    *alarm.Evaluator // nil = no alarm rules
 	Channels  []string         // channel names, for alarm payloads; nil = from the setup
 	Telemetry []metrics.Interval
@@ -60,6 +60,18 @@ type Config struct {
 	// in its MQTT status), and with nil when writes succeed again;
 	// measurement goes on either way.
 	OnStoreError func(err error)
+}
+
+// Store is what the gateway needs of the bbolt store (*store.DB).
+type Store interface {
+	PutAggregates(recs []*metrics.Record) error
+	Enqueue(msgs ...store.Message) ([]uint64, error)
+	CommitAlarm(st store.AlarmState, msg store.Message) (uint64, error)
+	SetAlarmState(st store.AlarmState) error
+	Prune(now time.Time) (int, error)
+	Query(iv metrics.Interval, from, to time.Time, fn func(r *metrics.Record) error) error
+	Stats() store.Stats
+	Losses() map[store.Class]uint64
 }
 
 // Stats are the gateway's counters, safe to read concurrently.
@@ -104,11 +116,13 @@ type Gateway struct {
 	a2h      *metrics.Aggregator
 	n2h      int
 	tick2h   int64
+	done2h   int64 // a 2 h interval already stored before a restart
 	start2h  time.Time
 	full2h   bool
 	seen2h   bool
 	rec2h    *metrics.Record
 	lastErr  string
+	alarmQ   []pendingAlarm // transitions whose commit failed, retried in order
 	telem    [5]bool
 	persistS map[string]alarm.State
 }
@@ -142,6 +156,7 @@ func New(cfg Config) (*Gateway, error) {
 			g.telem[iv] = true
 		}
 	}
+	g.done2h = -1 << 62
 	g.a2h = metrics.NewAggregator(g.setup)
 	g.rec2h = metrics.NewRecord(g.setup)
 	g.persistS = map[string]alarm.State{}
@@ -294,18 +309,7 @@ func (g *Gateway) evaluate(r *metrics.Record) {
 		ch := g.ruleChannel(t.Rule)
 		msg := store.Message{Class: store.ClassAlarm, QoS: 1,
 			Topic: g.cfg.Base + "/" + levelAlarm, Payload: alarmPayload(g.cfg.Site, g.cfg.Gateway, t, ch)}
-		ast := toStore(t.Rule, st, t.Severity)
-		if g.cfg.Base == "" {
-			if err := g.cfg.Store.SetAlarmState(ast); err != nil {
-				g.storeError(err)
-			}
-		} else if _, err := g.cfg.Store.CommitAlarm(ast, msg); err != nil {
-			g.storeError(err)
-		} else {
-			g.queued.Add(1)
-			g.kick()
-		}
-		g.persistS[t.Rule] = st
+		g.commitAlarm(pendingAlarm{st: toStore(t.Rule, st, t.Severity), msg: msg, withMsg: g.cfg.Base != ""})
 		state := "cleared"
 		if t.Raised {
 			state = "raised"
@@ -314,6 +318,53 @@ func (g *Gateway) evaluate(r *metrics.Record) {
 		if g.cfg.OnTransition != nil {
 			g.cfg.OnTransition(t)
 		}
+	}
+}
+
+// pendingAlarm is an alarm transition waiting to be committed.
+type pendingAlarm struct {
+	st      store.AlarmState
+	msg     store.Message
+	withMsg bool
+}
+
+// commitAlarm commits a transition with its outbox entry at once. When the
+// store fails, the transition is kept and retried, in order, at the next
+// commit: none is lost while the process runs.
+func (g *Gateway) commitAlarm(a pendingAlarm) {
+	if len(g.alarmQ) > 0 { // keep order behind earlier failures
+		g.alarmQ = append(g.alarmQ, a)
+		return
+	}
+	if err := g.tryAlarm(a); err != nil {
+		g.storeError(err)
+		g.alarmQ = append(g.alarmQ, a)
+	}
+}
+
+func (g *Gateway) tryAlarm(a pendingAlarm) error {
+	if !a.withMsg {
+		return g.cfg.Store.SetAlarmState(a.st)
+	}
+	if _, err := g.cfg.Store.CommitAlarm(a.st, a.msg); err != nil {
+		return err
+	}
+	g.queued.Add(1)
+	g.kick()
+	g.persistS[a.st.Name] = alarm.State{Raised: a.st.Raised, Since: a.st.Since, Pending: a.st.Pending,
+		PendingSince: a.st.PendingSince, Value: a.st.Value}
+	return nil
+}
+
+// retryAlarms commits the transitions kept after store failures, in order.
+func (g *Gateway) retryAlarms() {
+	for len(g.alarmQ) > 0 {
+		if err := g.tryAlarm(g.alarmQ[0]); err != nil {
+			g.storeError(err)
+			return
+		}
+		g.alarmQ[0] = pendingAlarm{}
+		g.alarmQ = g.alarmQ[1:]
 	}
 }
 
@@ -339,6 +390,7 @@ func FromStore(m map[string]store.AlarmState) map[string]alarm.State {
 // commit writes the batch of aggregates, queues the telemetry, and
 // persists pending-delay changes of the alarm states.
 func (g *Gateway) commit() {
+	g.retryAlarms()
 	if len(g.batch) > 0 {
 		if err := g.cfg.Store.PutAggregates(g.batch); err != nil {
 			g.storeError(err)
@@ -359,7 +411,7 @@ func (g *Gateway) commit() {
 		clear(g.msgs)
 		g.msgs = g.msgs[:0]
 	}
-	if g.cfg.Alarms != nil {
+	if g.cfg.Alarms != nil && len(g.alarmQ) == 0 { // after the transitions, never before them
 		for name, st := range g.cfg.Alarms.States() {
 			if old, ok := g.persistS[name]; ok && old == st {
 				continue

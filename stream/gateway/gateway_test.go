@@ -285,3 +285,115 @@ func TestTwoHourAfterRestart(t *testing.T) {
 		t.Errorf("2 h record with a restart inside is not flagged partial")
 	}
 }
+
+// failingStore fails CommitAlarm a number of times, then behaves like the
+// real store it wraps (a card that returns write errors for a while).
+type failingStore struct {
+	*store.DB
+	fails int
+}
+
+func (f *failingStore) CommitAlarm(st store.AlarmState, m store.Message) (uint64, error) {
+	if f.fails > 0 {
+		f.fails--
+		return 0, errors.New("injected: write error")
+	}
+	return f.DB.CommitAlarm(st, m)
+}
+
+// TestAlarmCommitRetried: a transition whose commit fails is kept and
+// committed, in order, once the store works again; none is lost (review
+// finding: it used to be dropped and marked as persisted).
+func TestAlarmCommitRetried(t *testing.T) {
+	r := newRig(t, filepath.Join(t.TempDir(), "g.db"), 150)
+	ev, err := alarm.New([]alarm.Rule{thdRule()}, r.setup, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var trans []alarm.Transition
+	var storeErrs int
+	g, err := New(Config{
+		Pipeline: stream.Config{Setup: r.setup, SampleRate: 6400, NominalHz: 50, Base: t0},
+		Source:   r.src, Store: &failingStore{DB: r.db, fails: 3}, Alarms: ev,
+		Base: "gridloupe/test-site/gw1", Site: "test-site", Gateway: "gw1",
+		CommitEvery: 20 * time.Millisecond, OnTransition: func(tr alarm.Transition) { trans = append(trans, tr) },
+		OnStoreError: func(err error) {
+			if err != nil {
+				storeErrs++
+			}
+		}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	_ = g.Run(context.Background())
+	if len(trans) < 2 || storeErrs == 0 {
+		t.Fatalf("%d transitions, %d store errors: the test needs both", len(trans), storeErrs)
+	}
+	msgs, err := r.db.Pending(0, 100)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var states []string
+	for _, m := range msgs {
+		var p map[string]any
+		if err := json.Unmarshal(m.Payload, &p); err == nil && m.Topic == "gridloupe/test-site/gw1/alarm" {
+			states = append(states, p["state"].(string))
+		}
+	}
+	if len(states) != len(trans) {
+		t.Fatalf("%d alarm messages in the outbox for %d transitions: %v", len(states), len(trans), states)
+	}
+	for i, tr := range trans {
+		if want := map[bool]string{true: "raised", false: "cleared"}[tr.Raised]; states[i] != want {
+			t.Errorf("message %d is %q, transition %d was %q: order lost", i, states[i], i, want)
+		}
+	}
+	saved, err := r.db.AlarmStates()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got, want := saved["ia-thd"].Raised, trans[len(trans)-1].Raised; got != want {
+		t.Errorf("stored state raised=%v, last transition raised=%v", got, want)
+	}
+}
+
+// TestTwoHourNotDuplicatedAfterRestart: a run stopped in the last 10 min
+// slot stores the 2 h value; a restart inside that slot must not store a
+// second one for the same interval (review finding).
+func TestTwoHourNotDuplicatedAfterRestart(t *testing.T) {
+	r := newRig(t, filepath.Join(t.TempDir(), "g.db"), 1)
+	start := time.Date(2026, 3, 1, 0, 0, 0, 0, time.UTC)
+	mk := func(iv metrics.Interval, at time.Duration, dur float64) *metrics.Record {
+		rec := metrics.NewRecord(r.setup)
+		rec.Interval, rec.Start, rec.DurationS, rec.Samples = iv, start.Add(at), dur, uint64(dur*6400)
+		return rec
+	}
+	var stored []*metrics.Record
+	for i := range 12 {
+		stored = append(stored, mk(metrics.Int10min, time.Duration(i)*10*time.Minute, 600))
+	}
+	stored = append(stored, mk(metrics.Int2h, 0, 7200))
+	if err := r.db.PutAggregates(stored); err != nil {
+		t.Fatal(err)
+	}
+	g, err := New(Config{Pipeline: stream.Config{Setup: r.setup, SampleRate: 6400, NominalHz: 50, Base: start.Add(116 * time.Minute)},
+		Source: r.src, Store: r.db})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var twoH int
+	g.cfg.OnRecord = func(rec *metrics.Record, _ []string) {
+		if rec.Interval == metrics.Int2h {
+			twoH++
+		}
+	}
+	g.seed2h()
+	g.handle(mk(metrics.Int10min, 116*time.Minute, 240)) // the restarted run's partial last slot
+	g.handle(mk(metrics.Int10min, 120*time.Minute, 600)) // the next interval opens normally
+	if twoH != 0 {
+		t.Errorf("%d 2 h values emitted for an interval already stored", twoH)
+	}
+	if g.n2h != 1 {
+		t.Errorf("next interval holds %d 10 min values, want 1", g.n2h)
+	}
+}

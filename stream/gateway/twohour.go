@@ -15,7 +15,9 @@ const per2h = 12
 func tick2hOf(t time.Time) int64 { return stream.Tick(t, twoHours) }
 
 // seed2h reloads the 10 min records of the current 2 h clock interval
-// from the store, so a restart mid-interval loses none of them.
+// from the store, so a restart mid-interval loses none of them. When the
+// interval's 2 h value is already stored (the previous run closed it in
+// the last slot), its later 10 min values are not aggregated again.
 func (g *Gateway) seed2h() {
 	base := g.cfg.Pipeline.Base
 	if base.IsZero() {
@@ -23,16 +25,36 @@ func (g *Gateway) seed2h() {
 	}
 	tick := tick2hOf(base)
 	from := time.Unix(0, tick*int64(twoHours)).UTC()
-	_ = g.cfg.Store.Query(metrics.Int10min, from, base, func(r *metrics.Record) error {
-		g.add2h(r)
+	closed := false
+	if err := g.cfg.Store.Query(metrics.Int2h, from, base.Add(time.Nanosecond), func(*metrics.Record) error {
+		closed = true
 		return nil
-	})
+	}); err != nil {
+		g.log.Warn("cannot read stored 2 h values; the current one may be incomplete", "err", err)
+	}
+	if closed {
+		g.done2h = tick
+		return
+	}
+	var seed []*metrics.Record
+	if err := g.cfg.Store.Query(metrics.Int10min, from, base, func(r *metrics.Record) error {
+		seed = append(seed, r)
+		return nil
+	}); err != nil {
+		g.log.Warn("cannot read stored 10 min values; the current 2 h value will be partial", "err", err)
+	}
+	for _, r := range seed { // outside the read transactions: add2h may write
+		g.add2h(r)
+	}
 }
 
 // add2h adds a 10 min record to its 2 h interval, emitting the previous
 // interval when the record opens a new one.
 func (g *Gateway) add2h(r *metrics.Record) {
 	tick := tick2hOf(r.Start)
+	if tick == g.done2h {
+		return // its 2 h value was stored before a restart
+	}
 	if g.n2h > 0 && tick != g.tick2h {
 		g.close2h(false)
 	}
