@@ -107,7 +107,9 @@ func (iv *Intervals) Flush(emit func(*metrics.Record) error) error {
 	if err := iv.close3(true, emit); err != nil {
 		return err
 	}
-	end := time.Unix(0, (iv.tick10+1)*int64(tenMin))
+	// DurationS converts to nanoseconds with rounding; a microsecond of
+	// slack keeps a window ending exactly on the tick from reading as short.
+	end := time.Unix(0, (iv.tick10+1)*int64(tenMin)).Add(-time.Microsecond)
 	return iv.close10(!iv.full10 || iv.lastEnd.Before(end), emit)
 }
 

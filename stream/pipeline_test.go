@@ -281,3 +281,42 @@ func TestTenSecondAcrossGap(t *testing.T) {
 		t.Fatal("no 10 s value")
 	}
 }
+
+// TestFrequencyStep: after a step of the supply frequency the tracker
+// re-locks within three windows, counting the one that holds the step (the
+// README states this; common practice, no source). Steps inside and beyond
+// the ±4 % refinement range.
+func TestFrequencyStep(t *testing.T) {
+	const fs = 10240.0
+	for _, to := range []float64{50.5, 51.5, 53, 47.5, 42.5, 57.5} {
+		freq := func(t float64) float64 {
+			if t < 2.0 {
+				return 50
+			}
+			return to
+		}
+		v := synthChan{tones: []tone{{1, 230, 0}, {5, 11.5, 30}}, noise: 0.2}
+		s := setupOf(t, metrics.SinglePhase, 230, 0, false, []int{1, 5},
+			metrics.Channel{Name: "v", Kind: metrics.Voltage, Phase: 'a'})
+		recs, _ := runPipeline(t, Config{Setup: s, SampleRate: fs, NominalHz: 50}, newSynth(fs, freq, 4, v))
+		k := -1 // windows from the one holding the step
+		relock := -1
+		for _, r := range recs {
+			st := float64(r.Start.UnixNano()) / 1e9
+			if k < 0 && st+r.DurationS > 2.0 {
+				k = 0
+			}
+			if k < 0 {
+				continue
+			}
+			k++
+			if r.Flags&metrics.FlagNoLock == 0 && st >= 2.0 {
+				relock = k
+				break
+			}
+		}
+		if relock < 0 || relock > 3 {
+			t.Errorf("step 50 → %g Hz: locked again at window %d from the step, want within 3", to, relock)
+		}
+	}
+}

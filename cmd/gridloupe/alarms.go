@@ -55,9 +55,17 @@ func alarmRules(cfg *config.Config, s *metrics.Setup) ([]alarm.Rule, error) {
 				}
 				r.LoadChannels = []int{ci}
 			} else {
+				// per-phase pf/dpf: that phase's current; total: all phases
 				r.LoadChannels = phaseCurrents
-				if base == 0 && len(phaseCurrents) > 0 {
-					base = s.Channels[phaseCurrents[0]].FullScale
+				if r.Target.Phase != 0 {
+					for _, pc := range phaseCurrents {
+						if s.Channels[pc].Phase == r.Target.Phase {
+							r.LoadChannels = []int{pc}
+						}
+					}
+				}
+				if base == 0 && len(r.LoadChannels) > 0 {
+					base = s.Channels[r.LoadChannels[0]].FullScale
 				}
 			}
 			r.MinLoad = a.MinLoadPct / 100 * base

@@ -67,16 +67,21 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 		return fmt.Errorf("export: %w", err)
 	}
 	out := bufio.NewWriterSize(stdout, 64<<10)
-	defer out.Flush()
 	// A running daemon answers on its socket; else open the file read-only.
 	sock := gateway.SocketPath(*dbPath)
 	if _, err := os.Stat(sock); err == nil {
-		if err := gateway.RequestExport(sock, req, out); err == nil {
-			return nil
-		} else if errors.Is(err, gateway.ErrExport) {
+		err := gateway.RequestExport(sock, req, out)
+		switch {
+		case err == nil:
+			return flushOut(out)
+		case errors.Is(err, gateway.ErrExport):
 			return &usageError{err}
+		case !errors.Is(err, gateway.ErrNoDaemon):
+			// part of the answer may be out already: never add the file's
+			flushOut(out)
+			return fmt.Errorf("export: %w", err)
 		}
-		// stale socket of a killed daemon: fall through to the file
+		// a stale socket of a killed daemon: read the file
 	}
 	db, err := store.OpenReadOnly(*dbPath, *timeout)
 	if err != nil {
@@ -84,7 +89,15 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 	}
 	defer db.Close()
 	if err := gateway.WriteExport(out, db, req); err != nil {
+		flushOut(out)
 		return fmt.Errorf("export: %w", err)
+	}
+	return flushOut(out)
+}
+
+func flushOut(w *bufio.Writer) error {
+	if err := w.Flush(); err != nil {
+		return fmt.Errorf("export: writing the output: %w", err)
 	}
 	return nil
 }

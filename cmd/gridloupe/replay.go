@@ -159,9 +159,13 @@ func cmdReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	if runErr != nil {
 		return runErr
 	}
-	if cut || p.Leftover() > 0 {
+	switch {
+	case p.Leftover() > 0:
 		fmt.Fprintf(stderr, "gridloupe: warning: %s: input ends mid-window at %s; the last %d samples (%.3f s) are not in the output\n",
 			inPath, where(), p.Leftover(), float64(p.Leftover())/rate)
+	case cut:
+		fmt.Fprintf(stderr, "gridloupe: warning: %s: input ends with an incomplete row or frame after %s; it is not in the output\n",
+			inPath, where())
 	}
 	return nil
 }

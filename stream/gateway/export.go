@@ -2,6 +2,7 @@ package gateway
 
 import (
 	"bufio"
+	"bytes"
 	"context"
 	"encoding/json"
 	"errors"
@@ -29,6 +30,15 @@ type ExportRequest struct {
 
 // ErrExport reports a bad export request.
 var ErrExport = errors.New("gateway: export")
+
+// ErrNoDaemon reports that no daemon answers on the export socket.
+var ErrNoDaemon = errors.New("gateway: no daemon answers")
+
+// ErrExportCut reports an export answer that did not complete.
+var ErrExportCut = errors.New("gateway: export incomplete")
+
+// exportTimeout bounds a whole export over the socket.
+const exportTimeout = 10 * time.Minute
 
 // WriteExport writes the stored records matching req to w in the replay
 // schema. It is used by the daemon's socket and by `gridloupe export` when
@@ -129,22 +139,34 @@ func serveOne(c net.Conn, db *store.DB, log *slog.Logger) {
 	bw.WriteString("ok\n")
 	if err := WriteExport(bw, db, req); err != nil {
 		log.Warn("export failed", "err", err)
+		fmt.Fprintf(bw, "%s%s\n", trailerErr, strings.ReplaceAll(err.Error(), "\n", " "))
+	} else {
+		bw.WriteString(trailerOK + "\n")
 	}
 	bw.Flush()
 }
+
+// The answer ends with a trailer line, so a client can tell a complete
+// export from one cut by an error or a dying daemon. Records never start
+// with '#'.
+const (
+	trailerOK  = "#end ok"
+	trailerErr = "#end error: "
+)
 
 // RequestExport asks a running daemon for an export and copies the answer
 // to w.
 func RequestExport(path string, req ExportRequest, w io.Writer) error {
 	c, err := net.DialTimeout("unix", path, 2*time.Second)
 	if err != nil {
-		return fmt.Errorf("gateway: no daemon answers on %s: %w", path, err)
+		return fmt.Errorf("%w on %s: %w", ErrNoDaemon, path, err)
 	}
 	defer c.Close()
 	b, _ := json.Marshal(req)
 	if _, err := c.Write(append(b, '\n')); err != nil {
 		return fmt.Errorf("gateway: export request: %w", err)
 	}
+	c.SetDeadline(time.Now().Add(exportTimeout))
 	br := bufio.NewReaderSize(c, 64<<10)
 	head, err := br.ReadString('\n')
 	if err != nil {
@@ -153,6 +175,34 @@ func RequestExport(path string, req ExportRequest, w io.Writer) error {
 	if head != "ok\n" {
 		return fmt.Errorf("%w: %s", ErrExport, strings.TrimSpace(strings.TrimPrefix(head, "error: ")))
 	}
-	_, err = io.Copy(w, br)
-	return err
+	// Copy line by line, holding each back until the next arrives: the
+	// last line must be the trailer.
+	var prev []byte
+	for {
+		line, err := br.ReadBytes('\n')
+		if len(line) > 0 && line[len(line)-1] == '\n' {
+			if bytes.HasPrefix(line, []byte("#end ")) {
+				if prev != nil {
+					if _, werr := w.Write(prev); werr != nil {
+						return werr
+					}
+				}
+				t := strings.TrimSpace(string(line))
+				if t == trailerOK {
+					return nil
+				}
+				return fmt.Errorf("%w: the daemon reported: %s", ErrExportCut, strings.TrimPrefix(t, trailerErr))
+			}
+			if prev != nil {
+				if _, werr := w.Write(prev); werr != nil {
+					return werr
+				}
+			}
+			prev = append(prev[:0], line...)
+			continue
+		}
+		if err != nil {
+			return fmt.Errorf("%w: the answer ended without its trailer: %v", ErrExportCut, err)
+		}
+	}
 }

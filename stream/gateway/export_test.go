@@ -1,0 +1,71 @@
+package gateway
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"net"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/gridloupe/gridloupe/metrics"
+)
+
+// TestExportSocket: a complete answer ends with the trailer and is copied
+// without it; an answer cut short (a dying daemon) is an error, never a
+// silently short export.
+func TestExportSocket(t *testing.T) {
+	r := newRig(t, filepath.Join(t.TempDir(), "g.db"), 1)
+	var recs []*metrics.Record
+	for i := range 300 { // more than one query page
+		rec := metrics.NewRecord(r.setup)
+		rec.Interval, rec.Start, rec.DurationS, rec.Samples = metrics.Int3s, t0.Add(time.Duration(i)*3*time.Second), 3, 19200
+		recs = append(recs, rec)
+	}
+	if err := r.db.PutAggregates(recs); err != nil {
+		t.Fatal(err)
+	}
+	sock := filepath.Join(t.TempDir(), "x.sock")
+	ctx, cancel := context.WithCancel(context.Background())
+	done := make(chan error, 1)
+	go func() { done <- ServeExport(ctx, sock, r.db, nil) }()
+	defer func() { cancel(); <-done }()
+	var out bytes.Buffer
+	var err error
+	for range 100 { // wait for the listener
+		if err = RequestExport(sock, ExportRequest{Interval: "3s", Format: "jsonl"}, &out); !errors.Is(err, ErrNoDaemon) {
+			break
+		}
+		time.Sleep(10 * time.Millisecond)
+	}
+	if err != nil {
+		t.Fatal(err)
+	}
+	if n := strings.Count(out.String(), "\n"); n != 300 || strings.Contains(out.String(), "#end") {
+		t.Errorf("%d lines (want 300, trailer stripped)", n)
+	}
+
+	// a server that dies mid-answer
+	cut := filepath.Join(t.TempDir(), "cut.sock")
+	l, err := net.Listen("unix", cut)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer l.Close()
+	go func() {
+		c, err := l.Accept()
+		if err != nil {
+			return
+		}
+		buf := make([]byte, 512)
+		c.Read(buf)
+		c.Write([]byte("ok\n{\"interval\":\"3s\"}\n{\"interval\""))
+		c.Close()
+	}()
+	out.Reset()
+	if err := RequestExport(cut, ExportRequest{Interval: "3s"}, &out); !errors.Is(err, ErrExportCut) {
+		t.Errorf("cut answer: err %v, want ErrExportCut", err)
+	}
+}
