@@ -188,6 +188,10 @@ func (db *DB) PutAggregates(recs []*metrics.Record) error {
 	return nil
 }
 
+// maxNanoTime is the last instant UnixNano represents (year 2262); bounds
+// beyond it are treated as open.
+var maxNanoTime = time.Unix(0, math.MaxInt64)
+
 // queryPage is how many records Query decodes per read transaction: fn
 // runs outside the transaction, so a slow consumer (an export piped into
 // a pager) never holds one open while the writer needs to grow the map.
@@ -209,8 +213,11 @@ func (db *DB) Query(iv metrics.Interval, from, to time.Time, fn func(r *metrics.
 		be.PutUint64(seek[:8], uint64(n))
 	}
 	end := int64(math.MaxInt64)
-	if !to.IsZero() {
+	if !to.IsZero() && to.Before(maxNanoTime) {
 		end = to.UnixNano()
+	}
+	if from.After(maxNanoTime) {
+		return nil
 	}
 	page := make([]*metrics.Record, 0, queryPage)
 	var last [16]byte
