@@ -5,6 +5,7 @@ package stream
 import (
 	"context"
 	"testing"
+	"time"
 
 	"github.com/gridloupe/gridloupe/metrics"
 )
@@ -16,17 +17,35 @@ func TestPipelineAllocs(t *testing.T) {
 	const fs = 10240.0
 	data, ch := sixChannels(fs, 3.1, 49.97)
 	s := setupOf(t, metrics.Wye, 230, 160, true, nil, ch...)
-	p, err := New(Config{Setup: s, SampleRate: fs, NominalHz: 50})
+	// start 5 s before a 10-minute tick: the warm-up run covers 3.1 s, so
+	// the first measured run crosses the tick and closes a 10 min value
+	// (and a 3 s block cut by the tick)
+	base := time.Date(2026, 3, 1, 9, 59, 55, 0, time.UTC)
+	p, err := New(Config{Setup: s, SampleRate: fs, NominalHz: 50, Base: base})
 	if err != nil {
 		t.Fatal(err)
 	}
 	iv := NewIntervals(s, metrics.Int200ms, metrics.Int3s, metrics.Int10min)
 	var n int
-	sink := func(*metrics.Record) error { n++; return nil }
+	var tens int
+	var crossed bool
+	sink := func(r *metrics.Record) error {
+		n++
+		if r.Interval == metrics.Int10min {
+			tens++
+		}
+		return nil
+	}
 	emit := func(r *metrics.Record) error { return iv.Add(r, sink) }
 	m := &memSource{data: data, nch: 6}
 	ctx := context.Background()
+	warm := true
 	allocs := testing.AllocsPerRun(5, func() {
+		if !warm {
+			tensBefore := tens
+			defer func() { crossed = crossed || tens > tensBefore }()
+		}
+		warm = false
 		m.pos = 0
 		if err := p.Run(ctx, m, emit); err != nil {
 			t.Fatal(err)
@@ -37,5 +56,8 @@ func TestPipelineAllocs(t *testing.T) {
 	}
 	if n == 0 {
 		t.Fatal("no records")
+	}
+	if !crossed {
+		t.Fatal("no 10 min value closed in a measured run: the tick was not crossed there")
 	}
 }
