@@ -60,7 +60,7 @@ type AlarmState struct {
 	Name         string
 	Raised       bool
 	Since        time.Time // sample time of the last transition
-	Value        float64   // metric value at the last transition; NaN = null
+	Value        float64   // the last metric value evaluated (at the transition for CommitAlarm); NaN = null
 	Severity     string
 	Pending      bool      // a transition waits for its on/off delay
 	PendingSince time.Time // sample time the pending transition started

@@ -106,11 +106,12 @@ type Publisher struct {
 	lastErrAt time.Time
 
 	// Owned by the Run goroutine.
-	errLogAt   time.Time
-	suppressed int
-	ackRetry   []uint64
-	toks       []paho.Token
-	deadlines  []time.Time
+	errLogAt       time.Time
+	suppressed     int
+	ackRetry       []uint64
+	retryDelivered int // how many of ackRetry were delivered (the rest were dropped)
+	toks           []paho.Token
+	deadlines      []time.Time
 }
 
 // New validates cfg and builds the (not yet connected) client.
@@ -510,6 +511,9 @@ func (p *Publisher) ack(msgs []store.Message, delivered bool) {
 		p.report("mqtt outbox ack failed; will retry", err)
 		if len(p.ackRetry)+len(seqs) <= maxAckRetry { // beyond: resent after a restart instead
 			p.ackRetry = append(p.ackRetry, seqs...)
+			if delivered {
+				p.retryDelivered += len(seqs)
+			}
 		}
 		return
 	}
@@ -526,8 +530,8 @@ func (p *Publisher) retryAck() {
 		p.report("mqtt outbox ack failed; will retry", err)
 		return
 	}
-	p.acked.Add(uint64(len(p.ackRetry)))
-	p.ackRetry = p.ackRetry[:0]
+	p.acked.Add(uint64(p.retryDelivered)) // dropped (bad-topic) messages are not counted as acked
+	p.ackRetry, p.retryDelivered = p.ackRetry[:0], 0
 }
 
 // shutdown publishes the offline status and disconnects.
