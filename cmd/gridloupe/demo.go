@@ -115,13 +115,11 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 		lvl = slog.LevelInfo
 	}
 	start := time.Now()
-	err = runDaemon(runCtx, cfg, daemonOptions{logFormat: "text", logLevel: lvl, stdout: stdout,
+	err = runDaemon(runCtx, cfg, daemonOptions{logFormat: "text", logLevel: lvl,
 		brokerAddr: "127.0.0.1:0", stopAfter: *stopAfter,
 		simTweak: func(sc *sim.Config) {
 			// wear and recovery of the input reactor over 20 simulated minutes
 			sc.Filter = sim.FilterProfile{Period: 20 * time.Minute, Worst: 0.3}
-			sc.Channels = nil
-			sc.Channels = simConfig(cfg, sc.SampleRate).Channels
 		},
 		onReady: func(dd *daemon) {
 			d = dd
@@ -171,12 +169,11 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 // `every` of wall time, every 10 min and 2 h value, and alarm transitions.
 // Its header uses the record's own key names. Called from one goroutine.
 type liveTable struct {
-	w      io.Writer
-	every  time.Duration
-	setup  *metrics.Setup
-	last   time.Time
-	rows   int
-	active []string
+	w     io.Writer
+	every time.Duration
+	setup *metrics.Setup
+	last  time.Time
+	rows  int
 }
 
 func (t *liveTable) header() {
@@ -186,7 +183,6 @@ func (t *liveTable) header() {
 }
 
 func (t *liveTable) record(r *metrics.Record, active []string) {
-	t.active = active
 	if r.Interval == metrics.Int3s && time.Since(t.last) < t.every {
 		return
 	}

@@ -53,20 +53,16 @@ type daemonOptions struct {
 	onReady      func(d *daemon)
 	simTweak     func(sc *sim.Config)
 	now          func() time.Time
-	stdout       io.Writer
 	brokerAddr   string
 	stopAfter    time.Duration // sim only: simulated time to run, then a clean stop
 }
 
 // daemon is one running gateway with its store, publisher and broker.
 type daemon struct {
-	cfg    *config.Config
 	setup  *metrics.Setup
-	db     *store.DB
 	gw     *gateway.Gateway
 	pub    *mqtt.Publisher
 	brk    *broker.Broker
-	log    *slog.Logger
 	source stream.FrameReader
 	sim    *sim.Source
 }
@@ -101,7 +97,7 @@ func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	if *stopAfter < 0 || (*stopAfter > 0 && cfg.Source.Kind != config.SourceSim) {
 		return usagef("run: --stop-after needs a positive duration and source.kind sim")
 	}
-	return runDaemon(ctx, cfg, daemonOptions{logFormat: *logFormat, logLevel: lvl, stdout: stdout, stopAfter: *stopAfter}, stderr)
+	return runDaemon(ctx, cfg, daemonOptions{logFormat: *logFormat, logLevel: lvl, stopAfter: *stopAfter}, stderr)
 }
 
 func newLogger(w io.Writer, format string, lvl slog.Level) *slog.Logger {
@@ -119,7 +115,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	if now == nil {
 		now = time.Now
 	}
-	d := &daemon{cfg: cfg, log: log}
+	d := &daemon{}
 	setup, cal, err := setupFromConfig(cfg)
 	if err != nil {
 		return err
@@ -147,7 +143,6 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	if err != nil {
 		return fmt.Errorf("cannot open the store: %w", err)
 	}
-	d.db = db
 	defer func() { err = errors.Join(err, db.Close()) }()
 	if err := db.SetLayout(setup); err != nil {
 		return fmt.Errorf("store: %w", err)
@@ -180,7 +175,6 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	// Source.
 	var rate float64
 	var closer io.Closer
-	live := false
 	endIsError := true
 	switch cfg.Source.Kind {
 	case config.SourceSim:
@@ -318,7 +312,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			d.pub.SetProblem("store: " + err.Error())
 		}
 	}
-	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, Live: live, EndIsError: endIsError,
+	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError,
 		Store: db, Alarms: ev, Telemetry: tele, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
 		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("part", "gateway"),
 		OnRecord: o.onRecord, OnTransition: o.onTransition, OnStoreError: onStoreErr})
