@@ -246,7 +246,7 @@ func TestReplayWAV(t *testing.T) {
 	if r.code != 0 {
 		t.Fatalf("exit %d: %s", r.code, r.stderr)
 	}
-	if n := strings.Count(r.stdout, "\n"); n != 6 { // header + 5 windows
+	if n := strings.Count(r.stdout, "\n"); n != 6 { // header + 5 windows: 10240 samples / 2048 per 10-cycle window at 50 Hz (closed form)
 		t.Errorf("%d lines, want header and 5 windows", n)
 	}
 }
