@@ -144,4 +144,3 @@ func daemonHealth(d *daemon, db *store.DB) live.Health {
 	}
 	return h
 }
-
