@@ -46,6 +46,13 @@ const (
 	// trackRange bounds the tracked frequency to ±30 % of nominal, wider
 	// than the IEC 61000-4-30 range of 42.5–57.5 Hz / 51–69 Hz.
 	trackRange = 0.30
+	// measureHigh is the highest frequency, relative to nominal, at which
+	// harmonics are meant to be measured (115 %, the top of the IEC
+	// 61000-4-30 range, with margin): the sample rate must exceed twice the
+	// highest order there. config.Validate applies the same rule
+	// (trackHighPct), so a rate that passes `config --check` gets no
+	// warning here.
+	measureHigh = 1.15
 	// syncTol is the relative frequency error of a window's cut above which
 	// the window is not synchronized and is flagged no_lock (0.1 %).
 	syncTol = 1e-3
@@ -125,7 +132,7 @@ func New(cfg Config) (*Pipeline, error) {
 		return nil, fmt.Errorf("%w: %d calibrations for %d channels", ErrConfig, len(cfg.Cal), len(s.Channels))
 	}
 	maxOrder := s.Orders[len(s.Orders)-1]
-	if float64(maxOrder)*cfg.NominalHz*(1+trackRange) >= cfg.SampleRate/2 {
+	if float64(maxOrder)*cfg.NominalHz*measureHigh >= cfg.SampleRate/2 {
 		// still runs, but the top orders alias; config validation warns earlier
 		if cfg.Logger != nil {
 			cfg.Logger.Warn("sample rate too low for the highest order", "order", maxOrder, "sample_rate_hz", cfg.SampleRate)

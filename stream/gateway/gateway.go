@@ -289,7 +289,7 @@ func (g *Gateway) handle(r *metrics.Record) {
 	}
 	if r.Interval == metrics.Int10min {
 		if g.cfg.Base != "" {
-			g.msgs = append(g.msgs, g.healthMessage())
+			g.msgs = append(g.msgs, g.healthMessage(r.Start.Add(time.Duration(r.DurationS*float64(time.Second)))))
 		}
 		g.add2h(r)
 	}
@@ -426,8 +426,9 @@ func (g *Gateway) commit() {
 }
 
 // healthMessage builds the health message (store size, losses, last store
-// error) queued on <base>/health with every 10 min record.
-func (g *Gateway) healthMessage() store.Message {
+// error) queued on <base>/health with every 10 min record; its time is the
+// record's end on the sample clock, the clock of every queued message.
+func (g *Gateway) healthMessage(at time.Time) store.Message {
 	st := g.cfg.Store.Stats()
 	h := Health{StoreBytes: st.FileBytes, Stored: g.stored.Load(), Dropped: g.dropped.Load(), StoreErr: g.lastErr}
 	losses := g.cfg.Store.Losses()
@@ -435,7 +436,7 @@ func (g *Gateway) healthMessage() store.Message {
 		h.Losses = append(h.Losses, ClassCount{c.String(), losses[c]})
 	}
 	return store.Message{Class: store.ClassEvent, QoS: 1, Topic: g.cfg.Base + "/" + levelHealth,
-		Payload: healthPayload(g.cfg.Site, g.cfg.Gateway, g.now(), h)}
+		Payload: healthPayload(g.cfg.Site, g.cfg.Gateway, at, h)}
 }
 
 func (g *Gateway) storeError(err error) {
