@@ -114,6 +114,10 @@ type Pipeline struct {
 	tenEnd   uint64  // sample index where the current 10 s interval ends
 	leftover int     // samples of an unfinished window at EOF
 	windows  uint64
+
+	// gaps (gap.go)
+	missing    uint64 // frames a source reported missing so far
+	winMissing int    // missing samples in the current window
 }
 
 // New validates cfg and allocates every buffer the run needs.
@@ -274,7 +278,7 @@ func (p *Pipeline) Clock() Clock { return p.clock }
 // with each window record (200 ms). emit must not keep the record: it is
 // reused. Run returns nil at io.EOF and on cancellation; an error from src
 // is wrapped with ErrSource after the frames that came with it are
-// processed; an error from emit stops the run and is returned as is.
+// processed, except a *Gap, which is a hole in the data and not an end; an error from emit stops the run and is returned as is.
 func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.Record) error) error {
 	for {
 		if err := ctx.Err(); err != nil {
@@ -288,6 +292,12 @@ func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.
 			if err := p.block(n, emit); err != nil {
 				return err
 			}
+		}
+		if g := asGap(rerr); g != nil {
+			if err := p.skipGap(g.Missing, emit); err != nil {
+				return err
+			}
+			continue
 		}
 		if rerr != nil {
 			p.leftover = p.filled
@@ -370,6 +380,7 @@ func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
 			ch.Bad = true
 		}
 	}
+	realBad := p.gapNull()
 	used := p.fUsed
 	fMeas, lock := p.track()
 	p.in.FreqHz = fMeas
@@ -391,6 +402,7 @@ func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
 	if p.cfg.Unsynced != nil && p.cfg.Unsynced() {
 		rec.Flags |= metrics.FlagClockUnsynced
 	}
+	p.gapFlag(rec, realBad)
 	rec.HasFreq10s = false
 	if p.idx >= p.tenEnd {
 		if p.zc.nextTen != 0 { // no crossing past the boundary yet: close now

@@ -27,7 +27,8 @@ type Config struct {
 	Pipeline stream.Config      // the per-sample path; Pipeline.Setup is required
 	Source   stream.FrameReader // required
 	// Live marks a source that must never block: when the sink queue is
-	// full its records are dropped and counted. Replay and the simulator
+	// full its records are dropped and counted, and the next record of the
+	// same level carries the flag gap. Replay and the simulator
 	// leave it false and get back-pressure.
 	Live bool
 	// EndIsError says that the source ending is a failure (live sources,
@@ -193,12 +194,11 @@ func (g *Gateway) Run(ctx context.Context) error {
 		defer wg.Done()
 		g.sink(q)
 	}()
+	var drops liveDrops
 	send := func(r *metrics.Record) error {
 		c := r.Clone()
 		if g.cfg.Live {
-			select {
-			case q <- c:
-			default:
+			if !drops.offer(q, c) {
 				g.dropped.Add(1)
 			}
 			return nil
