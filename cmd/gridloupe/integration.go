@@ -91,7 +91,7 @@ func startIntegration(cfg *config.Config, setup *metrics.Setup, health func() li
 			return nil, err
 		}
 		srv, err := modbus.New(modbus.Config{Addr: cfg.Modbus.Listen, UnitID: uint8(cfg.Modbus.UnitID),
-			LowFirst: cfg.Modbus.WordOrder == config.WordLowFirst, Board: in.board, Map: m, Logger: log.With("part", "modbus")})
+			LowFirst: cfg.Modbus.WordOrder == config.WordLowFirst, Board: in.board, Map: m, Logger: log.With("component", "modbus")})
 		if err == nil {
 			err = srv.Listen()
 		}
