@@ -148,7 +148,9 @@ func (a *Aggregator) hIdx(k, h int) int {
 // and harmonic order; entries the Setup does not have are ignored.
 func (a *Aggregator) Add(r *Record) {
 	a.n++
-	a.samples += r.Samples
+	if r.Interval != Int200ms || r.Flags&FlagGap == 0 {
+		a.samples += r.Samples // only whole windows count (DESIGN "Sources": gaps)
+	}
 	if d := r.DurationS; d > 0 && !math.IsInf(d, 0) {
 		a.dur += d
 	}
@@ -242,7 +244,8 @@ func keep(x float64) float64 {
 // by NewRecord; re-sized once otherwise). The caller sets Interval and
 // Start. Rules, per key (DESIGN "Aggregation"):
 //
-//   - Samples, DurationS: sums. Flags: union of the records' flags, plus
+//   - Samples, DurationS: sums, except that a 200 ms window flagged gap
+//     adds no samples (only whole windows count). Flags: union of the records' flags, plus
 //     undefined when a recomputed value falls below its near-zero floor.
 //   - FreqHz: mean. Freq10sHz: mean of the 10 s values present; HasFreq10s
 //     when any record had one.

@@ -46,6 +46,13 @@ const (
 	// trackRange bounds the tracked frequency to ±30 % of nominal, wider
 	// than the IEC 61000-4-30 range of 42.5–57.5 Hz / 51–69 Hz.
 	trackRange = 0.30
+	// measureHigh is the highest frequency, relative to nominal, at which
+	// harmonics are meant to be measured (115 %, the top of the IEC
+	// 61000-4-30 range, with margin): the sample rate must exceed twice the
+	// highest order there. config.Validate applies the same rule
+	// (trackHighPct), so a rate that passes `config --check` gets no
+	// warning here.
+	measureHigh = 1.15
 	// syncTol is the relative frequency error of a window's cut above which
 	// the window is not synchronized and is flagged no_lock (0.1 %).
 	syncTol = 1e-3
@@ -107,6 +114,10 @@ type Pipeline struct {
 	tenEnd   uint64  // sample index where the current 10 s interval ends
 	leftover int     // samples of an unfinished window at EOF
 	windows  uint64
+
+	// gaps (gap.go)
+	missing    uint64 // frames a source reported missing so far
+	winMissing int    // missing samples in the current window
 }
 
 // New validates cfg and allocates every buffer the run needs.
@@ -125,7 +136,7 @@ func New(cfg Config) (*Pipeline, error) {
 		return nil, fmt.Errorf("%w: %d calibrations for %d channels", ErrConfig, len(cfg.Cal), len(s.Channels))
 	}
 	maxOrder := s.Orders[len(s.Orders)-1]
-	if float64(maxOrder)*cfg.NominalHz*(1+trackRange) >= cfg.SampleRate/2 {
+	if float64(maxOrder)*cfg.NominalHz*measureHigh >= cfg.SampleRate/2 {
 		// still runs, but the top orders alias; config validation warns earlier
 		if cfg.Logger != nil {
 			cfg.Logger.Warn("sample rate too low for the highest order", "order", maxOrder, "sample_rate_hz", cfg.SampleRate)
@@ -267,7 +278,7 @@ func (p *Pipeline) Clock() Clock { return p.clock }
 // with each window record (200 ms). emit must not keep the record: it is
 // reused. Run returns nil at io.EOF and on cancellation; an error from src
 // is wrapped with ErrSource after the frames that came with it are
-// processed; an error from emit stops the run and is returned as is.
+// processed, except a *Gap, which is a hole in the data and not an end; an error from emit stops the run and is returned as is.
 func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.Record) error) error {
 	for {
 		if err := ctx.Err(); err != nil {
@@ -281,6 +292,12 @@ func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.
 			if err := p.block(n, emit); err != nil {
 				return err
 			}
+		}
+		if g := asGap(rerr); g != nil {
+			if err := p.skipGap(g.Missing, emit); err != nil {
+				return err
+			}
+			continue
 		}
 		if rerr != nil {
 			p.leftover = p.filled
@@ -363,6 +380,7 @@ func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
 			ch.Bad = true
 		}
 	}
+	realBad := p.gapNull()
 	used := p.fUsed
 	fMeas, lock := p.track()
 	p.in.FreqHz = fMeas
@@ -384,6 +402,7 @@ func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
 	if p.cfg.Unsynced != nil && p.cfg.Unsynced() {
 		rec.Flags |= metrics.FlagClockUnsynced
 	}
+	p.gapFlag(rec, realBad)
 	rec.HasFreq10s = false
 	if p.idx >= p.tenEnd {
 		if p.zc.nextTen != 0 { // no crossing past the boundary yet: close now
