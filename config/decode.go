@@ -450,13 +450,11 @@ func (d *decoder) wiring(n *yaml.Node, path string, dst *string) *Error {
 		return e
 	}
 	switch w {
-	case WiringSinglePhase, WiringWye:
+	case WiringSinglePhase, WiringWye, WiringDelta:
 		*dst = w
 		return nil
-	case "delta":
-		return d.errf(n, path, "delta comes later; use single-phase or wye")
 	}
-	return d.errf(n, path, "%q is not allowed; use single-phase or wye (delta comes later)", w)
+	return d.errf(n, path, "%q is not allowed; use single-phase, wye or delta", w)
 }
 
 // maxOrder is the highest harmonic order computed (IEC 61000-4-7 and
@@ -513,7 +511,7 @@ func (d *decoder) channel(n *yaml.Node, path string, ch *Channel) *Error {
 		case "kind":
 			return d.enum(v, p, &ch.Kind, KindVoltage, KindCurrent)
 		case "phase":
-			return d.enum(v, p, &ch.Phase, "a", "b", "c", "n")
+			return d.enum(v, p, &ch.Phase, "a", "b", "c", "n", "ab", "bc", "ca", "ba", "cb", "ac")
 		case "scale":
 			return d.float(v, p, &ch.Scale)
 		case "offset":
