@@ -3,7 +3,10 @@ package mqtt_test
 import (
 	"bytes"
 	"encoding/json"
+	"os"
+	"path/filepath"
 	"strconv"
+	"strings"
 	"testing"
 
 	"github.com/gridloupe/gridloupe/stream/mqtt"
@@ -120,4 +123,20 @@ func firstKey(t testing.TB, b []byte) string {
 	}
 	k, _ := tok.(string)
 	return k
+}
+
+// TestStatusTopicAsDocumented: the status topic the publisher uses is the
+// README's, with QoS 1 and retained.
+func TestStatusTopicAsDocumented(t *testing.T) {
+	t.Parallel()
+	b, err := os.ReadFile(filepath.Join("..", "..", "README.md"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	const base = "gridloupe/north-weir-dc2/dc2-gw1"
+	suffix := strings.TrimPrefix(mqtt.StatusTopic(base), base)
+	// src: README "MQTT topics and payloads", the table's status row
+	if row := "| `…" + suffix + "` | 1, retained |"; !strings.Contains(string(b), row) {
+		t.Errorf("README has no row %q for the status topic %q", row, mqtt.StatusTopic(base))
+	}
 }
