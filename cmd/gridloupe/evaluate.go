@@ -134,8 +134,8 @@ func evaluateStore(db *store.DB, cfg *config.Config, from time.Time) (*complianc
 		}
 	}
 	busV := cfg.Nominal.VoltageV
-	if cfg.Wiring != config.WiringSinglePhase {
-		busV *= math.Sqrt(3) // wye: the table row goes by the line-to-line bus voltage
+	if cfg.Wiring == config.WiringWye {
+		busV *= math.Sqrt(3) // wye: the table row goes by the line-to-line bus voltage; delta declares it
 	}
 	ev, err := compliance.New(compliance.Config{
 		Setup: setup, NominalV: cfg.Nominal.VoltageV, BusV: busV,

@@ -98,7 +98,7 @@ func NewTable(w io.Writer, s *metrics.Setup, opts TableOptions) *Table {
 		add(column{head: "PF " + ph, width: 6, src: srcPF, idx: k, dec: 3})
 		add(column{head: "DPF " + ph, width: 6, src: srcDPF, idx: k, dec: 3})
 	}
-	if len(s.Pairs) > 0 {
+	if s.HasTotal() {
 		add(column{head: "P kW", width: 8, src: srcPkW, dec: 2})
 		add(column{head: "Q kvar", width: 8, src: srcQkvar, dec: 2})
 		add(column{head: "PF", width: 6, src: srcTotPF, dec: 3})
