@@ -290,4 +290,3 @@ func appendWrapped(b []byte, text string) []byte {
 	}
 	return append(b, '\n')
 }
-
