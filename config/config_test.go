@@ -53,6 +53,9 @@ func TestParseGood(t *testing.T) {
 						"3s": 168 * time.Hour, "10min": 9600 * time.Hour, "2h": 87600 * time.Hour}},
 					MQTT: MQTT{ClientID: "dc2-gw1", TopicPrefix: "gridloupe", Telemetry: []string{"10min"},
 						Base: "gridloupe/site/dc2-gw1"},
+					Modbus: Modbus{Listen: "127.0.0.1:5020", UnitID: 1, WordOrder: "high_first"},
+					HTTP:   HTTP{Listen: "127.0.0.1:8080"},
+					Demand: Demand{Interval: 15 * time.Minute, Method: "fixed"},
 				}
 				if !reflect.DeepEqual(c, want) {
 					t.Errorf("got  %+v\nwant %+v", c, want)

@@ -260,7 +260,7 @@ func TestEvaluateFullWeek(t *testing.T) {
 			if !strings.Contains(res.stdout, "VERDICT  "+tc.verdict) {
 				t.Errorf("want verdict %s:\n%s", tc.verdict, res.stdout)
 			}
-			if !strings.Contains(res.stdout, "2026-03-06 3s    28800    28800       0") {
+			if !strings.Contains(res.stdout, "2026-03-06 3s    28800       0        0        0    100.0%  complete") {
 				t.Errorf("day 4 coverage row missing:\n%s", res.stdout)
 			}
 			if tc.fail != "" {
@@ -337,9 +337,9 @@ func TestDefaultWeekStart(t *testing.T) {
 		newest, want string
 		src          string
 	}{
-		{"2026-03-08T23:50:00Z", "2026-03-02T00:00:00Z", "our rule: the last value ends at midnight, so 03-08 is a whole day"},
-		{"2026-03-08T12:00:00Z", "2026-03-01T00:00:00Z", "our rule: 03-08 is not over, the week ends at its start"},
-		{"2026-03-09T00:00:00Z", "2026-03-02T00:00:00Z", "our rule: a value just after midnight does not complete 03-09"},
+		{"2026-03-09T00:00:00Z", "2026-03-02T00:00:00Z", "our rule: the last value ends at midnight, so 03-08 is a whole day"},
+		{"2026-03-08T12:10:00Z", "2026-03-01T00:00:00Z", "our rule: 03-08 is not over, the week ends at its start"},
+		{"2026-03-09T00:10:00Z", "2026-03-02T00:00:00Z", "our rule: a value just after midnight does not complete 03-09"},
 	}
 	for _, tc := range tests {
 		n, _ := time.Parse(time.RFC3339, tc.newest)

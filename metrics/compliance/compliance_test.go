@@ -204,8 +204,9 @@ func TestIncompleteNeverFails(t *testing.T) {
 	})
 	res := e.Result()
 	l := findLine(t, res, "va", "h5", DailyP99)
-	if l.Verdict != Incomplete || !near(l.Value, 9) || l.WorstDay != 2 || !near(l.Coverage, 0.5) || res.Verdict != Incomplete {
-		t.Errorf("line %+v, verdict %s; want incomplete at 9 %% on day 2, coverage 0.5 (our rule: incomplete, never passed)", l, res.Verdict)
+	// hand: six whole days and half of day 2 cover 6.5 of 7 days
+	if l.Verdict != Incomplete || !near(l.Value, 9) || l.WorstDay != 2 || !near(l.Coverage, 6.5/7) || l.DaysJudged != 6 || res.Verdict != Incomplete {
+		t.Errorf("line %+v, verdict %s; want incomplete at 9 %% on day 2, coverage 6.5/7, 6 days judged (our rule: incomplete, never passed)", l, res.Verdict)
 	}
 }
 

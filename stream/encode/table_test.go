@@ -45,8 +45,11 @@ func TestTableBanner(t *testing.T) {
 			t.Errorf("caution line lacks %q (src: common rules, Safety)", must)
 		}
 	}
-	if got := len(lines); got != 3+1+3 {
-		t.Errorf("%d lines, want banner(2) + blank + header + 3 rows", got)
+	if !strings.Contains(lines[2], "thd_pct") {
+		t.Errorf("legend line %q does not say which THD is shown", lines[2])
+	}
+	if got := len(lines); got != 4+1+3 {
+		t.Errorf("%d lines, want banner(3) + blank + header + 3 rows", got)
 	}
 	// No record at all: the caution still comes out.
 	lines = tableLines(t, s, TableOptions{})
@@ -78,7 +81,7 @@ func TestTableRounding(t *testing.T) {
 	r.Channels[4].THDPct = metrics.Null() // ib
 	r.Flags = metrics.FlagPartial | metrics.FlagGap
 	lines := tableLines(t, s, TableOptions{}, r)
-	head, row := lines[3], lines[4]
+	head, row := lines[4], lines[5] // banner: title, caution, THD legend, blank
 	names := splitHeader(t, head)
 	cells := strings.Fields(row)
 	if len(cells) != len(names) {
@@ -154,7 +157,7 @@ func TestTableAlignment(t *testing.T) {
 		t.Fatal(err)
 	}
 	lines := strings.Split(strings.TrimSuffix(buf.String(), "\n"), "\n")
-	head, row := lines[3], lines[4]
+	head, row := lines[4], lines[5] // banner: title, caution, THD legend, blank
 	pos := 0
 	for i, c := range tw.cols {
 		if i > 0 {
