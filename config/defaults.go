@@ -90,4 +90,15 @@ alarms: []
 #     off_delay: 0s                # sample time it must be clear before clearing
 #     severity: warning            # info | warning | critical (default warning)
 #     min_load_pct: 0              # quiet below this % of il_a (or the current channel's full_scale); 0 = off
+
+# modbus:                  # read-only Modbus TCP server for a BMS; off unless this section is given
+#   listen: 127.0.0.1:5020 # host:port; loopback by default (see the README before exposing it)
+#   unit_id: 1             # unit identifier answered, 1..247 (0 and 255 are answered too)
+#   word_order: high_first # high_first | low_first: which 16-bit half of a float32 comes first
+# http:                    # /metrics (Prometheus), /api/latest (JSON) and the status page on /; off unless given
+#   listen: 127.0.0.1:8080 # host:port; loopback by default
+
+demand:                    # demand of the phase currents and total power (IEEE 519's IL is built from it)
+  interval: 15m            # whole minutes from 1m to 60m that divide an hour
+  method: fixed            # fixed (clock-aligned blocks) | sliding (the last interval, moved every 3 s)
 `
