@@ -94,14 +94,14 @@ func TestTableRounding(t *testing.T) {
 	cases := []struct {
 		col, want, src string
 	}{
-		{"start (UTC)", "2026-03-01T10:00:00.000Z", "DESIGN Time, to the millisecond (brief)"},
+		{"start (UTC)", "2026-03-01T10:00:00.000Z", "DESIGN Time, to the millisecond (README, Record)"},
 		{"intvl", "200ms", "DESIGN interval labels"},
 		{"f Hz", "50.000", "3 decimals; 49.99951 rounds up (arithmetic)"},
 		{"va V", "230.0", "0.1 V; 230.04999 rounds down (arithmetic)"},
 		{"vb V", exactRound(230.05, 1), "binary64 230.05 is 230.0500000000000113…, rounds up (math/big exact value)"},
 		{"va THD%", exactRound(2.085, 2), "binary64 2.085 is 2.0849999999999999644…, rounds down (math/big exact value)"},
 		{"ia A", "47.90", "0.01 A (arithmetic)"},
-		{"ib THD%", "-", "null shown as - (brief)"},
+		{"ib THD%", "-", "null shown as - (README, Record)"},
 		{"PF a", "0.000", "a value rounding to zero prints without sign: common practice, no source"},
 		{"DPF a", exactRound(0.9785, 3), "0.001 (math/big exact value)"},
 		{"P kW", "30.99", "30990 W in kW (arithmetic)"},
