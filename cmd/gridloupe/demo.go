@@ -2,11 +2,11 @@ package main
 
 import (
 	"context"
+	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"log/slog"
-	"errors"
 	"os"
 	"path/filepath"
 	"slices"
