@@ -34,7 +34,7 @@ const hdr3 = "nominal: {frequency_hz: 50, voltage_v: 230}\n" +
 
 // Sources of the rules the bad cases check.
 const (
-	srcBrief   = "config brief: validation list (file:line:col, key path, what is allowed)"
+	srcBrief   = "DESIGN, Config (YAML): validation list (file:line:col, key path, what is allowed)"
 	srcDesign  = "DESIGN.md, Interface contract / Config (YAML)"
 	srcDaemon  = "DESIGN.md, Daemon keys, MQTT and store"
 	srcMeasure = "DESIGN.md, Conventions of measurement"

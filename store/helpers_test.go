@@ -17,7 +17,7 @@ const (
 	// relF32 bounds float64→float32→float64: binary32 has a 24-bit significand,
 	// so the relative rounding error is at most 2^-24 ≈ 6e-8 (IEEE 754-2008 §3.6).
 	relF32 = 1e-6
-	// degTol bounds centi-degree rounding: at most 0.005° (the brief asks 0.01°).
+	// degTol bounds centi-degree rounding: at most 0.005° (0.01° is common practice, no source).
 	degTol = 0.01
 )
 

@@ -158,11 +158,11 @@ func TestEvaluateThinned(t *testing.T) {
 	}
 	for _, want := range []string{
 		"qualified personnel", "measurement category", "open-circuit the secondary of a loaded CT",
-		"not a protective device", "local electrical codes", // safety cautions (common rules; REFERENCE §7, common practice)
+		"not a protective device", "local electrical codes", // safety cautions (common practice, no source)
 		"IEEE 519 limits apply at the point of common coupling; measured inside a cabinet these figures are a reference.",
 		"week 2026-03-02T00:00:00Z to 2026-03-09T00:00:00Z", // default week: the last 7 whole days of 10 min values
-		"Table 2 row 20<50, TDD 8.0 %",        // REFERENCE 1.5 [confirmed 1992; 2014 from memory], ISC/IL 38.1
-		"Table 1 5.0 % individual, 8.0 % THD", // REFERENCE 1.3, ≤ 1 kV row [confirmed]; bus √3·230 = 398 V
+		"Table 2 row 20<50, TDD 8.0 %",        // IEEE 519-2014 Table 2 [confirmed 1992; 2014 from memory], ISC/IL 38.1
+		"Table 1 5.0 % individual, 8.0 % THD", // IEEE 519-2014 Table 1, ≤ 1 kV row [confirmed]; bus √3·230 = 398 V
 		"2026-03-02 3s",
 		"INCOMPLETE",
 		"nearest-rank",
