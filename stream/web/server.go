@@ -260,4 +260,3 @@ func (s *Server) latest(w http.ResponseWriter, _ *http.Request) {
 	w.Header().Set("Cache-Control", "no-store")
 	_, _ = w.Write(b)
 }
-
