@@ -176,7 +176,7 @@ func (db *DB) PutAggregates(recs []*metrics.Record) error {
 	if err != nil {
 		return fmt.Errorf("store: put %d records: %w", len(recs), err)
 	}
-	if now := time.Now(); now.Sub(db.lastRelease) >= releaseEvery || now.Before(db.lastRelease) {
+	if now := time.Now(); now.Sub(db.lastRelease) >= db.releaseEvery || now.Before(db.lastRelease) {
 		db.lastRelease = now
 		db.releaseMapped()
 	}

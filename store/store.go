@@ -27,9 +27,9 @@ const (
 	trimLow  = 0.80
 )
 
-// releaseEvery is how often (wall time) PutAggregates drops the memory
-// map's resident pages (releaseMapped).
-const releaseEvery = 30 * time.Second
+// defaultReleaseEvery is how often (wall time) PutAggregates drops the
+// memory map's resident pages (releaseMapped).
+const defaultReleaseEvery = 30 * time.Second
 
 // fillPercent for append-mostly buckets: keys arrive in ascending order, so
 // split pages can be filled almost full (bbolt's default 0.5 would leave
@@ -57,9 +57,10 @@ type DB struct {
 	usable   int64 // largest high-water mark bbolt allows under MaxSizeMB
 	pageSize int64
 
-	wmu         sync.Mutex // serialises writes (and so bbolt's remaps); owns buf and lastRelease
-	lastRelease time.Time  // last releaseMapped
-	buf         []byte
+	wmu          sync.Mutex    // serialises writes (and so bbolt's remaps); owns buf and the release fields
+	lastRelease  time.Time     // last releaseMapped
+	releaseEvery time.Duration // defaultReleaseEvery; tests force a release per commit with 0
+	buf          []byte
 
 	mu       sync.Mutex // guards the fields below
 	closed   bool
@@ -135,6 +136,7 @@ func Open(opts Options) (*DB, error) {
 	db := &DB{
 		bdb: bdb, opts: opts, log: log.With("store", opts.Path), path: opts.Path,
 		layouts: map[uint16]*metrics.Setup{}, counts: map[metrics.Interval]int{}, caps: map[Class]int{},
+		releaseEvery: defaultReleaseEvery,
 	}
 	// Read once: bbolt's Info() reads the mmap fields unlocked and races with a remap.
 	db.pageSize = int64(bdb.Info().PageSize)

@@ -42,6 +42,13 @@ type Config struct {
 
 // Window cutting.
 const (
+	// measureHigh is the highest frequency, relative to nominal, at which
+	// harmonics are meant to be measured (115 %, the top of the IEC
+	// 61000-4-30 range, with margin): the sample rate must exceed twice the
+	// highest order there. config.Validate applies the same rule
+	// (trackHighPct), so a rate that passes `config --check` gets no
+	// warning here.
+	measureHigh = 1.15
 	// edgeSnap is the distance, in samples, within which an ideal window
 	// edge is put on the nearest sample (4·10⁻⁶ of a 2048-sample window).
 	edgeSnap = 0.01
@@ -89,6 +96,10 @@ type Pipeline struct {
 	tenEnd   uint64  // sample index where the current 10 s interval ends
 	leftover int     // samples of an unfinished window at EOF
 	windows  uint64
+
+	// gaps (gap.go)
+	missing    uint64 // frames a source reported missing so far
+	winMissing int    // missing samples in the current window
 }
 
 // New validates cfg and allocates every buffer the run needs.
@@ -107,7 +118,7 @@ func New(cfg Config) (*Pipeline, error) {
 		return nil, fmt.Errorf("%w: %d calibrations for %d channels", ErrConfig, len(cfg.Cal), len(s.Channels))
 	}
 	maxOrder := s.Orders[len(s.Orders)-1]
-	if float64(maxOrder)*cfg.NominalHz*(1+trackRange) >= cfg.SampleRate/2 {
+	if float64(maxOrder)*cfg.NominalHz*measureHigh >= cfg.SampleRate/2 {
 		// still runs, but the top orders alias; config validation warns earlier
 		if cfg.Logger != nil {
 			cfg.Logger.Warn("sample rate too low for the highest order", "order", maxOrder, "sample_rate_hz", cfg.SampleRate)
@@ -167,7 +178,7 @@ func New(cfg Config) (*Pipeline, error) {
 		return nil, fmt.Errorf("%w: %w", ErrConfig, err)
 	}
 	p.half = h
-	p.in.SumVI = make([]float64, len(s.Pairs))
+	p.in.SumVI = make([]float64, len(s.Products))
 	p.rec = metrics.NewRecord(s)
 	p.trk = newTracker(cfg.SampleRate, cfg.NominalHz, p.lockV)
 	p.tenEnd = p.nextTenEnd(0)
@@ -245,7 +256,7 @@ func (p *Pipeline) Clock() Clock { return p.clock }
 // with each window record (200 ms). emit must not keep the record: it is
 // reused. Run returns nil at io.EOF and on cancellation; an error from src
 // is wrapped with ErrSource after the frames that came with it are
-// processed; an error from emit stops the run and is returned as is.
+// processed, except a *Gap, which is a hole in the data and not an end; an error from emit stops the run and is returned as is.
 func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.Record) error) error {
 	for {
 		if err := ctx.Err(); err != nil {
@@ -259,6 +270,12 @@ func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.
 			if err := p.block(n, emit); err != nil {
 				return err
 			}
+		}
+		if g := asGap(rerr); g != nil {
+			if err := p.skipGap(g.Missing, emit); err != nil {
+				return err
+			}
+			continue
 		}
 		if rerr != nil {
 			p.leftover = p.filled
@@ -320,7 +337,7 @@ func (p *Pipeline) segment(off, k int) {
 		p.half.Write(ref[:min(k, m-p.filled)])
 	}
 	p.trk.zc.write(ref)
-	for i, pr := range p.setup.Pairs {
+	for i, pr := range p.setup.Products {
 		v, cur := p.buf[pr.V][off:off+k], p.buf[pr.I][off:off+k]
 		acc := p.in.SumVI[i]
 		for j, x := range v {
@@ -341,6 +358,7 @@ func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
 			ch.Bad = true
 		}
 	}
+	realBad := p.gapNull()
 	used := p.trk.fUsed
 	p.half.Phasors(p.halfX[:])
 	ref := &p.in.Ch[p.ref]
@@ -363,6 +381,7 @@ func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
 	if p.cfg.Unsynced != nil && p.cfg.Unsynced() {
 		rec.Flags |= metrics.FlagClockUnsynced
 	}
+	p.gapFlag(rec, realBad)
 	rec.HasFreq10s = false
 	if p.idx >= p.tenEnd {
 		// The interval closes at the first crossing past its end (delay

@@ -27,7 +27,8 @@ type Config struct {
 	Pipeline stream.Config      // the per-sample path; Pipeline.Setup is required
 	Source   stream.FrameReader // required
 	// Live marks a source that must never block: when the sink queue is
-	// full its records are dropped and counted. Replay and the simulator
+	// full its records are dropped and counted, and the next record of the
+	// same level carries the flag gap. Replay and the simulator
 	// leave it false and get back-pressure.
 	Live bool
 	// EndIsError says that the source ending is a failure (live sources,
@@ -193,12 +194,11 @@ func (g *Gateway) Run(ctx context.Context) error {
 		defer wg.Done()
 		g.sink(q)
 	}()
+	var drops liveDrops
 	send := func(r *metrics.Record) error {
 		c := r.Clone()
 		if g.cfg.Live {
-			select {
-			case q <- c:
-			default:
+			if !drops.offer(q, c) {
 				g.dropped.Add(1)
 			}
 			return nil
@@ -289,7 +289,7 @@ func (g *Gateway) handle(r *metrics.Record) {
 	}
 	if r.Interval == metrics.Int10min {
 		if g.cfg.Base != "" {
-			g.msgs = append(g.msgs, g.healthMessage())
+			g.msgs = append(g.msgs, g.healthMessage(r.Start.Add(time.Duration(r.DurationS*float64(time.Second)))))
 		}
 		g.add2h(r)
 	}
@@ -426,8 +426,9 @@ func (g *Gateway) commit() {
 }
 
 // healthMessage builds the health message (store size, losses, last store
-// error) queued on <base>/health with every 10 min record.
-func (g *Gateway) healthMessage() store.Message {
+// error) queued on <base>/health with every 10 min record; its time is the
+// record's end on the sample clock, the clock of every queued message.
+func (g *Gateway) healthMessage(at time.Time) store.Message {
 	st := g.cfg.Store.Stats()
 	h := Health{StoreBytes: st.FileBytes, Stored: g.stored.Load(), Dropped: g.dropped.Load(), StoreErr: g.lastErr}
 	losses := g.cfg.Store.Losses()
@@ -435,7 +436,7 @@ func (g *Gateway) healthMessage() store.Message {
 		h.Losses = append(h.Losses, ClassCount{c.String(), losses[c]})
 	}
 	return store.Message{Class: store.ClassEvent, QoS: 1, Topic: g.cfg.Base + "/" + levelHealth,
-		Payload: healthPayload(g.cfg.Site, g.cfg.Gateway, g.now(), h)}
+		Payload: healthPayload(g.cfg.Site, g.cfg.Gateway, at, h)}
 }
 
 func (g *Gateway) storeError(err error) {
