@@ -333,7 +333,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			d.pub.SetProblem("store: " + err.Error())
 		}
 	}
-	integ, err := startIntegration(cfg, setup, func() live.Health { return daemonHealth(d, db) }, log)
+	integ, err := startIntegration(cfg, setup, db, base, kick, func() live.Health { return daemonHealth(d, db) }, log)
 	if err != nil {
 		return err
 	}
@@ -341,7 +341,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError,
 		Store: db, Alarms: ev, Telemetry: tele, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
 		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("component", "gateway"),
-		OnRecord: integ.onRecord(onRecord), OnTransition: o.onTransition, OnStoreError: onStoreErr})
+		OnRecord: integ.onRecord(onRecord), OnWindow: integ.onWindow, OnTransition: o.onTransition, OnStoreError: onStoreErr})
 	if err != nil {
 		return err
 	}
