@@ -18,7 +18,7 @@ type Config struct {
 	Site         string    // free text; report title and (sanitized) MQTT topic level; default "site"
 	Gateway      string    // this gateway's name; default the host name
 	Nominal      Nominal   // declared system values
-	Wiring       string    // WiringSinglePhase or WiringWye (default)
+	Wiring       string    // WiringSinglePhase, WiringWye (default) or WiringDelta
 	SampleRateHz float64   // Hz; 0 = taken from the input
 	Reference    string    // name of the angle and frequency reference (a voltage channel); default the first voltage channel
 	Harmonics    Harmonics // computed harmonic orders
@@ -30,12 +30,15 @@ type Config struct {
 	Store        Store     // bbolt store settings
 	MQTT         MQTT      // broker connection and topics
 	Alarms       []Alarm   // alarm rules in file order
+	Modbus       Modbus    // read-only Modbus TCP server for a BMS; off unless the section is given
+	HTTP         HTTP      // Prometheus, JSON and status page; off unless the section is given
+	Demand       Demand    // demand interval and method
 }
 
 // Nominal holds the declared system values.
 type Nominal struct {
 	FrequencyHz float64 // 50 or 60, required
-	VoltageV    float64 // declared voltage, phase-to-neutral for wye and single-phase; required, > 0
+	VoltageV    float64 // declared voltage, phase-to-neutral for wye and single-phase, line-to-line for delta; required, > 0
 	CurrentA    float64 // base for near-zero floors when a channel has no full_scale; 0 = unset
 }
 
@@ -63,7 +66,7 @@ func (h Harmonics) Has(order int) bool {
 type Channel struct {
 	Name      string  // unique; matched to CSV column names; no commas or white space
 	Kind      string  // KindVoltage or KindCurrent
-	Phase     string  // "a", "b", "c", or "n" (neutral, currents only)
+	Phase     string  // "a", "b", "c", or "n" (neutral, currents only); delta voltages "ab", "bc", "ca", "ba", "cb" or "ac"
 	Scale     float64 // engineering units per raw unit; default 1, never 0
 	Offset    float64 // engineering units; default 0
 	FullScale float64 // engineering units; 0 = none (no clipping check)
@@ -138,6 +141,7 @@ type Alarm struct {
 const (
 	WiringSinglePhase = "single-phase"
 	WiringWye         = "wye"
+	WiringDelta       = "delta"
 	KindVoltage       = "voltage"
 	KindCurrent       = "current"
 	SourceSim         = "sim"

@@ -21,7 +21,8 @@ import (
 // sets every key and against Defaults.
 var sections = map[string][]string{
 	"": {"site", "gateway", "nominal", "wiring", "sample_rate_hz", "reference", "harmonics",
-		"il_a", "isc_a", "lock_min_pct", "channels", "source", "store", "mqtt", "alarms"},
+		"il_a", "isc_a", "lock_min_pct", "channels", "source", "store", "mqtt", "alarms",
+		"modbus", "http", "demand"},
 	"nominal":         {"frequency_hz", "voltage_v", "current_a"},
 	"channels[]":      {"name", "kind", "phase", "scale", "offset", "full_scale", "delay_us"},
 	"source":          {"kind", "speed", "path"},
@@ -31,6 +32,9 @@ var sections = map[string][]string{
 		"topic_prefix", "telemetry", "telemetry_qos"},
 	"mqtt.tls":           {"ca", "cert", "key"},
 	"mqtt.telemetry_qos": {"3s", "10min", "2h"},
+	"modbus":             {"listen", "unit_id", "word_order"},
+	"http":               {"listen"},
+	"demand":             {"interval", "method"},
 	"alarms[]": {"name", "metric", "channel", "phase", "level", "above", "below", "deadband",
 		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic"},
 }
@@ -407,6 +411,12 @@ func (d *decoder) decode(c *Config) *Error {
 			return d.store(v, p, &c.Store)
 		case "mqtt":
 			return d.mqtt(v, p, &c.MQTT)
+		case "modbus":
+			return d.modbus(v, p, &c.Modbus)
+		case "http":
+			return d.http(v, p, &c.HTTP)
+		case "demand":
+			return d.demand(v, p, &c.Demand)
 		case "alarms":
 			return d.sequence(v, p, "alarm rules", maxAlarms, func(_ int, v *yaml.Node, ip string) *Error {
 				a := Alarm{Line: v.Line}
@@ -441,13 +451,11 @@ func (d *decoder) wiring(n *yaml.Node, path string, dst *string) *Error {
 		return e
 	}
 	switch w {
-	case WiringSinglePhase, WiringWye:
+	case WiringSinglePhase, WiringWye, WiringDelta:
 		*dst = w
 		return nil
-	case "delta":
-		return d.errf(n, path, "delta comes later; use single-phase or wye")
 	}
-	return d.errf(n, path, "%q is not allowed; use single-phase or wye (delta comes later)", w)
+	return d.errf(n, path, "%q is not allowed; use single-phase, wye or delta", w)
 }
 
 // maxOrder is the highest harmonic order computed (IEC 61000-4-7 and
@@ -504,7 +512,7 @@ func (d *decoder) channel(n *yaml.Node, path string, ch *Channel) *Error {
 		case "kind":
 			return d.enum(v, p, &ch.Kind, KindVoltage, KindCurrent)
 		case "phase":
-			return d.enum(v, p, &ch.Phase, "a", "b", "c", "n")
+			return d.enum(v, p, &ch.Phase, "a", "b", "c", "n", "ab", "bc", "ca", "ba", "cb", "ac")
 		case "scale":
 			return d.float(v, p, &ch.Scale)
 		case "offset":

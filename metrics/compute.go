@@ -138,6 +138,11 @@ func Compute(s *Setup, in *Input, out *Record) {
 	for ci := range s.Channels {
 		w.channel(ci, &out.Channels[ci], refOK, thRef)
 	}
+	if s.Wiring == Delta {
+		w.delta(out)
+		out.Flags = w.flags
+		return
+	}
 	for pi, p := range s.Pairs {
 		w.pair(pi, p, &out.Phases[pi])
 	}

@@ -23,6 +23,7 @@ func TestRecordRoundTrip(t *testing.T) {
 		{"8ch 17 orders wye", setup8(orders17), true, "random values, fixed PCG seed"},
 		{"8ch no sequence", setup8([]int{1, 5, 7}), false, "random values, fixed PCG seed"},
 		{"single-phase", setup1([]int{1, 3, 5}), false, "random values, fixed PCG seed"},
+		{"delta, two CTs", setupDelta([]int{1, 5, 7}), true, "random values, fixed PCG seed (DESIGN Delta wiring: total without phases)"},
 		{"fundamental only", setup1([]int{1}), false, "random values, fixed PCG seed"},
 	}
 	for _, tc := range cases {
@@ -222,5 +223,24 @@ func TestRecordBytes(t *testing.T) {
 	}
 	if got, want := RecordBytes(s), len(b)+16+leafElemOverhead; got != want {
 		t.Errorf("RecordBytes %d, encoder %d + key and leaf overhead = %d", got, len(b), want)
+	}
+}
+
+// TestDeltaLayoutRoundTrip: a stored delta layout keeps its line-to-line
+// channels and derives the same wattmeter elements. src: DESIGN Delta wiring.
+func TestDeltaLayoutRoundTrip(t *testing.T) {
+	t.Parallel()
+	want := setupDelta([]int{1, 5})
+	b, err := marshalLayout(want)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := unmarshalLayout(b)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.Wiring != metrics.Delta || got.Channels[1].To != 'b' || got.Channels[1].Phase != 'c' ||
+		len(got.Products) != 2 || got.Products[0] != want.Products[0] || got.Products[1] != want.Products[1] || !got.HasTotal() {
+		t.Errorf("layout %+v, want %+v", got, want)
 	}
 }

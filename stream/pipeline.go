@@ -196,7 +196,7 @@ func New(cfg Config) (*Pipeline, error) {
 		return nil, fmt.Errorf("%w: %w", ErrConfig, err)
 	}
 	p.half = h
-	p.in.SumVI = make([]float64, len(s.Pairs))
+	p.in.SumVI = make([]float64, len(s.Products))
 	p.rec = metrics.NewRecord(s)
 	// hysteresis: a tenth of the lock threshold's peak keeps noise from
 	// re-arming the detector; a locked signal is far larger.
@@ -359,7 +359,7 @@ func (p *Pipeline) segment(off, k int) {
 		p.half.Write(ref[:min(k, m-p.filled)])
 	}
 	p.zc.write(ref)
-	for i, pr := range p.setup.Pairs {
+	for i, pr := range p.setup.Products {
 		v, cur := p.buf[pr.V][off:off+k], p.buf[pr.I][off:off+k]
 		acc := p.in.SumVI[i]
 		for j, x := range v {

@@ -124,3 +124,28 @@ func TestREADMEStatesToday(t *testing.T) {
 		t.Errorf("README's opening paragraph claims live ADC sampling, which run does not offer yet:\n%s", first)
 	}
 }
+
+// TestReplayTableFits: `replay --format table` on the bundled recording
+// prints blocks within 80 columns with the site's IEEE 519 reference (TDD
+// 8 %, IEEE 519-2014 Table 2 row 20<50 for ISC/IL 38) and marks the
+// cabinet's 33 % TDD as above it; `--format wide` keeps the one-row layout.
+func TestReplayTableFits(t *testing.T) {
+	r := runCmd("replay", "--config", "../../testdata/north-weir-dc2.yaml", "--interval", "3s", "--format", "table", "../../testdata/north-weir-dc2.csv")
+	if r.code != 0 {
+		t.Fatalf("exit %d: %s", r.code, r.stderr)
+	}
+	for _, l := range strings.Split(r.stdout, "\n") {
+		if len(l) > 80 {
+			t.Errorf("line of %d columns: %q", len(l), l)
+		}
+	}
+	for _, want := range []string{"TDD %<8", "THD-V %<8", "Table 2 row 20<50", "tdd_h50_pct", "33.29!"} {
+		if !strings.Contains(r.stdout, want) {
+			t.Errorf("table lacks %q:\n%s", want, r.stdout)
+		}
+	}
+	w := runCmd("replay", "--config", "../../testdata/north-weir-dc2.yaml", "--interval", "3s", "--format", "wide", "../../testdata/north-weir-dc2.csv")
+	if w.code != 0 || !strings.Contains(w.stdout, "start (UTC)") {
+		t.Errorf("--format wide: exit %d\n%s", w.code, w.stdout)
+	}
+}

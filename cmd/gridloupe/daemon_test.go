@@ -328,6 +328,11 @@ func TestExportReadsStore(t *testing.T) {
 	if r := runCmd("export", "--store", filepath.Join(dir, "gl.db"), "--interval", "5min"); r.code != 2 {
 		t.Errorf("bad interval: exit %d, want 2", r.code)
 	}
+	// for people: per-phase blocks with the site's IEEE 519 reference
+	r = runCmd("export", "--store", filepath.Join(dir, "gl.db"), "--interval", "3s", "--format", "table", "--config", cfg)
+	if r.code != 0 || strings.Count(r.stdout, "\n3s ") < 10 || !strings.Contains(r.stdout, "TDD %<8") || !strings.Contains(r.stdout, "CAUTION") {
+		t.Errorf("export --format table: exit %d, want 10 blocks of 3 s with the TDD limit (IEEE 519-2014 Table 2 row 20<50: 8 %%):\n%s%s", r.code, r.stdout, r.stderr)
+	}
 }
 
 func readFile(t *testing.T, p string) string {

@@ -7,6 +7,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -17,6 +18,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/limits"
 	"github.com/gridloupe/gridloupe/stream"
 	"github.com/gridloupe/gridloupe/stream/encode"
 	"github.com/gridloupe/gridloupe/stream/input"
@@ -40,7 +42,7 @@ func cmdReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	fs := flag.NewFlagSet("replay", flag.ContinueOnError)
 	cfgPath := fs.String("config", "", "config `FILE` (YAML); required")
 	ivName := fs.String("interval", "200ms", "interval to print: "+strings.Join(metrics.IntervalLabels()[:3], ", "))
-	format := fs.String("format", "jsonl", "output format: jsonl (unrounded), csv, or table (rounded, for people)")
+	format := fs.String("format", "jsonl", "output format: jsonl (unrounded), csv, table (per-phase blocks for people, with the IEEE 519 reference) or wide (one row per record)")
 	startStr := fs.String("start", "", "wall time of the first sample, RFC 3339 (default 1970-01-01T00:00:00Z)")
 	progress := fs.Bool("progress", true, "show a progress bar on stderr when it is a terminal")
 	fs.Usage = func() {
@@ -63,7 +65,7 @@ func cmdReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	}
 	fmtKind, ok := encode.ParseFormat(*format)
 	if !ok {
-		return usagef("replay: --format %q: allowed are jsonl, csv, table", *format)
+		return usagef("replay: --format %q: allowed are %s", *format, strings.Join(encode.FormatNames(), ", "))
 	}
 	var base time.Time
 	if *startStr != "" {
@@ -177,15 +179,37 @@ type recordWriter interface {
 }
 
 func newEncoder(k encode.Format, w io.Writer, s *metrics.Setup, cfg *config.Config) (recordWriter, error) {
-	switch k {
-	case encode.FormatJSONL:
-		return encode.NewJSONL(w, s), nil
-	case encode.FormatCSV:
-		return encode.NewCSV(w, s), nil
-	case encode.FormatTable:
-		return encode.NewTable(w, s, encode.TableOptions{Title: cfg.Site}), nil
+	enc, err := encode.New(k, w, s, encode.TableOptions{Title: cfg.Site, Reference: ieeeReference(cfg)})
+	if err != nil {
+		return nil, &usageError{err}
 	}
-	return nil, usagef("unknown format")
+	return enc, nil
+}
+
+// ieeeReference is the IEEE 519-2014 reference of the config's site for
+// the tables: Table 1 by the bus voltage, Table 2 by isc_a/il_a (the
+// strictest row without isc_a; no TDD limit without il_a).
+func ieeeReference(cfg *config.Config) *encode.Reference {
+	if !(cfg.Nominal.VoltageV > 0) {
+		return nil
+	}
+	bus := cfg.Nominal.VoltageV
+	if cfg.Wiring != config.WiringSinglePhase {
+		bus *= math.Sqrt(3) // wye: the row goes by the line-to-line bus voltage
+	}
+	_, vthd := limits.VoltageLimits(bus)
+	ref := &encode.Reference{Edition: limits.Edition, BusV: bus, VTHDPct: vthd}
+	if cfg.ILA > 0 {
+		ratio := math.NaN()
+		ref.IRowWhy = "isc_a unknown: the strictest row"
+		if cfg.IscA > 0 {
+			ratio = cfg.IscA / cfg.ILA
+			ref.IRowWhy = fmt.Sprintf("ISC/IL %.1f", ratio)
+		}
+		row := limits.CurrentLimits(ratio)
+		ref.IRow, ref.TDDPct = row.RatioLabel, row.TDD
+	}
+	return ref
 }
 
 // openInput opens a CSV or WAV source by file extension. It returns the

@@ -25,6 +25,7 @@ import (
 	"github.com/gridloupe/gridloupe/stream"
 	"github.com/gridloupe/gridloupe/stream/gateway"
 	"github.com/gridloupe/gridloupe/stream/input"
+	"github.com/gridloupe/gridloupe/stream/live"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
 	"github.com/gridloupe/gridloupe/stream/mqtt/broker"
 	"github.com/gridloupe/gridloupe/stream/sim"
@@ -37,7 +38,9 @@ Runs the gateway until SIGINT or SIGTERM: reads the configured source
 3 s, 10 min and 2 h aggregates in the bbolt store (store.path), raises and
 clears the configured alarms, and publishes status, telemetry and alarms over
 MQTT through the store's outbox (mqtt.broker; "embedded" starts a broker in
-the process on loopback). Exit status: 0 after a signal, 0 when a csv or
+the process on loopback). With a modbus or http section it also serves the
+latest values over Modbus TCP and HTTP (see the README). Exit status: 0
+after a signal, 0 when a csv or
 wav source reaches its end (and after --stop-after), 1 when the simulator
 stops otherwise, a source fails or the store cannot be opened, 2 for config
 errors.
@@ -339,10 +342,15 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			d.pub.SetProblem("store: " + err.Error())
 		}
 	}
+	integ, err := startIntegration(cfg, setup, func() live.Health { return daemonHealth(d, db) }, log)
+	if err != nil {
+		return err
+	}
+	defer integ.Close()
 	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError,
 		Store: db, Alarms: ev, Telemetry: tele, TelemetryQoS: teleQoS, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
 		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("component", "gateway"),
-		OnRecord: onRecord, OnTransition: o.onTransition, OnStoreError: onStoreErr, Notice: storeNotice})
+		OnRecord: integ.onRecord(onRecord), OnTransition: o.onTransition, OnStoreError: onStoreErr, Notice: storeNotice})
 	if err != nil {
 		return err
 	}
