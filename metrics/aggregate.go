@@ -329,7 +329,10 @@ func (a *Aggregator) channel(g *agg, i int, cv *ChannelValues) {
 			cv.THDH50Pct = g.def(100 * math.Sqrt(h50) / x1)
 		}
 	} else {
-		cv.THDPct = g.def(Null())
+		cv.THDPct = Null()
+		if !s.naturalFloor(i) {
+			cv.THDPct = g.def(Null())
+		}
 		if s.AllOrders {
 			cv.THDH50Pct = Null()
 		}

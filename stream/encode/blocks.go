@@ -191,7 +191,7 @@ func (b *Blocks) Write(r *metrics.Record) error {
 			buf = b.rowValues(buf, nul, v.RMS, nul, b.current(v), 0, 0, nul, nul, nul, nul)
 		}
 	}
-	if len(b.s.Pairs) > 1 {
+	if b.s.Wiring != metrics.SinglePhase { // single-phase: the total is the phase
 		t := &r.Total
 		buf = pad(buf, []byte("total"), bwLabel, true)
 		nul := metrics.Null()
