@@ -42,10 +42,10 @@ type Config struct {
 	// TelemetryQoS is the MQTT QoS per telemetry level; a level absent
 	// here is published at QoS 1 (deleted from the outbox on PUBACK).
 	TelemetryQoS map[metrics.Interval]byte
-	Base      string // topic base <prefix>/<site>/<gateway>; "" = nothing is queued for MQTT
-	Site      string
-	Gateway   string
-	Kick      func() // wakes the publisher after messages were queued; nil = none
+	Base         string // topic base <prefix>/<site>/<gateway>; "" = nothing is queued for MQTT
+	Site         string
+	Gateway      string
+	Kick         func() // wakes the publisher after messages were queued; nil = none
 
 	CommitEvery time.Duration    // aggregate batch period (wall time); 0 = 60 s
 	QueueLen    int              // records between the two goroutines; 0 = 256
