@@ -102,6 +102,7 @@ type MQTT struct {
 	TLS          TLS      // certificate files for ssl:// brokers
 	TopicPrefix  string   // one or more topic levels separated by '/'; default "gridloupe"
 	Telemetry    []string // interval labels published; default ["10min"]; from 3s, 10min, 2h
+	Summary      []string // interval labels whose slim summary is published retained on …/summary/<interval>; default ["10min"]
 	Base         string   // added: "<prefix>/<site level>/<gateway level>", sanitized; topics are Base+"/status" and so on
 }
 

@@ -29,7 +29,7 @@ var sections = map[string][]string{
 	"store":           {"path", "commit_every", "max_size_mb", "retention"},
 	"store.retention": {"3s", "10min", "2h"},
 	"mqtt": {"broker", "listen", "client_id", "username", "password_file", "password_env", "tls",
-		"topic_prefix", "telemetry"},
+		"topic_prefix", "telemetry", "summary"},
 	"mqtt.tls": {"ca", "cert", "key"},
 	"modbus":   {"listen", "unit_id", "word_order"},
 	"http":     {"listen"},
@@ -592,20 +592,28 @@ func (d *decoder) mqtt(n *yaml.Node, path string, m *MQTT) *Error {
 		case "topic_prefix":
 			return d.str(v, p, &m.TopicPrefix)
 		case "telemetry":
-			m.Telemetry = []string{}
-			return d.sequence(v, p, "interval labels (3s, 10min, 2h), such as [10min]", len(telemetryLevels), func(_ int, v *yaml.Node, ip string) *Error {
-				var l string
-				if e := d.enum(v, ip, &l, telemetryLevels...); e != nil {
-					return e
-				}
-				if slices.Contains(m.Telemetry, l) {
-					return d.errf(v, ip, "%s is listed twice", l)
-				}
-				m.Telemetry = append(m.Telemetry, l)
-				return nil
-			})
+			return d.levels(v, p, &m.Telemetry)
+		case "summary":
+			return d.levels(v, p, &m.Summary)
 		}
 		return d.errf(v, p, "internal: key has no decoder")
+	})
+}
+
+// levels decodes a list of published interval labels (mqtt.telemetry,
+// mqtt.summary) into *dst.
+func (d *decoder) levels(v *yaml.Node, p string, dst *[]string) *Error {
+	*dst = []string{}
+	return d.sequence(v, p, "interval labels (3s, 10min, 2h), such as [10min]", len(telemetryLevels), func(_ int, v *yaml.Node, ip string) *Error {
+		var l string
+		if e := d.enum(v, ip, &l, telemetryLevels...); e != nil {
+			return e
+		}
+		if slices.Contains(*dst, l) {
+			return d.errf(v, ip, "%s is listed twice", l)
+		}
+		*dst = append(*dst, l)
+		return nil
 	})
 }
 

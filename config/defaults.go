@@ -72,6 +72,7 @@ mqtt:
     key: ""
   topic_prefix: gridloupe  # one or more topic levels separated by /; no +, # or leading $
   telemetry: [10min]       # levels published, from 3s, 10min, 2h; [] = none
+  summary: [10min]         # levels whose slim summary (< 1 KB, for a BMS) is published retained, QoS 1; [] = none
 
 alarms: []
 # alarms:                          # alarm rules; raised and cleared over MQTT with hysteresis

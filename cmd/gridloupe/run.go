@@ -306,6 +306,12 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			tele = append(tele, iv)
 		}
 	}
+	var summ []metrics.Interval
+	for _, l := range cfg.MQTT.Summary {
+		if iv, ok := metrics.ParseInterval(l); ok {
+			summ = append(summ, iv)
+		}
+	}
 	pc := pipelineConfig(cfg, setup, cal, rate)
 	pc.Base = now().UTC()
 	if d.sim != nil {
@@ -339,7 +345,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	}
 	defer integ.Close()
 	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError,
-		Store: db, Alarms: ev, Telemetry: tele, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
+		Store: db, Alarms: ev, Telemetry: tele, Summary: summ, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
 		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("component", "gateway"),
 		OnRecord: integ.onRecord(onRecord), OnTransition: o.onTransition, OnStoreError: onStoreErr})
 	if err != nil {

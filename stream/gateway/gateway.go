@@ -39,7 +39,8 @@ type Config struct {
 	Alarms    *alarm.Evaluator // nil = no alarm rules
 	Channels  []string         // channel names, for alarm payloads; nil = from the setup
 	Telemetry []metrics.Interval
-	Base      string // topic base <prefix>/<site>/<gateway>; "" = nothing is queued for MQTT
+	Summary   []metrics.Interval // levels whose slim summary is published, retained (stream/summary)
+	Base      string             // topic base <prefix>/<site>/<gateway>; "" = nothing is queued for MQTT
 	Site      string
 	Gateway   string
 	Kick      func() // wakes the publisher after messages were queued; nil = none
@@ -125,6 +126,7 @@ type Gateway struct {
 	lastErr  string
 	alarmQ   []pendingAlarm // transitions whose commit failed, retried in order
 	telem    [5]bool
+	summ     [5]bool
 	persistS map[string]alarm.State
 }
 
@@ -155,6 +157,11 @@ func New(cfg Config) (*Gateway, error) {
 	for _, iv := range cfg.Telemetry {
 		if int(iv) < len(g.telem) {
 			g.telem[iv] = true
+		}
+	}
+	for _, iv := range cfg.Summary {
+		if int(iv) < len(g.summ) {
+			g.summ[iv] = true
 		}
 	}
 	g.done2h = -1 << 62
@@ -279,6 +286,9 @@ func (g *Gateway) handle(r *metrics.Record) {
 		g.msgs = append(g.msgs, store.Message{Class: store.ClassTelemetry, QoS: 0,
 			Topic:   g.cfg.Base + "/" + levelTelemetry + "/" + r.Interval.String(),
 			Payload: telemetryPayload(nil, g.cfg.Site, g.cfg.Gateway, g.setup, r)})
+	}
+	if g.cfg.Base != "" && int(r.Interval) < len(g.summ) && g.summ[r.Interval] {
+		g.msgs = append(g.msgs, summaryMessage(g.cfg.Base, g.cfg.Site, g.cfg.Gateway, g.setup, r))
 	}
 	if g.cfg.OnRecord != nil {
 		var active []string
