@@ -39,11 +39,14 @@ type Config struct {
 	Alarms    *alarm.Evaluator // nil = no alarm rules
 	Channels  []string         // channel names, for alarm payloads; nil = from the setup
 	Telemetry []metrics.Interval
-	Summary   []metrics.Interval // levels whose slim summary is published, retained (stream/summary)
-	Base      string             // topic base <prefix>/<site>/<gateway>; "" = nothing is queued for MQTT
-	Site      string
-	Gateway   string
-	Kick      func() // wakes the publisher after messages were queued; nil = none
+	Summary []metrics.Interval // levels whose slim summary is published, retained (stream/summary)
+	// TelemetryQoS is the MQTT QoS per telemetry level; a level absent
+	// here is published at QoS 1 (deleted from the outbox on PUBACK).
+	TelemetryQoS map[metrics.Interval]byte
+	Base         string // topic base <prefix>/<site>/<gateway>; "" = nothing is queued for MQTT
+	Site         string
+	Gateway      string
+	Kick         func() // wakes the publisher after messages were queued; nil = none
 
 	CommitEvery time.Duration    // aggregate batch period (wall time); 0 = 60 s
 	QueueLen    int              // records between the two goroutines; 0 = 256
@@ -62,6 +65,9 @@ type Config struct {
 	// in its MQTT status), and with nil when writes succeed again;
 	// measurement goes on either way.
 	OnStoreError func(err error)
+	// Notice is news from start-up (a damaged store set aside) that the
+	// first health message carries; "" = none.
+	Notice string
 }
 
 // Store is what the gateway needs of the bbolt store (*store.DB).
@@ -93,6 +99,7 @@ type Health struct {
 	Stored, Dropped uint64
 	Losses          []ClassCount
 	StoreErr        string
+	Notice          string // Config.Notice, in the first health message only
 }
 
 // ClassCount is one outbox class's loss count.
@@ -283,7 +290,7 @@ func (g *Gateway) handle(r *metrics.Record) {
 	}()
 	g.evaluate(r)
 	if g.cfg.Base != "" && int(r.Interval) < len(g.telem) && g.telem[r.Interval] {
-		g.msgs = append(g.msgs, store.Message{Class: store.ClassTelemetry, QoS: 0,
+		g.msgs = append(g.msgs, store.Message{Class: store.ClassTelemetry, QoS: g.telemetryQoS(r.Interval),
 			Topic:   g.cfg.Base + "/" + levelTelemetry + "/" + r.Interval.String(),
 			Payload: telemetryPayload(nil, g.cfg.Site, g.cfg.Gateway, g.setup, r)})
 	}
@@ -440,7 +447,8 @@ func (g *Gateway) commit() {
 // record's end on the sample clock, the clock of every queued message.
 func (g *Gateway) healthMessage(at time.Time) store.Message {
 	st := g.cfg.Store.Stats()
-	h := Health{StoreBytes: st.FileBytes, Stored: g.stored.Load(), Dropped: g.dropped.Load(), StoreErr: g.lastErr}
+	h := Health{StoreBytes: st.FileBytes, Stored: g.stored.Load(), Dropped: g.dropped.Load(), StoreErr: g.lastErr, Notice: g.cfg.Notice}
+	g.cfg.Notice = ""
 	losses := g.cfg.Store.Losses()
 	for _, c := range []store.Class{store.ClassTelemetry, store.ClassEventWaveform, store.ClassEvent, store.ClassAlarm} {
 		h.Losses = append(h.Losses, ClassCount{c.String(), losses[c]})
@@ -475,4 +483,16 @@ func (g *Gateway) kick() {
 	if g.cfg.Kick != nil {
 		g.cfg.Kick()
 	}
+}
+
+// DefaultTelemetryQoS is the QoS of a telemetry level Config.TelemetryQoS
+// does not name: 1, so a message in flight when the broker goes away is
+// resent rather than deleted as delivered.
+const DefaultTelemetryQoS = 1
+
+func (g *Gateway) telemetryQoS(iv metrics.Interval) byte {
+	if q, ok := g.cfg.TelemetryQoS[iv]; ok {
+		return q
+	}
+	return DefaultTelemetryQoS
 }
