@@ -13,13 +13,7 @@ import (
 	"github.com/gridloupe/gridloupe/metrics/alarm"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream"
-)
-
-// Topic levels below the gateway's base (DESIGN: our own layout).
-const (
-	levelTelemetry = "telemetry"
-	levelAlarm     = "alarm"
-	levelHealth    = "health"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 // Config configures a Gateway. Zero values are documented per field.
@@ -291,7 +285,7 @@ func (g *Gateway) handle(r *metrics.Record) {
 	g.evaluate(r)
 	if g.cfg.Base != "" && int(r.Interval) < len(g.telem) && g.telem[r.Interval] {
 		g.msgs = append(g.msgs, store.Message{Class: store.ClassTelemetry, QoS: g.telemetryQoS(r.Interval),
-			Topic:   g.cfg.Base + "/" + levelTelemetry + "/" + r.Interval.String(),
+			Topic:   topic.Telemetry(g.cfg.Base, r.Interval.String()),
 			Payload: telemetryPayload(nil, g.cfg.Site, g.cfg.Gateway, g.setup, r)})
 	}
 	if g.cfg.Base != "" && int(r.Interval) < len(g.summ) && g.summ[r.Interval] {
@@ -325,7 +319,7 @@ func (g *Gateway) evaluate(r *metrics.Record) {
 		st := states[t.Rule]
 		ch := g.ruleChannel(t.Rule)
 		msg := store.Message{Class: store.ClassAlarm, QoS: 1,
-			Topic: g.cfg.Base + "/" + levelAlarm, Payload: alarmPayload(g.cfg.Site, g.cfg.Gateway, t, ch)}
+			Topic: topic.Alarm(g.cfg.Base), Payload: alarmPayload(g.cfg.Site, g.cfg.Gateway, t, ch)}
 		g.commitAlarm(pendingAlarm{st: toStore(t.Rule, st, t.Severity), msg: msg, withMsg: g.cfg.Base != ""})
 		state := "cleared"
 		if t.Raised {
@@ -453,7 +447,7 @@ func (g *Gateway) healthMessage(at time.Time) store.Message {
 	for _, c := range []store.Class{store.ClassTelemetry, store.ClassEventWaveform, store.ClassEvent, store.ClassAlarm} {
 		h.Losses = append(h.Losses, ClassCount{c.String(), losses[c]})
 	}
-	return store.Message{Class: store.ClassEvent, QoS: 1, Topic: g.cfg.Base + "/" + levelHealth,
+	return store.Message{Class: store.ClassEvent, QoS: 1, Topic: topic.Health(g.cfg.Base),
 		Payload: healthPayload(g.cfg.Site, g.cfg.Gateway, at, h)}
 }
 
