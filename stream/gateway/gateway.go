@@ -33,7 +33,7 @@ type Config struct {
 	Alarms    *alarm.Evaluator // nil = no alarm rules
 	Channels  []string         // channel names, for alarm payloads; nil = from the setup
 	Telemetry []metrics.Interval
-	Summary []metrics.Interval // levels whose slim summary is published, retained (stream/summary)
+	Summary   []metrics.Interval // levels whose slim summary is published, retained (stream/summary)
 	// TelemetryQoS is the MQTT QoS per telemetry level; a level absent
 	// here is published at QoS 1 (deleted from the outbox on PUBACK).
 	TelemetryQoS map[metrics.Interval]byte
