@@ -52,7 +52,7 @@ func TestParseGood(t *testing.T) {
 					Channels: []Channel{{Name: "va", Kind: "voltage", Phase: "a", Scale: 1, Line: 3, Level: "va"}},
 					Store: Store{CommitEvery: 60 * time.Second, MaxSizeMB: 512, Retention: map[string]time.Duration{
 						"3s": 168 * time.Hour, "10min": 9600 * time.Hour, "2h": 87600 * time.Hour}, OnDamage: "set_aside"},
-					MQTT: MQTT{ClientID: "dc2-gw1", TopicPrefix: "gridloupe", Telemetry: []string{"10min"},
+					MQTT: MQTT{ClientID: "dc2-gw1", TopicPrefix: "gridloupe", Telemetry: []string{"10min"}, Summary: []string{"10min"},
 						TelemetryQoS: map[string]int{"3s": 1, "10min": 1, "2h": 1}, // README, MQTT: QoS 1 by default
 						Base:         "gridloupe/site/dc2-gw1"},
 					Modbus: Modbus{Listen: "127.0.0.1:5020", UnitID: 1, WordOrder: "high_first"},
