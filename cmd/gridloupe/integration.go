@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"log/slog"
+	"math"
 	"sync"
 
 	"github.com/gridloupe/gridloupe/config"
@@ -13,6 +14,7 @@ import (
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/live"
 	"github.com/gridloupe/gridloupe/stream/modbus"
+	"github.com/gridloupe/gridloupe/stream/web"
 )
 
 const modbusMapHelp = `Usage: gridloupe modbus-map --config FILE
@@ -108,7 +110,48 @@ func startIntegration(cfg *config.Config, setup *metrics.Setup, health func() li
 			}
 		}()
 	}
+	if cfg.HTTP.Enabled {
+		alarms := make([]web.Alarm, len(cfg.Alarms))
+		for i, a := range cfg.Alarms {
+			alarms[i] = web.Alarm{Name: a.Name, Severity: a.Severity}
+		}
+		srv, err := web.New(web.Config{Addr: cfg.HTTP.Listen, Board: in.board, Site: cfg.Site, Gateway: cfg.Gateway,
+			Alarms: alarms, BusV: busVoltage(cfg), IscOverIL: iscOverIL(cfg), IL: cfg.ILA, Logger: log.With("component", "http")})
+		if err == nil {
+			err = srv.Listen()
+		}
+		if err != nil {
+			cancel()
+			in.wg.Wait()
+			return nil, fmt.Errorf("http: %w", err)
+		}
+		log.Info("HTTP listening (/, /metrics, /api/latest)", "addr", srv.Addr())
+		in.wg.Add(1)
+		go func() {
+			defer in.wg.Done()
+			if err := srv.Run(ctx); err != nil {
+				log.Warn("http server stopped", "err", err)
+			}
+		}()
+	}
 	return in, nil
+}
+
+// busVoltage is the bus voltage that selects the IEEE 519 Table 1 row:
+// line-to-line for wye (√3 × the declared phase-to-neutral voltage).
+func busVoltage(cfg *config.Config) float64 {
+	if cfg.Wiring == config.WiringSinglePhase {
+		return cfg.Nominal.VoltageV
+	}
+	return cfg.Nominal.VoltageV * math.Sqrt(3)
+}
+
+// iscOverIL is the ratio that selects the Table 2 row; NaN when unknown.
+func iscOverIL(cfg *config.Config) float64 {
+	if cfg.IscA > 0 && cfg.ILA > 0 {
+		return cfg.IscA / cfg.ILA
+	}
+	return math.NaN()
 }
 
 // onRecord feeds the board and then calls next (the demo's hook), if any.
@@ -132,7 +175,7 @@ func daemonHealth(d *daemon, db *store.DB) live.Health {
 	var h live.Health
 	if d.gw != nil {
 		st := d.gw.Stats()
-		h.RecordsStored, h.RecordsDropped, h.Windows = st.Stored, st.Dropped, st.Windows
+		h.RecordsStored, h.RecordsDropped, h.Windows, h.StoreErrors = st.Stored, st.Dropped, st.Windows, st.StoreErrors
 	}
 	st := db.Stats()
 	h.StoreBytes = st.FileBytes

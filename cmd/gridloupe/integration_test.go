@@ -5,17 +5,22 @@ import (
 	"context"
 	"encoding/csv"
 	"fmt"
+	"io"
 	"math"
 	"net"
+	"net/http"
 	"os"
 	"os/exec"
 	"path/filepath"
+	"regexp"
 	"strconv"
 	"strings"
 	"syscall"
 	"testing"
 	"time"
 
+	"github.com/prometheus/common/expfmt"
+	"github.com/prometheus/common/model"
 	mb "github.com/simonvetter/modbus"
 )
 
@@ -197,5 +202,98 @@ func TestReadmeRegisterExcerpt(t *testing.T) {
 		if !rows[l] {
 			t.Errorf("README excerpt row %q is not in modbus-map's output", l)
 		}
+	}
+}
+
+// headless runs Debian's chromium headless with a fresh profile and the
+// flags that keep it off the network, and returns its stdout.
+func headless(t *testing.T, args ...string) []byte {
+	t.Helper()
+	bin := needTool(t, "chromium")
+	base := []string{"--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+		"--disable-component-update", "--disable-sync", "--no-first-run", "--user-data-dir=" + t.TempDir(),
+		"--virtual-time-budget=5000"}
+	ctx, cancel := context.WithTimeout(context.Background(), 90*time.Second)
+	defer cancel()
+	cmd := exec.CommandContext(ctx, bin, append(base, args...)...)
+	var out, errb bytes.Buffer
+	cmd.Stdout, cmd.Stderr = &out, &errb
+	if err := cmd.Run(); err != nil {
+		t.Fatalf("chromium %v: %v\n%s", args, err, errb.String())
+	}
+	return out.Bytes()
+}
+
+// shotDir is where screenshot tests also leave their PNGs when
+// GRIDLOUPE_SHOTS names a folder (how the README's pictures are made).
+func shotDir(t *testing.T) string {
+	if d := os.Getenv("GRIDLOUPE_SHOTS"); d != "" {
+		return d
+	}
+	return t.TempDir()
+}
+
+func TestHTTPAgainstRunningGateway(t *testing.T) {
+	if testing.Short() && os.Getenv("CI") == "" {
+		t.Skip("starts the daemon and a browser; runs in CI and without -short")
+	}
+	needTool(t, "chromium")
+	dir := t.TempDir()
+	haddr := freePort(t)
+	cfgPath := integrationConfig(t, dir, freePort(t), haddr)
+	p := startDaemon(t, "run", "--config", cfgPath)
+	base := "http://" + haddr
+	var body []byte
+	deadline := time.Now().Add(30 * time.Second)
+	for {
+		resp, err := http.Get(base + "/metrics")
+		if err == nil {
+			body, _ = io.ReadAll(resp.Body)
+			resp.Body.Close()
+			if bytes.Contains(body, []byte("gridloupe_frequency_hertz{")) && bytes.Contains(body, []byte(`level="10min"`)) {
+				break
+			}
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("no 3 s and 10 min values on /metrics within 30 s; stderr:\n%s", p.stderr)
+		}
+		time.Sleep(200 * time.Millisecond)
+	}
+	tp := expfmt.NewTextParser(model.UTF8Validation)
+	fams, err := tp.TextToMetricFamilies(bytes.NewReader(body))
+	if err != nil {
+		t.Fatalf("/metrics is not valid Prometheus text: %v", err)
+	}
+	for _, name := range []string{"gridloupe_frequency_hertz", "gridloupe_rms_volts", "gridloupe_power_factor_ratio", "gridloupe_tdd_h50_ratio",
+		"gridloupe_alarm_active", "gridloupe_records_stored_total", "gridloupe_outbox_messages", "gridloupe_store_bytes"} {
+		if fams[name] == nil {
+			t.Errorf("/metrics lacks %s", name)
+		}
+	}
+	// The page, rendered in a real browser: it fetches /api/latest and
+	// draws the per-phase table (3 phases), six phasors and the bars of
+	// six spectra (49 orders each, fewer where a value is null).
+	dom := headless(t, "--window-size=1200,1400", "--dump-dom", base+"/")
+	m := regexp.MustCompile(`data-drawn="(\d+),(\d+),(\d+)"`).FindSubmatch(dom)
+	if m == nil {
+		t.Fatalf("the page drew nothing (no data-drawn attribute):\n%.2000s", dom)
+	}
+	if string(m[1]) != "3" || string(m[2]) != "6" {
+		t.Errorf("drew %s phases and %s phasors, want 3 and 6", m[1], m[2])
+	}
+	if bars, _ := strconv.Atoi(string(m[3])); bars < 6*40 {
+		t.Errorf("drew %d spectrum bars, want about 6 × 49", bars)
+	}
+	shots := shotDir(t)
+	png := filepath.Join(shots, "status-page.png")
+	headless(t, "--window-size=1200,1150", "--screenshot="+png, base+"/")
+	if fi, err := os.Stat(png); err != nil || fi.Size() < 20000 {
+		t.Errorf("screenshot %s: %v (size %d), want a drawn page", png, err, fi.Size())
+	}
+	if err := p.cmd.Process.Signal(syscall.SIGTERM); err != nil {
+		t.Fatal(err)
+	}
+	if code, _ := p.wait(t, 20*time.Second); code != 0 {
+		t.Errorf("exit %d after SIGTERM, want 0; stderr:\n%s", code, p.stderr)
 	}
 }

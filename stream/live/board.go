@@ -20,7 +20,7 @@ type Health struct {
 	RecordsDropped uint64 // aggregates a live source's full queue dropped
 	OutboxDepth    int    // messages waiting in the MQTT outbox
 	StoreBytes     int64  // store file size
-	StoreError     string // the last store write error; "" when writes succeed
+	StoreErrors    uint64 // store writes that failed since start
 	Windows        uint64 // measurement windows computed
 	MQTTConnected  bool
 }
