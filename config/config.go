@@ -89,20 +89,29 @@ type Store struct {
 	CommitEvery time.Duration            // batch period for aggregates; default 60s
 	MaxSizeMB   int                      // hard cap of the file, MiB; default 512
 	Retention   map[string]time.Duration // keyed by "3s", "10min", "2h"; defaults 168h, 9600h, 87600h
+	OnDamage    string                   // a damaged file at start: OnDamageSetAside (default) or OnDamageFail
 }
+
+// Values of store.on_damage.
+const (
+	OnDamageSetAside = "set_aside" // rename the file to <path>.damaged-<UTC time>, start a fresh one, keep measuring
+	OnDamageFail     = "fail"      // exit 1 with the message
+)
 
 // MQTT configures the broker connection and topics.
 type MQTT struct {
-	Broker       string   // "" = off, "tcp://host:port", "ssl://host:port" or "embedded"
-	Listen       string   // embedded broker only: host:port it listens on; default 127.0.0.1:1883 (a non-loopback address needs TLS and credentials)
-	ClientID     string   // default: the gateway name
-	Username     string   // "" = none
-	PasswordFile string   // file holding the password (resolved against the config's folder); never logged
-	PasswordEnv  string   // or: environment variable holding it
-	TLS          TLS      // certificate files for ssl:// brokers
-	TopicPrefix  string   // one or more topic levels separated by '/'; default "gridloupe"
-	Telemetry    []string // interval labels published; default ["10min"]; from 3s, 10min, 2h
-	Base         string   // added: "<prefix>/<site level>/<gateway level>", sanitized; topics are Base+"/status" and so on
+	Broker       string         // "" = off, "tcp://host:port", "ssl://host:port" or "embedded"
+	Listen       string         // embedded broker only: host:port it listens on; default 127.0.0.1:1883 (a non-loopback address needs TLS and credentials)
+	ClientID     string         // default: the gateway name
+	Username     string         // "" = none
+	PasswordFile string         // file holding the password (resolved against the config's folder); never logged
+	PasswordEnv  string         // or: environment variable holding it
+	TLS          TLS            // certificate files for ssl:// brokers
+	TopicPrefix  string         // one or more topic levels separated by '/'; default "gridloupe"
+	Telemetry    []string       // interval labels published; default ["10min"]; from 3s, 10min, 2h
+	TelemetryQoS map[string]int // MQTT QoS per interval label, 0..2; default 1 for every level
+	Summary      []string       // interval labels whose slim summary is published retained on …/summary/<interval>; default ["10min"]
+	Base         string         // added: "<prefix>/<site level>/<gateway level>", sanitized; topics are Base+"/status" and so on
 }
 
 // TLS names PEM files (resolved against the config's folder). Cert and Key

@@ -54,6 +54,7 @@ store:
   path: ""                 # bbolt file; "" = not configured
   commit_every: 60s        # aggregates are batched; alarm transitions commit at once; more than 0
   max_size_mb: 512         # hard cap in MiB, 1..2047 (the whole file is memory-mapped)
+  on_damage: set_aside     # a damaged file at start: set_aside (rename it, start fresh, keep measuring) | fail
   retention:               # how long each level is kept; more than 0
     3s: 168h
     10min: 9600h
@@ -72,6 +73,8 @@ mqtt:
     key: ""
   topic_prefix: gridloupe  # one or more topic levels separated by /; no +, # or leading $
   telemetry: [10min]       # levels published, from 3s, 10min, 2h; [] = none
+  telemetry_qos: {3s: 1, 10min: 1, 2h: 1}  # MQTT QoS per level, 0..2; 1 = kept until the broker acknowledges
+  summary: [10min]         # levels whose slim summary (< 1 KB, for a BMS) is published retained, QoS 1; [] = none
 
 alarms: []
 # alarms:                          # alarm rules; raised and cleared over MQTT with hysteresis

@@ -162,6 +162,9 @@ var badCases = []badCase{
 	{name: "max_size_mb zero", doc: hdr1 + "store: {max_size_mb: 0}\n", line: 4, key: "store.max_size_mb", phrase: "allowed: 1 to 2047", src: "bbolt maxMapSize on 32-bit targets (just under 2 GiB)"},
 	{name: "max_size_mb huge", doc: hdr1 + "store: {max_size_mb: 99999999999}\n", line: 4, key: "store.max_size_mb", phrase: "allowed: 1 to 2047", src: "bbolt maxMapSize on 32-bit targets (just under 2 GiB)"},
 	{name: "max_size_mb fraction", doc: hdr1 + "store: {max_size_mb: 1.5}\n", line: 4, key: "store.max_size_mb", phrase: "must be a whole number", src: srcBrief},
+	{name: "on_damage unknown", doc: hdr1 + "store: {on_damage: delete}\n", line: 4, key: "store.on_damage", phrase: "use one of: set_aside, fail", src: "README, The store: on_damage values"},
+	{name: "telemetry_qos 3", doc: hdr1 + "mqtt: {telemetry_qos: {3s: 3}}\n", line: 4, key: "mqtt.telemetry_qos.3s", phrase: "allowed: 0 to 2", src: "MQTT 3.1.1 section 4.3: QoS levels 0, 1 and 2"},
+	{name: "telemetry_qos level", doc: hdr1 + "mqtt: {telemetry_qos: {1min: 1}}\n", line: 4, key: "mqtt.telemetry_qos.1min", phrase: "unknown key", src: srcBrief},
 
 	// mqtt.
 	{name: "both password sources", doc: hdr1 + "mqtt: {username: u, password_file: p, password_env: P}\n", line: 4, key: "mqtt.password_env", phrase: "set password_file or password_env, not both", src: srcBrief},

@@ -59,8 +59,8 @@ func parse(path string, data []byte, hostname func() (string, error)) (*Config, 
 		Wiring:     WiringWye,
 		Harmonics:  Harmonics{All: true},
 		LockMinPct: defaultLockMinPct,
-		Store:      Store{CommitEvery: defaultCommitEvery, MaxSizeMB: defaultMaxSizeMB, Retention: defaultRetention()},
-		MQTT:       MQTT{TopicPrefix: defaultPrefix, Telemetry: []string{defaultLevel}},
+		Store:      Store{CommitEvery: defaultCommitEvery, MaxSizeMB: defaultMaxSizeMB, Retention: defaultRetention(), OnDamage: OnDamageSetAside},
+		MQTT:       MQTT{TopicPrefix: defaultPrefix, Telemetry: []string{defaultLevel}, TelemetryQoS: defaultTelemetryQoS(), Summary: []string{defaultLevel}},
 		Modbus:     Modbus{Listen: defaultModbusListen, UnitID: 1, WordOrder: WordHighFirst},
 		HTTP:       HTTP{Listen: defaultHTTPListen},
 		Demand:     Demand{Interval: defaultDemand, Method: DemandFixed},
@@ -355,6 +355,12 @@ func (v *validator) source() *Error {
 	}
 	v.resolve(&s.Path)
 	return nil
+}
+
+// defaultTelemetryQoS is QoS 1 for every level: a message is deleted from
+// the outbox only once the broker acknowledged it.
+func defaultTelemetryQoS() map[string]int {
+	return map[string]int{"3s": 1, "10min": 1, "2h": 1}
 }
 
 func (v *validator) store() *Error {

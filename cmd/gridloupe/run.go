@@ -143,8 +143,8 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			ret[iv] = v
 		}
 	}
-	db, err := store.Open(store.Options{Path: cfg.Store.Path, MaxSizeMB: cfg.Store.MaxSizeMB, Retention: ret,
-		Logger: log.With("component", "store"), Clock: now})
+	db, storeNotice, err := openRunStore(store.Options{Path: cfg.Store.Path, MaxSizeMB: cfg.Store.MaxSizeMB, Retention: ret,
+		Logger: log.With("component", "store"), Clock: now}, cfg.Store.OnDamage, now(), log)
 	if err != nil {
 		return fmt.Errorf("cannot open the store: %w", err)
 	}
@@ -287,6 +287,9 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			return usagef("%s: mqtt: %v", cfg.Path, err)
 		}
 		d.pub = pub
+		if storeNotice != "" {
+			pub.SetNotice("store: " + storeNotice)
+		}
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
@@ -304,6 +307,18 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	for _, l := range cfg.MQTT.Telemetry {
 		if iv, ok := metrics.ParseInterval(l); ok {
 			tele = append(tele, iv)
+		}
+	}
+	var summ []metrics.Interval
+	for _, l := range cfg.MQTT.Summary {
+		if iv, ok := metrics.ParseInterval(l); ok {
+			summ = append(summ, iv)
+		}
+	}
+	teleQoS := map[metrics.Interval]byte{}
+	for l, q := range cfg.MQTT.TelemetryQoS {
+		if iv, ok := metrics.ParseInterval(l); ok {
+			teleQoS[iv] = byte(q)
 		}
 	}
 	pc := pipelineConfig(cfg, setup, cal, rate)
@@ -339,9 +354,9 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	}
 	defer integ.Close()
 	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError,
-		Store: db, Alarms: ev, Telemetry: tele, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
+		Store: db, Alarms: ev, Telemetry: tele, TelemetryQoS: teleQoS, Summary: summ, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
 		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("component", "gateway"),
-		OnRecord: integ.onRecord(onRecord), OnWindow: integ.onWindow, OnTransition: o.onTransition, OnStoreError: onStoreErr})
+		OnRecord: integ.onRecord(onRecord), OnWindow: integ.onWindow, OnTransition: o.onTransition, OnStoreError: onStoreErr, Notice: storeNotice})
 	if err != nil {
 		return err
 	}
