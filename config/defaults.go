@@ -39,7 +39,7 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 #     scale: 1.0           # engineering value = raw x scale + offset; never 0
 #     offset: 0.0
 #     full_scale: 0        # engineering units, enables the clipped flag; 0 = none
-#     delay_us: 0          # sampling skew or sensor lag to correct, microseconds (less than one cycle)
+#     delay_us: 0          # time the channel's sample lags the frame instant, microseconds (+ = sampled late; a sensor lagging by 40 µs is -40)
 # single-phase: one voltage on phase a, currents on a (and n).
 # wye: voltages on a, b, c; each phase with a current needs its voltage.
 # delta: line-to-line voltages; currents on two phases (the two-wattmeter hook-up:
