@@ -32,13 +32,14 @@ or their 3 s and 10 min aggregates (IEC 61000-4-30 aggregation).
 
 INPUT is a CSV file (a header row naming the config's channels, optional
 first column t in seconds, '#' comments) or a WAV file (16/24/32-bit PCM or
-32-bit float, channels in config order). Values are raw; the config's
+32-bit float, channels in config order); - reads CSV from standard input.
+Values are raw; the config's
 scale and offset turn them into volts and amperes.
 
 Flags:
 `
 
-func cmdReplay(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("replay", flag.ContinueOnError)
 	cfgPath := fs.String("config", "", "config `FILE` (YAML); required")
 	ivName := fs.String("interval", "200ms", "interval to print: "+strings.Join(metrics.IntervalLabels()[:3], ", "))
@@ -85,26 +86,13 @@ func cmdReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 		return err
 	}
 
-	f, err := os.Open(inPath)
+	r, closeIn, err := openReplayInput(inPath, stdin, stderr, *progress)
 	if err != nil {
-		return fmt.Errorf("input: %w", err)
+		return err
 	}
-	defer f.Close()
-	var size int64
-	if st, err := f.Stat(); err == nil {
-		size = st.Size()
-	}
-	var r io.Reader = f
-	if *progress && size > 0 && isTerminal(stderr) {
-		bar := progressbar.NewOptions64(size,
-			progressbar.OptionSetWriter(stderr),
-			progressbar.OptionSetDescription("replay "+filepath.Base(inPath)),
-			progressbar.OptionShowBytes(true),
-			progressbar.OptionThrottle(200*time.Millisecond),
-			progressbar.OptionClearOnFinish(),
-		)
-		defer bar.Finish()
-		r = io.TeeReader(f, bar)
+	defer closeIn()
+	if inPath == "-" {
+		inPath = "stdin"
 	}
 
 	names := make([]string, len(setup.Channels))
@@ -193,10 +181,7 @@ func ieeeReference(cfg *config.Config) *encode.Reference {
 	if !(cfg.Nominal.VoltageV > 0) {
 		return nil
 	}
-	bus := cfg.Nominal.VoltageV
-	if cfg.Wiring != config.WiringSinglePhase {
-		bus *= math.Sqrt(3) // wye: the row goes by the line-to-line bus voltage
-	}
+	bus := cfg.BusVoltageV()
 	_, vthd := limits.VoltageLimits(bus)
 	ref := &encode.Reference{Edition: limits.Edition, BusV: bus, VTHDPct: vthd}
 	if cfg.ILA > 0 {
@@ -210,6 +195,37 @@ func ieeeReference(cfg *config.Config) *encode.Reference {
 		ref.IRow, ref.TDDPct = row.RatioLabel, row.TDD
 	}
 	return ref
+}
+
+// openReplayInput opens replay's INPUT: a file, with a progress bar on a
+// terminal stderr when progress is set, or standard input for "-" (read as
+// CSV). The returned function closes what was opened.
+func openReplayInput(inPath string, stdin io.Reader, stderr io.Writer, progress bool) (io.Reader, func(), error) {
+	if inPath == "-" {
+		if stdin == nil {
+			return nil, nil, usagef("replay: INPUT - reads standard input, which is not available")
+		}
+		return stdin, func() {}, nil
+	}
+	f, err := os.Open(inPath)
+	if err != nil {
+		return nil, nil, fmt.Errorf("input: %w", err)
+	}
+	var size int64
+	if st, err := f.Stat(); err == nil {
+		size = st.Size()
+	}
+	if !progress || size == 0 || !isTerminal(stderr) {
+		return f, func() { f.Close() }, nil
+	}
+	bar := progressbar.NewOptions64(size,
+		progressbar.OptionSetWriter(stderr),
+		progressbar.OptionSetDescription("replay "+filepath.Base(inPath)),
+		progressbar.OptionShowBytes(true),
+		progressbar.OptionThrottle(200*time.Millisecond),
+		progressbar.OptionClearOnFinish(),
+	)
+	return io.TeeReader(f, bar), func() { bar.Finish(); f.Close() }, nil
 }
 
 // openInput opens a CSV or WAV source by file extension. It returns the

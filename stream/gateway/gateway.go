@@ -14,13 +14,7 @@ import (
 	"github.com/gridloupe/gridloupe/metrics/alarm"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream"
-)
-
-// Topic levels below the gateway's base (DESIGN: our own layout).
-const (
-	levelTelemetry = "telemetry"
-	levelAlarm     = "alarm"
-	levelHealth    = "health"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 // Config configures a Gateway. Zero values are documented per field.
@@ -40,6 +34,7 @@ type Config struct {
 	Alarms    *alarm.Evaluator // nil = no alarm rules
 	Channels  []string         // channel names, for alarm payloads; nil = from the setup
 	Telemetry []metrics.Interval
+	Summary   []metrics.Interval // levels whose slim summary is published, retained (stream/summary)
 	// TelemetryQoS is the MQTT QoS per telemetry level; a level absent
 	// here is published at QoS 1 (deleted from the outbox on PUBACK).
 	TelemetryQoS map[metrics.Interval]byte
@@ -139,6 +134,7 @@ type Gateway struct {
 	lastErr  string
 	alarmQ   []pendingAlarm // transitions whose commit failed, retried in order
 	telem    [5]bool
+	summ     [5]bool
 	persistS map[string]alarm.State
 }
 
@@ -169,6 +165,11 @@ func New(cfg Config) (*Gateway, error) {
 	for _, iv := range cfg.Telemetry {
 		if int(iv) < len(g.telem) {
 			g.telem[iv] = true
+		}
+	}
+	for _, iv := range cfg.Summary {
+		if int(iv) < len(g.summ) {
+			g.summ[iv] = true
 		}
 	}
 	g.done2h = -1 << 62
@@ -291,8 +292,11 @@ func (g *Gateway) handle(r *metrics.Record) {
 	g.evaluate(r)
 	if g.cfg.Base != "" && int(r.Interval) < len(g.telem) && g.telem[r.Interval] {
 		g.msgs = append(g.msgs, store.Message{Class: telemetryClass(r.Interval), QoS: g.telemetryQoS(r.Interval),
-			Topic:   g.cfg.Base + "/" + levelTelemetry + "/" + r.Interval.String(),
+			Topic:   topic.Telemetry(g.cfg.Base, r.Interval.String()),
 			Payload: telemetryPayload(nil, g.cfg.Site, g.cfg.Gateway, g.setup, r)})
+	}
+	if g.cfg.Base != "" && int(r.Interval) < len(g.summ) && g.summ[r.Interval] {
+		g.msgs = append(g.msgs, summaryMessage(g.cfg.Base, g.cfg.Site, g.cfg.Gateway, g.setup, r))
 	}
 	if g.cfg.OnRecord != nil {
 		var active []string
@@ -322,7 +326,7 @@ func (g *Gateway) evaluate(r *metrics.Record) {
 		st := states[t.Rule]
 		ch := g.ruleChannel(t.Rule)
 		msg := store.Message{Class: store.ClassAlarm, QoS: 1,
-			Topic: g.cfg.Base + "/" + levelAlarm, Payload: alarmPayload(g.cfg.Site, g.cfg.Gateway, t, ch)}
+			Topic: topic.Alarm(g.cfg.Base), Payload: alarmPayload(g.cfg.Site, g.cfg.Gateway, t, ch)}
 		g.commitAlarm(pendingAlarm{st: toStore(t.Rule, st, t.Severity), msg: msg, withMsg: g.cfg.Base != ""})
 		state := "cleared"
 		if t.Raised {
@@ -458,12 +462,12 @@ func (g *Gateway) health(at time.Time) {
 	for _, l := range []metrics.Interval{metrics.Int3s, metrics.Int10min, metrics.Int2h} {
 		h.LostRecords = append(h.LostRecords, ClassCount{l.String(), lost[l]})
 	}
-	topic, payload := g.cfg.Base+"/"+levelHealth, healthPayload(g.cfg.Site, g.cfg.Gateway, at, h)
+	tp, payload := topic.Health(g.cfg.Base), healthPayload(g.cfg.Site, g.cfg.Gateway, at, h)
 	if g.cfg.PublishHealth != nil {
-		g.cfg.PublishHealth(topic, payload)
+		g.cfg.PublishHealth(tp, payload)
 		return
 	}
-	g.msgs = append(g.msgs, store.Message{Class: store.ClassEvent, QoS: 1, Topic: topic, Payload: payload})
+	g.msgs = append(g.msgs, store.Message{Class: store.ClassEvent, QoS: 1, Topic: tp, Payload: payload})
 }
 
 // telemetryClass is the outbox class of a level's telemetry: the finest

@@ -19,6 +19,7 @@ func TestTopics(t *testing.T) {
 		{"status", mqtt.StatusTopic(base), base + "/status", "DESIGN.md, Daemon keys, MQTT and store: topic layout"},
 		{"telemetry", mqtt.TelemetryTopic(base, "10min"), base + "/telemetry/10min", "DESIGN.md: .../telemetry/<interval>"},
 		{"alarm", mqtt.AlarmTopic(base), base + "/alarm", "DESIGN.md: .../alarm"},
+		{"health", mqtt.HealthTopic(base), base + "/health", "README, MQTT topics and payloads: …/health"},
 		{"event", mqtt.EventTopic(base), base + "/event", "DESIGN.md: .../event"},
 	}
 	for _, tc := range tests {
