@@ -78,7 +78,7 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 		fmt.Fprint(stdout, rootHelp)
 		return nil
 	case "replay":
-		err = cmdReplay(ctx, rest, stdout, stderr)
+		err = cmdReplay(ctx, rest, stdin, stdout, stderr)
 	case "config":
 		err = cmdConfig(rest, stdout, stderr)
 	case "run":
