@@ -54,7 +54,7 @@ func (p *Pipeline) skipGap(m uint64, emit func(*metrics.Record) error) error {
 		return nil
 	}
 	p.missing += m
-	p.zc.skip(m, uint64(p.fs/p.nomHz*3))
+	p.trk.zc.skip(m, uint64(p.fs/p.nomHz*3))
 	for m > 0 {
 		k := min(uint64(p.winN-p.filled), m)
 		p.filled += int(k)

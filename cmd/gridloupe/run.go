@@ -14,6 +14,7 @@ import (
 	"runtime/pprof"
 	"strings"
 	"sync"
+	"sync/atomic"
 	"time"
 
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/sdnotify"
@@ -25,6 +26,7 @@ import (
 	"github.com/gridloupe/gridloupe/stream"
 	"github.com/gridloupe/gridloupe/stream/gateway"
 	"github.com/gridloupe/gridloupe/stream/input"
+	"github.com/gridloupe/gridloupe/stream/live"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
 	"github.com/gridloupe/gridloupe/stream/mqtt/broker"
 	"github.com/gridloupe/gridloupe/stream/sim"
@@ -36,7 +38,9 @@ Runs the gateway until SIGINT or SIGTERM: reads the configured source,
 measures every 10/12-cycle window, keeps 3 s, 10 min and 2 h aggregates in
 the bbolt store (store.path), raises and clears the configured alarms, and
 publishes status, telemetry and alarms over MQTT through the store's outbox
-(mqtt.broker; "embedded" starts a broker in the process on loopback).
+(mqtt.broker; "embedded" starts a broker in the process on loopback). With a
+modbus or http section it also serves the latest values over Modbus TCP and
+HTTP (see the README).
 
 Source kinds (source.kind):
   sim   the built-in drive-cabinet simulator (speed: 1 = real time)
@@ -47,9 +51,10 @@ Source kinds (source.kind):
         input) or connect: host:port (a TCP sender, redialled with backoff);
         framing: glf1 for GLF1 frames. Lost samples are flagged gap.
 
-Exit status: 0 after a signal (and when a csv, wav or pcm file reaches its
-end), 1 when the simulator, a pipe or standard input stops, a source fails
-or the store cannot be opened, 2 for config errors.
+Exit status: 0 after a signal, 0 when a csv or wav source reaches its end
+(a pcm file too, and after --stop-after), 1 when the simulator stops
+otherwise, a pipe or standard input ends, a source fails or the store cannot
+be opened, 2 for config errors.
 
 Flags:
 `
@@ -149,8 +154,8 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			ret[iv] = v
 		}
 	}
-	db, err := store.Open(store.Options{Path: cfg.Store.Path, MaxSizeMB: cfg.Store.MaxSizeMB, Retention: ret,
-		Logger: log.With("part", "store"), Clock: now})
+	db, storeNotice, err := openRunStore(store.Options{Path: cfg.Store.Path, MaxSizeMB: cfg.Store.MaxSizeMB, Retention: ret,
+		Logger: log.With("component", "store"), Clock: now}, cfg.Store.OnDamage, now(), log)
 	if err != nil {
 		return fmt.Errorf("cannot open the store: %w", err)
 	}
@@ -187,7 +192,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	var rate float64
 	var closer io.Closer
 	endIsError := true
-	live := false // a live source never blocks: full sink queues drop (and flag gap)
+	liveSrc := false // a live source never blocks: full sink queues drop (and flag gap)
 	switch cfg.Source.Kind {
 	case config.SourceSim:
 		rate = cfg.SampleRateHz
@@ -232,7 +237,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		d.source = src
 		endIsError = false
 	case config.SourcePCM:
-		in, isLive, err := openPCMSource(ctx, cfg, len(setup.Channels), log.With("part", "source"))
+		in, isLive, err := openPCMSource(ctx, cfg, len(setup.Channels), log.With("component", "source"))
 		if err != nil {
 			return err
 		}
@@ -242,7 +247,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			}
 			_ = in.close()
 		}()
-		d.source, rate, endIsError, live = in.src, cfg.SampleRateHz, isLive, isLive
+		d.source, rate, endIsError, liveSrc = in.src, cfg.SampleRateHz, isLive, isLive
 	default:
 		return usagef("%s: source.kind %q: allowed are %s", cfg.Path, cfg.Source.Kind, strings.Join(config.SourceKinds(), ", "))
 	}
@@ -251,6 +256,22 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	}
 	if err := checkRate(cfg, rate); err != nil {
 		return err
+	}
+
+	// One clock for every message's time: the sample clock (the newest
+	// record's end), the wall clock only before the first record.
+	var sampleNS atomic.Int64
+	sampleNow := func() time.Time {
+		if n := sampleNS.Load(); n != 0 {
+			return time.Unix(0, n).UTC()
+		}
+		return now()
+	}
+	onRecord := func(r *metrics.Record, active []string) {
+		sampleNS.Store(r.Start.Add(time.Duration(r.DurationS * float64(time.Second))).UnixNano())
+		if o.onRecord != nil {
+			o.onRecord(r, active)
+		}
 	}
 
 	// MQTT: embedded broker and publisher.
@@ -271,7 +292,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		}
 		if url == config.BrokerEmbedded {
 			b, err := broker.Start(broker.Config{Addr: embeddedAddr(o, cfg), Username: cfg.MQTT.Username, Password: pw,
-				TLS: tlsCfg, Logger: log.With("part", "broker")})
+				TLS: tlsCfg, Logger: log})
 			if err != nil {
 				return fmt.Errorf("embedded broker: %w", err)
 			}
@@ -285,11 +306,14 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			log.Info("embedded MQTT broker listening", "addr", b.Addr())
 		}
 		pub, err := mqtt.New(mqtt.Config{Broker: url, ClientID: cfg.MQTT.ClientID, Username: cfg.MQTT.Username,
-			Password: pw, TLS: tlsCfg, Base: base, Outbox: db, Logger: log.With("part", "mqtt"), Now: now})
+			Password: pw, TLS: tlsCfg, Base: base, Outbox: db, Logger: log, Now: sampleNow})
 		if err != nil {
 			return usagef("%s: mqtt: %v", cfg.Path, err)
 		}
 		d.pub = pub
+		if storeNotice != "" {
+			pub.SetNotice("store: " + storeNotice)
+		}
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
@@ -309,12 +333,24 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			tele = append(tele, iv)
 		}
 	}
+	var summ []metrics.Interval
+	for _, l := range cfg.MQTT.Summary {
+		if iv, ok := metrics.ParseInterval(l); ok {
+			summ = append(summ, iv)
+		}
+	}
+	teleQoS := map[metrics.Interval]byte{}
+	for l, q := range cfg.MQTT.TelemetryQoS {
+		if iv, ok := metrics.ParseInterval(l); ok {
+			teleQoS[iv] = byte(q)
+		}
+	}
 	pc := pipelineConfig(cfg, setup, cal, rate)
 	pc.Base = now().UTC()
 	if d.sim != nil {
 		pc.Base = d.sim.Truth().Time
 	}
-	pc.Logger = log.With("part", "pipeline")
+	pc.Logger = log.With("component", "pipeline")
 	if cfg.Source.Kind == config.SourceSim {
 		pc.BlockFrames = 256
 	}
@@ -336,10 +372,15 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			d.pub.SetProblem("store: " + err.Error())
 		}
 	}
-	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError, Live: live,
-		Store: db, Alarms: ev, Telemetry: tele, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
-		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("part", "gateway"),
-		OnRecord: o.onRecord, OnTransition: o.onTransition, OnStoreError: onStoreErr})
+	integ, err := startIntegration(cfg, setup, func() live.Health { return daemonHealth(d, db) }, log)
+	if err != nil {
+		return err
+	}
+	defer integ.Close()
+	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError, Live: liveSrc,
+		Store: db, Alarms: ev, Telemetry: tele, TelemetryQoS: teleQoS, Summary: summ, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
+		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("component", "gateway"),
+		OnRecord: integ.onRecord(onRecord), OnTransition: o.onTransition, OnStoreError: onStoreErr, Notice: storeNotice})
 	if err != nil {
 		return err
 	}

@@ -13,13 +13,7 @@ import (
 	"github.com/gridloupe/gridloupe/metrics/alarm"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream"
-)
-
-// Topic levels below the gateway's base (DESIGN: our own layout).
-const (
-	levelTelemetry = "telemetry"
-	levelAlarm     = "alarm"
-	levelHealth    = "health"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 // Config configures a Gateway. Zero values are documented per field.
@@ -39,10 +33,14 @@ type Config struct {
 	Alarms    *alarm.Evaluator // nil = no alarm rules
 	Channels  []string         // channel names, for alarm payloads; nil = from the setup
 	Telemetry []metrics.Interval
-	Base      string // topic base <prefix>/<site>/<gateway>; "" = nothing is queued for MQTT
-	Site      string
-	Gateway   string
-	Kick      func() // wakes the publisher after messages were queued; nil = none
+	Summary   []metrics.Interval // levels whose slim summary is published, retained (stream/summary)
+	// TelemetryQoS is the MQTT QoS per telemetry level; a level absent
+	// here is published at QoS 1 (deleted from the outbox on PUBACK).
+	TelemetryQoS map[metrics.Interval]byte
+	Base         string // topic base <prefix>/<site>/<gateway>; "" = nothing is queued for MQTT
+	Site         string
+	Gateway      string
+	Kick         func() // wakes the publisher after messages were queued; nil = none
 
 	CommitEvery time.Duration    // aggregate batch period (wall time); 0 = 60 s
 	QueueLen    int              // records between the two goroutines; 0 = 256
@@ -61,6 +59,9 @@ type Config struct {
 	// in its MQTT status), and with nil when writes succeed again;
 	// measurement goes on either way.
 	OnStoreError func(err error)
+	// Notice is news from start-up (a damaged store set aside) that the
+	// first health message carries; "" = none.
+	Notice string
 }
 
 // Store is what the gateway needs of the bbolt store (*store.DB).
@@ -92,6 +93,7 @@ type Health struct {
 	Stored, Dropped uint64
 	Losses          []ClassCount
 	StoreErr        string
+	Notice          string // Config.Notice, in the first health message only
 }
 
 // ClassCount is one outbox class's loss count.
@@ -125,6 +127,7 @@ type Gateway struct {
 	lastErr  string
 	alarmQ   []pendingAlarm // transitions whose commit failed, retried in order
 	telem    [5]bool
+	summ     [5]bool
 	persistS map[string]alarm.State
 }
 
@@ -155,6 +158,11 @@ func New(cfg Config) (*Gateway, error) {
 	for _, iv := range cfg.Telemetry {
 		if int(iv) < len(g.telem) {
 			g.telem[iv] = true
+		}
+	}
+	for _, iv := range cfg.Summary {
+		if int(iv) < len(g.summ) {
+			g.summ[iv] = true
 		}
 	}
 	g.done2h = -1 << 62
@@ -276,9 +284,12 @@ func (g *Gateway) handle(r *metrics.Record) {
 	}()
 	g.evaluate(r)
 	if g.cfg.Base != "" && int(r.Interval) < len(g.telem) && g.telem[r.Interval] {
-		g.msgs = append(g.msgs, store.Message{Class: store.ClassTelemetry, QoS: 0,
-			Topic:   g.cfg.Base + "/" + levelTelemetry + "/" + r.Interval.String(),
+		g.msgs = append(g.msgs, store.Message{Class: store.ClassTelemetry, QoS: g.telemetryQoS(r.Interval),
+			Topic:   topic.Telemetry(g.cfg.Base, r.Interval.String()),
 			Payload: telemetryPayload(nil, g.cfg.Site, g.cfg.Gateway, g.setup, r)})
+	}
+	if g.cfg.Base != "" && int(r.Interval) < len(g.summ) && g.summ[r.Interval] {
+		g.msgs = append(g.msgs, summaryMessage(g.cfg.Base, g.cfg.Site, g.cfg.Gateway, g.setup, r))
 	}
 	if g.cfg.OnRecord != nil {
 		var active []string
@@ -289,7 +300,7 @@ func (g *Gateway) handle(r *metrics.Record) {
 	}
 	if r.Interval == metrics.Int10min {
 		if g.cfg.Base != "" {
-			g.msgs = append(g.msgs, g.healthMessage())
+			g.msgs = append(g.msgs, g.healthMessage(r.Start.Add(time.Duration(r.DurationS*float64(time.Second)))))
 		}
 		g.add2h(r)
 	}
@@ -308,7 +319,7 @@ func (g *Gateway) evaluate(r *metrics.Record) {
 		st := states[t.Rule]
 		ch := g.ruleChannel(t.Rule)
 		msg := store.Message{Class: store.ClassAlarm, QoS: 1,
-			Topic: g.cfg.Base + "/" + levelAlarm, Payload: alarmPayload(g.cfg.Site, g.cfg.Gateway, t, ch)}
+			Topic: topic.Alarm(g.cfg.Base), Payload: alarmPayload(g.cfg.Site, g.cfg.Gateway, t, ch)}
 		g.commitAlarm(pendingAlarm{st: toStore(t.Rule, st, t.Severity), msg: msg, withMsg: g.cfg.Base != ""})
 		state := "cleared"
 		if t.Raised {
@@ -426,16 +437,18 @@ func (g *Gateway) commit() {
 }
 
 // healthMessage builds the health message (store size, losses, last store
-// error) queued on <base>/health with every 10 min record.
-func (g *Gateway) healthMessage() store.Message {
+// error) queued on <base>/health with every 10 min record; its time is the
+// record's end on the sample clock, the clock of every queued message.
+func (g *Gateway) healthMessage(at time.Time) store.Message {
 	st := g.cfg.Store.Stats()
-	h := Health{StoreBytes: st.FileBytes, Stored: g.stored.Load(), Dropped: g.dropped.Load(), StoreErr: g.lastErr}
+	h := Health{StoreBytes: st.FileBytes, Stored: g.stored.Load(), Dropped: g.dropped.Load(), StoreErr: g.lastErr, Notice: g.cfg.Notice}
+	g.cfg.Notice = ""
 	losses := g.cfg.Store.Losses()
 	for _, c := range []store.Class{store.ClassTelemetry, store.ClassEventWaveform, store.ClassEvent, store.ClassAlarm} {
 		h.Losses = append(h.Losses, ClassCount{c.String(), losses[c]})
 	}
-	return store.Message{Class: store.ClassEvent, QoS: 1, Topic: g.cfg.Base + "/" + levelHealth,
-		Payload: healthPayload(g.cfg.Site, g.cfg.Gateway, g.now(), h)}
+	return store.Message{Class: store.ClassEvent, QoS: 1, Topic: topic.Health(g.cfg.Base),
+		Payload: healthPayload(g.cfg.Site, g.cfg.Gateway, at, h)}
 }
 
 func (g *Gateway) storeError(err error) {
@@ -464,4 +477,16 @@ func (g *Gateway) kick() {
 	if g.cfg.Kick != nil {
 		g.cfg.Kick()
 	}
+}
+
+// DefaultTelemetryQoS is the QoS of a telemetry level Config.TelemetryQoS
+// does not name: 1, so a message in flight when the broker goes away is
+// resent rather than deleted as delivered.
+const DefaultTelemetryQoS = 1
+
+func (g *Gateway) telemetryQoS(iv metrics.Interval) byte {
+	if q, ok := g.cfg.TelemetryQoS[iv]; ok {
+		return q
+	}
+	return DefaultTelemetryQoS
 }
