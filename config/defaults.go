@@ -46,9 +46,13 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 #   ab and cb with CTs on a and c, the third current computed) or on all three; no n.
 
 # source:                  # daemon input; default: none (replay names its input on the command line)
-#   kind: sim              # required in a source: sim | csv | wav
+#   kind: sim              # required in a source: sim | csv | wav | pcm
 #   speed: 1               # sim only: 1 = real time, 60 = a minute per second, 0 = as fast as possible
-#   path: rec.csv          # csv and wav only, required: the recording
+#   path: rec.csv          # csv, wav: the recording (required); pcm: a file, a FIFO or "-" for standard input
+#   connect: ""            # pcm only, instead of path: host:port of a TCP sender, redialled with backoff
+#   format: s16le          # pcm only, required: s16le | s24le | s32le | f32le, interleaved in channel order
+#   framing: raw           # pcm only: raw (bare samples) | glf1 (frames with index and CRC, see README)
+#                          # pcm needs sample_rate_hz: a raw stream carries none
 
 store:
   path: ""                 # bbolt file; "" = not configured
