@@ -30,6 +30,7 @@ type Config struct {
 	Store        Store     // bbolt store settings
 	MQTT         MQTT      // broker connection and topics
 	Alarms       []Alarm   // alarm rules in file order
+	Events       Events    // voltage-event detection
 }
 
 // Nominal holds the declared system values.

@@ -53,6 +53,8 @@ func TestParseGood(t *testing.T) {
 						"3s": 168 * time.Hour, "10min": 9600 * time.Hour, "2h": 87600 * time.Hour}},
 					MQTT: MQTT{ClientID: "dc2-gw1", TopicPrefix: "gridloupe", Telemetry: []string{"10min"},
 						Base: "gridloupe/site/dc2-gw1"},
+					Events: Events{DipPct: 90, SwellPct: 110, InterruptionPct: 5, HysteresisPct: 2,
+						PreCycles: 10, PostCycles: 20, MaxCaptureS: 4}, // DESIGN "Voltage events" defaults
 				}
 				if !reflect.DeepEqual(c, want) {
 					t.Errorf("got  %+v\nwant %+v", c, want)

@@ -21,7 +21,7 @@ import (
 // sets every key and against Defaults.
 var sections = map[string][]string{
 	"": {"site", "gateway", "nominal", "wiring", "sample_rate_hz", "reference", "harmonics",
-		"il_a", "isc_a", "lock_min_pct", "channels", "source", "store", "mqtt", "alarms"},
+		"il_a", "isc_a", "lock_min_pct", "channels", "source", "store", "mqtt", "alarms", "events"},
 	"nominal":         {"frequency_hz", "voltage_v", "current_a"},
 	"channels[]":      {"name", "kind", "phase", "scale", "offset", "full_scale", "delay_us"},
 	"source":          {"kind", "speed", "path"},
@@ -30,6 +30,7 @@ var sections = map[string][]string{
 	"mqtt": {"broker", "listen", "client_id", "username", "password_file", "password_env", "tls",
 		"topic_prefix", "telemetry"},
 	"mqtt.tls": {"ca", "cert", "key"},
+	"events":   {"dip_pct", "swell_pct", "interruption_pct", "hysteresis_pct", "pre_cycles", "post_cycles", "max_capture_s"},
 	"alarms[]": {"name", "metric", "channel", "phase", "level", "above", "below", "deadband",
 		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic"},
 }
@@ -406,6 +407,8 @@ func (d *decoder) decode(c *Config) *Error {
 			return d.store(v, p, &c.Store)
 		case "mqtt":
 			return d.mqtt(v, p, &c.MQTT)
+		case "events":
+			return d.events(v, p, &c.Events)
 		case "alarms":
 			return d.sequence(v, p, "alarm rules", maxAlarms, func(_ int, v *yaml.Node, ip string) *Error {
 				a := Alarm{Line: v.Line}

@@ -71,6 +71,15 @@ mqtt:
   topic_prefix: gridloupe  # one or more topic levels separated by /; no +, # or leading $
   telemetry: [10min]       # levels published, from 3s, 10min, 2h; [] = none
 
+events:                    # voltage dips, swells and interruptions (IEC 61000-4-30 style, on Urms(1/2))
+  dip_pct: 90              # % of nominal.voltage_v: an event opens when a voltage falls below this
+  swell_pct: 110           # or rises above this; swell_pct - hysteresis_pct must stay above 100
+  interruption_pct: 5      # every voltage below this: the event is an interruption; more than 0, less than dip_pct
+  hysteresis_pct: 2        # a dip ends at dip_pct + this, a swell at swell_pct - this; 0 to less than 10
+  pre_cycles: 10           # waveform captured before the start, nominal cycles, 0..600
+  post_cycles: 20          # and after the end, 0..600
+  max_capture_s: 4         # a capture is cut at this length, seconds; more than 0, at most 60
+
 alarms: []
 # alarms:                          # alarm rules; raised and cleared over MQTT with hysteresis
 #   - name: current-distortion     # required, unique

@@ -61,12 +61,13 @@ func parse(path string, data []byte, hostname func() (string, error)) (*Config, 
 		LockMinPct: defaultLockMinPct,
 		Store:      Store{CommitEvery: defaultCommitEvery, MaxSizeMB: defaultMaxSizeMB, Retention: defaultRetention()},
 		MQTT:       MQTT{TopicPrefix: defaultPrefix, Telemetry: []string{defaultLevel}},
+		Events:     defaultEvents(),
 	}
 	if e := d.decode(c); e != nil {
 		return nil, e
 	}
 	v := validator{decoder: d, c: c}
-	for _, check := range []func() *Error{v.names, v.nominal, v.scalars, v.channels, v.reference, v.rate, v.source, v.store, v.mqtt, v.alarms} {
+	for _, check := range []func() *Error{v.names, v.nominal, v.scalars, v.channels, v.reference, v.rate, v.source, v.store, v.mqtt, v.alarms, v.events} {
 		if e := check(); e != nil {
 			return nil, e
 		}

@@ -12,6 +12,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/goertzel"
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/events"
 )
 
 // Cal is one channel's calibration: engineering value = raw·Scale + Offset.
@@ -39,6 +40,11 @@ type Config struct {
 	Unsynced func() bool
 	// Logger receives rate-limited warnings; nil discards.
 	Logger *slog.Logger
+	// Events, when set, turns on voltage-event detection with these
+	// thresholds and capture lengths (the signal fields are filled from
+	// the pipeline); EventSink receives the events (nil = flags only).
+	Events    *events.Config
+	EventSink EventSink
 }
 
 // Tracker limits, documented in the package and README.
@@ -93,6 +99,10 @@ type Pipeline struct {
 	in  metrics.Input
 	rec *metrics.Record
 	zc  crossings
+
+	ev      *events.Detector // nil = no event detection
+	evNames []string         // voltage channel names, detector order
+	evErr   error            // first error from the EventSink
 
 	// window state
 	idx      uint64  // index of the next sample
@@ -194,6 +204,9 @@ func New(cfg Config) (*Pipeline, error) {
 	p.fPrev = math.NaN()
 	p.tenEnd = p.nextTenEnd(0)
 	p.zc.setTen(p.tenEnd)
+	if err := p.initEvents(bf); err != nil {
+		return nil, err
+	}
 	p.startWindow()
 	return p, nil
 }
@@ -271,7 +284,7 @@ func (p *Pipeline) Clock() Clock { return p.clock }
 func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.Record) error) error {
 	for {
 		if err := ctx.Err(); err != nil {
-			return nil
+			return p.closeEvents()
 		}
 		n, rerr := src.ReadFrames(p.raw)
 		if n < 0 || n*p.nch > len(p.raw) {
@@ -285,7 +298,7 @@ func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.
 		if rerr != nil {
 			p.leftover = p.filled
 			if errors.Is(rerr, io.EOF) {
-				return nil
+				return p.closeEvents()
 			}
 			return fmt.Errorf("%w: %w", ErrSource, rerr)
 		}
@@ -307,6 +320,9 @@ func (p *Pipeline) block(n int, emit func(*metrics.Record) error) error {
 		k := min(p.winN-p.filled, n-off)
 		p.segment(off, k)
 		off += k
+		if p.evErr != nil {
+			return p.evErr
+		}
 		if p.filled == p.winN {
 			if err := p.finish(emit); err != nil {
 				return err
@@ -342,6 +358,9 @@ func (p *Pipeline) segment(off, k int) {
 		p.half.Write(ref[:min(k, m-p.filled)])
 	}
 	p.zc.write(ref)
+	if p.ev != nil {
+		p.eventsWrite(off, k)
+	}
 	for i, pr := range p.setup.Pairs {
 		v, cur := p.buf[pr.V][off:off+k], p.buf[pr.I][off:off+k]
 		acc := p.in.SumVI[i]
@@ -381,6 +400,10 @@ func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
 	if !lock {
 		rec.Flags |= metrics.FlagNoLock
 	}
+	if p.eventFlag() {
+		rec.Flags |= metrics.FlagEvent
+	}
+	p.eventFrequency(p.fUsed, lock)
 	if p.cfg.Unsynced != nil && p.cfg.Unsynced() {
 		rec.Flags |= metrics.FlagClockUnsynced
 	}

@@ -42,6 +42,7 @@ func cmdReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	ivName := fs.String("interval", "200ms", "interval to print: "+strings.Join(metrics.IntervalLabels()[:3], ", "))
 	format := fs.String("format", "jsonl", "output format: jsonl (unrounded), csv, or table (rounded, for people)")
 	startStr := fs.String("start", "", "wall time of the first sample, RFC 3339 (default 1970-01-01T00:00:00Z)")
+	eventsPath := fs.String("events", "", "also write the voltage events (dips, swells, interruptions) to `FILE`, as JSON Lines")
 	progress := fs.Bool("progress", true, "show a progress bar on stderr when it is a terminal")
 	fs.Usage = func() {
 		fmt.Fprint(fs.Output(), replayHelp)
@@ -125,6 +126,14 @@ func cmdReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	}
 	pc := pipelineConfig(cfg, setup, cal, rate)
 	pc.Base = base
+	var evf *eventFile
+	if *eventsPath != "" {
+		if evf, err = createEventFile(*eventsPath); err != nil {
+			return err
+		}
+		defer evf.Close()
+		pc.EventSink = evf
+	}
 	p, err := stream.New(pc)
 	if err != nil {
 		return err
@@ -155,6 +164,11 @@ func cmdReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	}
 	if err := out.Flush(); err != nil && runErr == nil {
 		runErr = err
+	}
+	if evf != nil {
+		if err := evf.Close(); err != nil && runErr == nil {
+			runErr = err
+		}
 	}
 	if runErr != nil {
 		return runErr
