@@ -18,7 +18,7 @@ type Config struct {
 	Site         string    // free text; report title and (sanitized) MQTT topic level; default "site"
 	Gateway      string    // this gateway's name; default the host name
 	Nominal      Nominal   // declared system values
-	Wiring       string    // WiringSinglePhase or WiringWye (default)
+	Wiring       string    // WiringSinglePhase, WiringWye (default) or WiringDelta
 	SampleRateHz float64   // Hz; 0 = taken from the input
 	Reference    string    // name of the angle and frequency reference (a voltage channel); default the first voltage channel
 	Harmonics    Harmonics // computed harmonic orders
@@ -31,12 +31,15 @@ type Config struct {
 	MQTT         MQTT      // broker connection and topics
 	Alarms       []Alarm   // alarm rules in file order
 	Events       Events    // voltage-event detection
+	Modbus       Modbus    // read-only Modbus TCP server for a BMS; off unless the section is given
+	HTTP         HTTP      // Prometheus, JSON and status page; off unless the section is given
+	Demand       Demand    // demand interval and method
 }
 
 // Nominal holds the declared system values.
 type Nominal struct {
 	FrequencyHz float64 // 50 or 60, required
-	VoltageV    float64 // declared voltage, phase-to-neutral for wye and single-phase; required, > 0
+	VoltageV    float64 // declared voltage, phase-to-neutral for wye and single-phase, line-to-line for delta; required, > 0
 	CurrentA    float64 // base for near-zero floors when a channel has no full_scale; 0 = unset
 }
 
@@ -64,7 +67,7 @@ func (h Harmonics) Has(order int) bool {
 type Channel struct {
 	Name      string  // unique; matched to CSV column names; no commas or white space
 	Kind      string  // KindVoltage or KindCurrent
-	Phase     string  // "a", "b", "c", or "n" (neutral, currents only)
+	Phase     string  // "a", "b", "c", or "n" (neutral, currents only); delta voltages "ab", "bc", "ca", "ba", "cb" or "ac"
 	Scale     float64 // engineering units per raw unit; default 1, never 0
 	Offset    float64 // engineering units; default 0
 	FullScale float64 // engineering units; 0 = none (no clipping check)
@@ -87,20 +90,28 @@ type Store struct {
 	CommitEvery time.Duration            // batch period for aggregates; default 60s
 	MaxSizeMB   int                      // hard cap of the file, MiB; default 512
 	Retention   map[string]time.Duration // keyed by "3s", "10min", "2h"; defaults 168h, 9600h, 87600h
+	OnDamage    string                   // a damaged file at start: OnDamageSetAside (default) or OnDamageFail
 }
+
+// Values of store.on_damage.
+const (
+	OnDamageSetAside = "set_aside" // rename the file to <path>.damaged-<UTC time>, start a fresh one, keep measuring
+	OnDamageFail     = "fail"      // exit 1 with the message
+)
 
 // MQTT configures the broker connection and topics.
 type MQTT struct {
-	Broker       string   // "" = off, "tcp://host:port", "ssl://host:port" or "embedded"
-	Listen       string   // embedded broker only: host:port it listens on; default 127.0.0.1:1883 (a non-loopback address needs TLS and credentials)
-	ClientID     string   // default: the gateway name
-	Username     string   // "" = none
-	PasswordFile string   // file holding the password (resolved against the config's folder); never logged
-	PasswordEnv  string   // or: environment variable holding it
-	TLS          TLS      // certificate files for ssl:// brokers
-	TopicPrefix  string   // one or more topic levels separated by '/'; default "gridloupe"
-	Telemetry    []string // interval labels published; default ["10min"]; from 3s, 10min, 2h
-	Base         string   // added: "<prefix>/<site level>/<gateway level>", sanitized; topics are Base+"/status" and so on
+	Broker       string         // "" = off, "tcp://host:port", "ssl://host:port" or "embedded"
+	Listen       string         // embedded broker only: host:port it listens on; default 127.0.0.1:1883 (a non-loopback address needs TLS and credentials)
+	ClientID     string         // default: the gateway name
+	Username     string         // "" = none
+	PasswordFile string         // file holding the password (resolved against the config's folder); never logged
+	PasswordEnv  string         // or: environment variable holding it
+	TLS          TLS            // certificate files for ssl:// brokers
+	TopicPrefix  string         // one or more topic levels separated by '/'; default "gridloupe"
+	Telemetry    []string       // interval labels published; default ["10min"]; from 3s, 10min, 2h
+	TelemetryQoS map[string]int // MQTT QoS per interval label, 0..2; default 1 for every level
+	Base         string         // added: "<prefix>/<site level>/<gateway level>", sanitized; topics are Base+"/status" and so on
 }
 
 // TLS names PEM files (resolved against the config's folder). Cert and Key
@@ -131,6 +142,7 @@ type Alarm struct {
 const (
 	WiringSinglePhase = "single-phase"
 	WiringWye         = "wye"
+	WiringDelta       = "delta"
 	KindVoltage       = "voltage"
 	KindCurrent       = "current"
 	SourceSim         = "sim"

@@ -42,7 +42,7 @@ func TestParseGood(t *testing.T) {
 		check     func(t *testing.T, c *Config)
 		src       string
 	}{
-		{name: "defaults", doc: hdr1, src: "config brief: Config struct defaults; DESIGN.md Config (YAML) comments",
+		{name: "defaults", doc: hdr1, src: "DESIGN, Config (YAML): Config struct defaults; DESIGN.md Config (YAML) comments",
 			check: func(t *testing.T, c *Config) {
 				want := &Config{
 					Path: "x.yaml", Site: "site", Gateway: "dc2-gw1",
@@ -50,9 +50,13 @@ func TestParseGood(t *testing.T) {
 					Harmonics: Harmonics{All: true, Orders: allOrders()}, LockMinPct: 10,
 					Channels: []Channel{{Name: "va", Kind: "voltage", Phase: "a", Scale: 1, Line: 3, Level: "va"}},
 					Store: Store{CommitEvery: 60 * time.Second, MaxSizeMB: 512, Retention: map[string]time.Duration{
-						"3s": 168 * time.Hour, "10min": 9600 * time.Hour, "2h": 87600 * time.Hour}},
+						"3s": 168 * time.Hour, "10min": 9600 * time.Hour, "2h": 87600 * time.Hour}, OnDamage: "set_aside"},
 					MQTT: MQTT{ClientID: "dc2-gw1", TopicPrefix: "gridloupe", Telemetry: []string{"10min"},
-						Base: "gridloupe/site/dc2-gw1"},
+						TelemetryQoS: map[string]int{"3s": 1, "10min": 1, "2h": 1}, // README, MQTT: QoS 1 by default
+						Base:         "gridloupe/site/dc2-gw1"},
+					Modbus: Modbus{Listen: "127.0.0.1:5020", UnitID: 1, WordOrder: "high_first"},
+					HTTP:   HTTP{Listen: "127.0.0.1:8080"},
+					Demand: Demand{Interval: 15 * time.Minute, Method: "fixed"},
 					Events: Events{DipPct: 90, SwellPct: 110, InterruptionPct: 5, HysteresisPct: 2,
 						PreCycles: 10, PostCycles: 20, MaxCaptureS: 4}, // DESIGN "Voltage events" defaults
 				}
@@ -60,7 +64,7 @@ func TestParseGood(t *testing.T) {
 					t.Errorf("got  %+v\nwant %+v", c, want)
 				}
 			}},
-		{name: "listed orders sorted, 1 ignored", doc: hdr1 + "harmonics: [13, 5, 1, 7]\n", src: "config brief: Orders ascending with 1 first",
+		{name: "listed orders sorted, 1 ignored", doc: hdr1 + "harmonics: [13, 5, 1, 7]\n", src: "DESIGN, Config (YAML): Orders ascending with 1 first",
 			check: func(t *testing.T, c *Config) {
 				if c.Harmonics.All || !slices.Equal(c.Harmonics.Orders, []int{1, 5, 7, 13}) || c.Harmonics.MaxOrder() != 13 || !c.Harmonics.Has(7) || c.Harmonics.Has(11) {
 					t.Errorf("harmonics = %+v", c.Harmonics)
@@ -79,13 +83,13 @@ func TestParseGood(t *testing.T) {
 					t.Errorf("rate %g, floor %g", c.SampleRateHz, c.MinSampleRateHz())
 				}
 			}},
-		{name: "50 Hz rate just over the floor", doc: hdr1 + "sample_rate_hz: 5751\n", src: "rule fs > 2·50·1.15·50 = 5750 (config brief)",
+		{name: "50 Hz rate just over the floor", doc: hdr1 + "sample_rate_hz: 5751\n", src: "rule fs > 2·50·1.15·50 = 5750 (DESIGN, Config (YAML))",
 			check: func(t *testing.T, c *Config) {
 				if c.MinSampleRateHz() != 5750 {
 					t.Errorf("floor %g, want 5750", c.MinSampleRateHz())
 				}
 			}},
-		{name: "low rate with low orders", doc: hdr1 + "harmonics: [3]\nsample_rate_hz: 400\n", src: "rule fs > 2·3·1.15·50 = 345 (config brief)",
+		{name: "low rate with low orders", doc: hdr1 + "harmonics: [3]\nsample_rate_hz: 400\n", src: "rule fs > 2·3·1.15·50 = 345 (DESIGN, Config (YAML))",
 			check: func(t *testing.T, c *Config) {
 				if c.MinSampleRateHz() != 345 {
 					t.Errorf("floor %g, want 345", c.MinSampleRateHz())
@@ -131,7 +135,7 @@ func TestParseGood(t *testing.T) {
 					t.Errorf("csv speed = %g, want 0 (sim only)", c.Source.Speed)
 				}
 			}},
-		{name: "sim speed default", doc: hdr1 + "source: {kind: sim}\n", src: "config brief: speed default 1",
+		{name: "sim speed default", doc: hdr1 + "source: {kind: sim}\n", src: "DESIGN, Config (YAML): speed default 1",
 			check: func(t *testing.T, c *Config) {
 				if c.Source.Speed != 1 || c.Source.Line != 4 {
 					t.Errorf("source = %+v", c.Source)
@@ -144,7 +148,7 @@ func TestParseGood(t *testing.T) {
 				}
 			}},
 		{name: "alarm defaults", doc: hdr3 + "alarms:\n  - {name: pf, metric: pf, below: 0.9}\n  - {name: pf-a, metric: dpf, phase: a, below: 0.9, min_load_pct: 10}\n  - {name: h5, metric: pct_il, channel: ia, harmonic: 5, above: 4}\n",
-			src: "config brief: level default 10min (this package), severity default warning, pf phase default total",
+			src: "DESIGN, Config (YAML): level default 10min (this package), severity default warning, pf phase default total",
 			check: func(t *testing.T, c *Config) {
 				a := c.Alarms
 				if len(a) != 3 || a[0].Phase != "total" || a[0].Level != "10min" || a[0].Severity != "warning" ||
@@ -374,9 +378,9 @@ func TestErrorString(t *testing.T) {
 		want string
 		src  string
 	}{
-		{Error{File: "a.yaml", Line: 3, Col: 5, Key: "channels[2].kind", Msg: "bad"}, "a.yaml:3:5: channels[2].kind: bad", "config brief: FILE:LINE:COL: KEY: MSG"},
-		{Error{File: "a.yaml", Line: 3, Msg: "YAML syntax: x"}, "a.yaml:3: YAML syntax: x", "config brief, unknown parts left out"},
-		{Error{File: "a.yaml", Msg: "too big"}, "a.yaml: too big", "config brief, unknown parts left out"},
+		{Error{File: "a.yaml", Line: 3, Col: 5, Key: "channels[2].kind", Msg: "bad"}, "a.yaml:3:5: channels[2].kind: bad", "DESIGN, Config (YAML): FILE:LINE:COL: KEY: MSG"},
+		{Error{File: "a.yaml", Line: 3, Msg: "YAML syntax: x"}, "a.yaml:3: YAML syntax: x", "DESIGN, Config (YAML), unknown parts left out"},
+		{Error{File: "a.yaml", Msg: "too big"}, "a.yaml: too big", "DESIGN, Config (YAML), unknown parts left out"},
 	}
 	for _, tc := range cases {
 		if got := tc.e.Error(); got != tc.want {

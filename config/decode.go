@@ -21,16 +21,21 @@ import (
 // sets every key and against Defaults.
 var sections = map[string][]string{
 	"": {"site", "gateway", "nominal", "wiring", "sample_rate_hz", "reference", "harmonics",
-		"il_a", "isc_a", "lock_min_pct", "channels", "source", "store", "mqtt", "alarms", "events"},
+		"il_a", "isc_a", "lock_min_pct", "channels", "source", "store", "mqtt", "alarms",
+		"modbus", "http", "demand", "events"},
 	"nominal":         {"frequency_hz", "voltage_v", "current_a"},
 	"channels[]":      {"name", "kind", "phase", "scale", "offset", "full_scale", "delay_us"},
 	"source":          {"kind", "speed", "path"},
-	"store":           {"path", "commit_every", "max_size_mb", "retention"},
+	"store":           {"path", "commit_every", "max_size_mb", "retention", "on_damage"},
 	"store.retention": {"3s", "10min", "2h"},
 	"mqtt": {"broker", "listen", "client_id", "username", "password_file", "password_env", "tls",
-		"topic_prefix", "telemetry"},
-	"mqtt.tls": {"ca", "cert", "key"},
-	"events":   {"dip_pct", "swell_pct", "interruption_pct", "hysteresis_pct", "pre_cycles", "post_cycles", "max_capture_s"},
+		"topic_prefix", "telemetry", "telemetry_qos"},
+	"mqtt.tls":           {"ca", "cert", "key"},
+	"mqtt.telemetry_qos": {"3s", "10min", "2h"},
+	"modbus":             {"listen", "unit_id", "word_order"},
+	"http":               {"listen"},
+	"demand":             {"interval", "method"},
+	"events":             {"dip_pct", "swell_pct", "interruption_pct", "hysteresis_pct", "pre_cycles", "post_cycles", "max_capture_s"},
 	"alarms[]": {"name", "metric", "channel", "phase", "level", "above", "below", "deadband",
 		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic"},
 }
@@ -409,6 +414,12 @@ func (d *decoder) decode(c *Config) *Error {
 			return d.mqtt(v, p, &c.MQTT)
 		case "events":
 			return d.events(v, p, &c.Events)
+		case "modbus":
+			return d.modbus(v, p, &c.Modbus)
+		case "http":
+			return d.http(v, p, &c.HTTP)
+		case "demand":
+			return d.demand(v, p, &c.Demand)
 		case "alarms":
 			return d.sequence(v, p, "alarm rules", maxAlarms, func(_ int, v *yaml.Node, ip string) *Error {
 				a := Alarm{Line: v.Line}
@@ -443,13 +454,11 @@ func (d *decoder) wiring(n *yaml.Node, path string, dst *string) *Error {
 		return e
 	}
 	switch w {
-	case WiringSinglePhase, WiringWye:
+	case WiringSinglePhase, WiringWye, WiringDelta:
 		*dst = w
 		return nil
-	case "delta":
-		return d.errf(n, path, "delta comes later; use single-phase or wye")
 	}
-	return d.errf(n, path, "%q is not allowed; use single-phase or wye (delta comes later)", w)
+	return d.errf(n, path, "%q is not allowed; use single-phase, wye or delta", w)
 }
 
 // maxOrder is the highest harmonic order computed (IEC 61000-4-7 and
@@ -506,7 +515,7 @@ func (d *decoder) channel(n *yaml.Node, path string, ch *Channel) *Error {
 		case "kind":
 			return d.enum(v, p, &ch.Kind, KindVoltage, KindCurrent)
 		case "phase":
-			return d.enum(v, p, &ch.Phase, "a", "b", "c", "n")
+			return d.enum(v, p, &ch.Phase, "a", "b", "c", "n", "ab", "bc", "ca", "ba", "cb", "ac")
 		case "scale":
 			return d.float(v, p, &ch.Scale)
 		case "offset":
@@ -543,6 +552,8 @@ func (d *decoder) store(n *yaml.Node, path string, s *Store) *Error {
 			return d.duration(v, p, &s.CommitEvery)
 		case "max_size_mb":
 			return d.integer(v, p, 1, maxStoreMB, &s.MaxSizeMB)
+		case "on_damage":
+			return d.enum(v, p, &s.OnDamage, OnDamageSetAside, OnDamageFail)
 		case "retention":
 			return d.mapping(v, p, "store.retention", func(k string, v *yaml.Node, p string) *Error {
 				var r time.Duration
@@ -586,6 +597,18 @@ func (d *decoder) mqtt(n *yaml.Node, path string, m *MQTT) *Error {
 			})
 		case "topic_prefix":
 			return d.str(v, p, &m.TopicPrefix)
+		case "telemetry_qos":
+			if m.TelemetryQoS == nil {
+				m.TelemetryQoS = map[string]int{}
+			}
+			return d.mapping(v, p, "mqtt.telemetry_qos", func(k string, v *yaml.Node, p string) *Error {
+				var q int
+				if e := d.integer(v, p, 0, 2, &q); e != nil {
+					return e
+				}
+				m.TelemetryQoS[k] = q
+				return nil
+			})
 		case "telemetry":
 			m.Telemetry = []string{}
 			return d.sequence(v, p, "interval labels (3s, 10min, 2h), such as [10min]", len(telemetryLevels), func(_ int, v *yaml.Node, ip string) *Error {

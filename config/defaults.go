@@ -20,9 +20,9 @@ site: site                 # free text: report title and MQTT topic level
 # gateway: <host name>     # this gateway's name and MQTT topic level; default: the host name
 nominal:
   frequency_hz: 50         # required: 50 or 60
-  voltage_v: 230           # required: declared voltage in V (phase-to-neutral for wye and single-phase)
+  voltage_v: 230           # required: declared voltage in V (phase-to-neutral for wye and single-phase, line-to-line for delta)
   current_a: 0             # base for near-zero floors when a current channel has no full_scale; 0 = unset
-wiring: wye                # single-phase | wye   (delta comes later)
+wiring: wye                # single-phase | wye | delta (three-wire, no neutral)
 sample_rate_hz: 0          # Hz, only when the input carries none; 0 = from the input.
                            # Must exceed 2 x highest order x 1.15 x nominal frequency
                            # (5750 Hz at 50 Hz, 6900 Hz at 60 Hz with harmonics: all)
@@ -35,13 +35,15 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 # channels:                # required, at least one voltage channel; matched by name to CSV columns, in file order for WAV
 #   - name: va             # required, unique; no commas or white space
 #     kind: voltage        # required: voltage | current
-#     phase: a             # required: a | b | c | n (n: a neutral current)
+#     phase: a             # required: a | b | c | n (n: a neutral current); delta voltages ab | bc | ca | ba | cb | ac
 #     scale: 1.0           # engineering value = raw x scale + offset; never 0
 #     offset: 0.0
 #     full_scale: 0        # engineering units, enables the clipped flag; 0 = none
 #     delay_us: 0          # sampling skew or sensor lag to correct, microseconds (less than one cycle)
 # single-phase: one voltage on phase a, currents on a (and n).
 # wye: voltages on a, b, c; each phase with a current needs its voltage.
+# delta: line-to-line voltages; currents on two phases (the two-wattmeter hook-up:
+#   ab and cb with CTs on a and c, the third current computed) or on all three; no n.
 
 # source:                  # daemon input; default: none (replay names its input on the command line)
 #   kind: sim              # required in a source: sim | csv | wav
@@ -52,6 +54,7 @@ store:
   path: ""                 # bbolt file; "" = not configured
   commit_every: 60s        # aggregates are batched; alarm transitions commit at once; more than 0
   max_size_mb: 512         # hard cap in MiB, 1..2047 (the whole file is memory-mapped)
+  on_damage: set_aside     # a damaged file at start: set_aside (rename it, start fresh, keep measuring) | fail
   retention:               # how long each level is kept; more than 0
     3s: 168h
     10min: 9600h
@@ -70,6 +73,7 @@ mqtt:
     key: ""
   topic_prefix: gridloupe  # one or more topic levels separated by /; no +, # or leading $
   telemetry: [10min]       # levels published, from 3s, 10min, 2h; [] = none
+  telemetry_qos: {3s: 1, 10min: 1, 2h: 1}  # MQTT QoS per level, 0..2; 1 = kept until the broker acknowledges
 
 events:                    # voltage dips, swells and interruptions (IEC 61000-4-30 style, on Urms(1/2))
   dip_pct: 90              # % of nominal.voltage_v: an event opens when a voltage falls below this
@@ -97,4 +101,15 @@ alarms: []
 #     off_delay: 0s                # sample time it must be clear before clearing
 #     severity: warning            # info | warning | critical (default warning)
 #     min_load_pct: 0              # quiet below this % of il_a (or the current channel's full_scale); 0 = off
+
+# modbus:                  # read-only Modbus TCP server for a BMS; off unless this section is given
+#   listen: 127.0.0.1:5020 # host:port; loopback by default (see the README before exposing it)
+#   unit_id: 1             # unit identifier answered, 1..247 (0 and 255 are answered too)
+#   word_order: high_first # high_first | low_first: which 16-bit half of a float32 comes first
+# http:                    # /metrics (Prometheus), /api/latest (JSON) and the status page on /; off unless given
+#   listen: 127.0.0.1:8080 # host:port; loopback by default
+
+demand:                    # demand of the phase currents and total power (IEEE 519's IL is built from it)
+  interval: 15m            # whole minutes from 1m to 60m that divide an hour
+  method: fixed            # fixed (clock-aligned blocks) | sliding (the last interval, moved every 3 s)
 `

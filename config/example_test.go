@@ -62,7 +62,7 @@ channels:
 	fmt.Println(errors.Is(err, config.ErrInvalid))
 	// Output:
 	// 4 channels[1].phase
-	// dc2.yaml:4:38: channels[1].phase: "x" is not allowed; use one of: a, b, c, n
+	// dc2.yaml:4:38: channels[1].phase: "x" is not allowed; use one of: a, b, c, n, ab, bc, ca, ba, cb, ac
 	// true
 }
 

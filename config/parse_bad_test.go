@@ -9,6 +9,13 @@ import (
 
 // hdr1 is a minimal valid single-voltage document of three lines; cases
 // append from line 4.
+// hdrD: North Weir DC-2's incomer measured three-wire, 400 V line-to-line,
+// voltages ab and cb (the two-wattmeter hook-up); currents follow.
+const hdrD = "nominal: {frequency_hz: 50, voltage_v: 400}\nwiring: delta\n" +
+	"channels:\n" +
+	"  - {name: vab, kind: voltage, phase: ab}\n" +
+	"  - {name: vcb, kind: voltage, phase: cb}\n"
+
 const hdr1 = "nominal: {frequency_hz: 50, voltage_v: 230}\n" +
 	"channels:\n" +
 	"  - {name: va, kind: voltage, phase: a}\n"
@@ -27,7 +34,7 @@ const hdr3 = "nominal: {frequency_hz: 50, voltage_v: 230}\n" +
 
 // Sources of the rules the bad cases check.
 const (
-	srcBrief   = "config brief: validation list (file:line:col, key path, what is allowed)"
+	srcBrief   = "DESIGN, Config (YAML): validation list (file:line:col, key path, what is allowed)"
 	srcDesign  = "DESIGN.md, Interface contract / Config (YAML)"
 	srcDaemon  = "DESIGN.md, Daemon keys, MQTT and store"
 	srcMeasure = "DESIGN.md, Conventions of measurement"
@@ -80,8 +87,13 @@ var badCases = []badCase{
 	{name: "current negative", doc: "nominal: {frequency_hz: 60, voltage_v: 277, current_a: -1}\nchannels: [{name: va, kind: voltage, phase: a}]\n", line: 1, key: "nominal.current_a", phrase: "must not be negative", src: srcDesign},
 
 	// wiring, rates, scalars.
-	{name: "delta", doc: hdr1 + "wiring: delta\n", line: 4, col: 9, key: "wiring", phrase: "delta comes later", src: srcDesign},
-	{name: "wiring unknown", doc: hdr1 + "wiring: star\n", line: 4, key: "wiring", phrase: `"star" is not allowed; use single-phase or wye`, src: srcDesign},
+	{name: "delta with a phase-to-neutral voltage", doc: hdr1 + "wiring: delta\n", line: 3, key: "channels[0].phase", phrase: "delta voltages are line-to-line", src: srcDesign + " (Delta wiring)"},
+	{name: "delta with a neutral CT", doc: hdrD + "  - {name: ia, kind: current, phase: a}\n  - {name: ic, kind: current, phase: c}\n  - {name: in, kind: current, phase: n}\n", line: 8, key: "channels[4].phase", phrase: "has no neutral", src: srcDesign + " (Delta wiring)"},
+	{name: "delta with one CT", doc: hdrD + "  - {name: ia, kind: current, phase: a}\n", line: 6, key: "channels[2].phase", phrase: "one current (phase a) cannot give a three-wire total", src: "Blondel's theorem (REFERENCE §8)"},
+	{name: "delta two CTs off the shared phase", doc: hdrD + "  - {name: ia, kind: current, phase: a}\n  - {name: ib, kind: current, phase: b}\n", line: 4, key: "channels", phrase: "two CTs (on a and b) need the voltages to the phase without a CT, ac and bc", src: srcDesign + " (Delta wiring: both voltages share the phase without a CT)"},
+	{name: "delta line twice", doc: hdrD + "  - {name: vba, kind: voltage, phase: ba}\n", line: 6, key: "channels[2].phase", phrase: "a second voltage on line ab", src: "common practice, no source"},
+	{name: "line-to-line on wye", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: vab, kind: voltage, phase: ab}\n", line: 3, key: "channels[0].phase", phrase: "ab is a line-to-line voltage, for wiring: delta", src: srcDesign + " (Delta wiring)"},
+	{name: "wiring unknown", doc: hdr1 + "wiring: star\n", line: 4, key: "wiring", phrase: `"star" is not allowed; use single-phase, wye or delta`, src: srcDesign},
 	{name: "rate at the 60 Hz floor", doc: "nominal: {frequency_hz: 60, voltage_v: 277}\nchannels: [{name: va, kind: voltage, phase: a}]\nsample_rate_hz: 6900\n", line: 3, key: "sample_rate_hz", phrase: "must exceed twice that, 6900 Hz", src: srcRate + ": 2·50·69 = 6900"},
 	{name: "rate under the 50 Hz floor", doc: hdr1 + "sample_rate_hz: 5000\n", line: 4, key: "sample_rate_hz", phrase: "order 50 lies at 2875 Hz, so sampling must exceed twice that, 5750 Hz", src: srcRate + ": 50·57.5 = 2875, 2·2875 = 5750"},
 	{name: "rate under a listed order", doc: hdr1 + "harmonics: [5, 7]\nsample_rate_hz: 800\n", line: 5, key: "sample_rate_hz", phrase: "the highest listed order is 7", src: srcRate + ": 2·7·57.5 = 805"},
@@ -120,7 +132,7 @@ var badCases = []badCase{
 	{name: "kind missing", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, phase: a}\n", line: 3, key: "channels[0].kind", phrase: "required: voltage or current", src: srcDesign},
 	{name: "kind unknown", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: volt, phase: a}\n", line: 3, key: "channels[0].kind", phrase: `"volt" is not allowed; use one of: voltage, current`, src: srcDesign},
 	{name: "phase missing", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: voltage}\n", line: 3, key: "channels[0].phase", phrase: "required: a, b or c", src: srcDesign},
-	{name: "phase d", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: voltage, phase: d}\n", line: 3, key: "channels[0].phase", phrase: "use one of: a, b, c, n", src: srcDesign},
+	{name: "phase d", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: voltage, phase: d}\n", line: 3, key: "channels[0].phase", phrase: "use one of: a, b, c, n, ab, bc, ca, ba, cb, ac", src: srcDesign},
 	{name: "voltage on neutral", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: vn, kind: voltage, phase: n}\n", line: 3, key: "channels[0].phase", phrase: "n is for a neutral current", src: srcDesign},
 	{name: "scale zero", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: voltage, phase: a, scale: 0}\n", line: 3, key: "channels[0].scale", phrase: "must not be 0", src: srcBrief},
 	{name: "full_scale negative", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: voltage, phase: a, full_scale: -400}\n", line: 3, key: "channels[0].full_scale", phrase: "must not be negative", src: srcBrief},
@@ -158,6 +170,9 @@ var badCases = []badCase{
 	{name: "max_size_mb zero", doc: hdr1 + "store: {max_size_mb: 0}\n", line: 4, key: "store.max_size_mb", phrase: "allowed: 1 to 2047", src: "bbolt maxMapSize on 32-bit targets (just under 2 GiB)"},
 	{name: "max_size_mb huge", doc: hdr1 + "store: {max_size_mb: 99999999999}\n", line: 4, key: "store.max_size_mb", phrase: "allowed: 1 to 2047", src: "bbolt maxMapSize on 32-bit targets (just under 2 GiB)"},
 	{name: "max_size_mb fraction", doc: hdr1 + "store: {max_size_mb: 1.5}\n", line: 4, key: "store.max_size_mb", phrase: "must be a whole number", src: srcBrief},
+	{name: "on_damage unknown", doc: hdr1 + "store: {on_damage: delete}\n", line: 4, key: "store.on_damage", phrase: "use one of: set_aside, fail", src: "README, The store: on_damage values"},
+	{name: "telemetry_qos 3", doc: hdr1 + "mqtt: {telemetry_qos: {3s: 3}}\n", line: 4, key: "mqtt.telemetry_qos.3s", phrase: "allowed: 0 to 2", src: "MQTT 3.1.1 section 4.3: QoS levels 0, 1 and 2"},
+	{name: "telemetry_qos level", doc: hdr1 + "mqtt: {telemetry_qos: {1min: 1}}\n", line: 4, key: "mqtt.telemetry_qos.1min", phrase: "unknown key", src: srcBrief},
 
 	// mqtt.
 	{name: "both password sources", doc: hdr1 + "mqtt: {username: u, password_file: p, password_env: P}\n", line: 4, key: "mqtt.password_env", phrase: "set password_file or password_env, not both", src: srcBrief},

@@ -59,15 +59,18 @@ func parse(path string, data []byte, hostname func() (string, error)) (*Config, 
 		Wiring:     WiringWye,
 		Harmonics:  Harmonics{All: true},
 		LockMinPct: defaultLockMinPct,
-		Store:      Store{CommitEvery: defaultCommitEvery, MaxSizeMB: defaultMaxSizeMB, Retention: defaultRetention()},
-		MQTT:       MQTT{TopicPrefix: defaultPrefix, Telemetry: []string{defaultLevel}},
+		Store:      Store{CommitEvery: defaultCommitEvery, MaxSizeMB: defaultMaxSizeMB, Retention: defaultRetention(), OnDamage: OnDamageSetAside},
+		MQTT:       MQTT{TopicPrefix: defaultPrefix, Telemetry: []string{defaultLevel}, TelemetryQoS: defaultTelemetryQoS()},
+		Modbus:     Modbus{Listen: defaultModbusListen, UnitID: 1, WordOrder: WordHighFirst},
+		HTTP:       HTTP{Listen: defaultHTTPListen},
+		Demand:     Demand{Interval: defaultDemand, Method: DemandFixed},
 		Events:     defaultEvents(),
 	}
 	if e := d.decode(c); e != nil {
 		return nil, e
 	}
 	v := validator{decoder: d, c: c}
-	for _, check := range []func() *Error{v.names, v.nominal, v.scalars, v.channels, v.reference, v.rate, v.source, v.store, v.mqtt, v.alarms, v.events} {
+	for _, check := range []func() *Error{v.names, v.nominal, v.scalars, v.channels, v.reference, v.rate, v.source, v.store, v.mqtt, v.alarms, v.integration, v.events} {
 		if e := check(); e != nil {
 			return nil, e
 		}
@@ -183,6 +186,7 @@ func (v *validator) channels() *Error {
 	names := map[string]int{}  // name → index
 	levels := map[string]int{} // topic level → index
 	var vIdx, iIdx [4]int      // per phase a, b, c, n: index+1 of the voltage / current channel
+	var lines, currents [3]int // delta: per line ab, bc, ca and per phase a, b, c: index+1
 	for i := range c.Channels {
 		ch := &c.Channels[i]
 		p := fmt.Sprintf("channels[%d]", i)
@@ -218,6 +222,15 @@ func (v *validator) channels() *Error {
 		case math.Abs(ch.DelayUS) >= 1e6/c.Nominal.FrequencyHz:
 			return v.fail(p+".delay_us", "%g µs is a cycle or more at %g Hz; a correction that large is a wiring or channel-order mistake", ch.DelayUS, c.Nominal.FrequencyHz)
 		}
+		if c.Wiring == WiringDelta {
+			if e := v.deltaChannel(p, i, &lines, &currents); e != nil {
+				return e
+			}
+			continue
+		}
+		if len(ch.Phase) == 2 {
+			return v.fail(p+".phase", "%s is a line-to-line voltage, for wiring: delta; on %s use a, b or c (measured to neutral)", ch.Phase, c.Wiring)
+		}
 		ph := strings.IndexByte("abcn", ch.Phase[0])
 		slot := &vIdx[ph]
 		if ch.Kind == KindCurrent {
@@ -227,6 +240,9 @@ func (v *validator) channels() *Error {
 			return v.fail(p+".phase", "a second %s channel on phase %s (first: %s, line %d); one per phase", ch.Kind, ch.Phase, c.Channels[*slot-1].Name, c.Channels[*slot-1].Line)
 		}
 		*slot = i + 1
+	}
+	if c.Wiring == WiringDelta {
+		return v.deltaHookup(lines, currents)
 	}
 	nv := 0
 	for _, x := range vIdx {
@@ -340,6 +356,12 @@ func (v *validator) source() *Error {
 	}
 	v.resolve(&s.Path)
 	return nil
+}
+
+// defaultTelemetryQoS is QoS 1 for every level: a message is deleted from
+// the outbox only once the broker acknowledged it.
+func defaultTelemetryQoS() map[string]int {
+	return map[string]int{"3s": 1, "10min": 1, "2h": 1}
 }
 
 func (v *validator) store() *Error {
@@ -527,6 +549,15 @@ func (v *validator) pfPhase(p string, a *Alarm) *Error {
 		}
 		return hv && hi
 	}
+	if c.Wiring == WiringDelta {
+		if a.Phase != "total" {
+			return v.fail(p+".phase", "delta has no per-phase %s (no phase-to-neutral voltages); use phase: total", a.Metric)
+		}
+		if len(c.CurrentChannels()) < 2 {
+			return v.fail(p+".metric", "%s needs two or three current channels on delta", a.Metric)
+		}
+		return nil
+	}
 	if a.Phase == "total" {
 		if !hasPair("a") && !hasPair("b") && !hasPair("c") {
 			return v.fail(p+".metric", "%s needs a phase with both a voltage and a current channel", a.Metric)
@@ -545,8 +576,11 @@ func (v *validator) unbalance(p, metric string) *Error {
 		return nil
 	}
 	kind = strings.TrimSuffix(kind, "_pct")
+	if v.c.Wiring == WiringDelta {
+		return v.deltaUnbalance(p, metric, kind)
+	}
 	if v.c.Wiring != WiringWye {
-		return v.fail(p+".metric", "%s needs wiring: wye", metric)
+		return v.fail(p+".metric", "%s needs wiring: wye or delta", metric)
 	}
 	for _, ph := range []string{"a", "b", "c"} {
 		if !slices.ContainsFunc(v.c.Channels, func(ch Channel) bool { return ch.Kind == kind && ch.Phase == ph }) {

@@ -28,7 +28,7 @@ func bankPhasors(tb testing.TB, orders []int, w float64, x []float64) []complex1
 }
 
 // drive50 is a distorted current at the fundamental w: 1/h harmonics of a
-// six-pulse front end (REFERENCE 5) at assorted angles, plus noise.
+// six-pulse front end (closed form) at assorted angles, plus noise.
 func drive50(n int, w float64, seed uint64) []float64 {
 	var tones []tone
 	for _, h := range sixPulse {

@@ -28,7 +28,7 @@ func fftPhasor(c complex128, n int) complex128 {
 
 func TestGonumConvention(t *testing.T) {
 	t.Parallel()
-	// src: REFERENCE 6.1 "for a real sinusoid of peak A spanning an integer
+	// src: DFT of a sinusoid, closed form: "for a real sinusoid of peak A spanning an integer
 	// number of cycles, |X| = A·N/2" [confirmed: numeric check], and the
 	// e^{−j} sign convention makes the angle of cos(ωn + θ) equal θ.
 	const (

@@ -47,7 +47,7 @@ func TestPhasorMatchesDirectDFT(t *testing.T) {
 
 func TestPhasorEmpty(t *testing.T) {
 	t.Parallel()
-	// src: brief/API contract: an empty window has no phasor, 0 by definition.
+	// src: Phasor doc: an empty window has no phasor, 0 by definition.
 	if got := Phasor(nil, 0.1); got != 0 {
 		t.Fatalf("Phasor(nil) = %v, want 0", got)
 	}
@@ -80,7 +80,7 @@ func TestPhasorClosedForms(t *testing.T) {
 			x:    sineWave(2048, a, 10.0/2048, 0),
 			w:    10.0 / 2048,
 			want: complex(0, -a/math.Sqrt2),
-			src:  "REFERENCE 5: sine RMS = peak/√2; sin(φ) = cos(φ − 90°), so a cosine-referenced phasor reads −90°",
+			src:  "closed form: sine RMS = peak/√2; sin(φ) = cos(φ − 90°), so a cosine-referenced phasor reads −90°",
 		},
 		{
 			name: "cosine R at θ, integer bin",

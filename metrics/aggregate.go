@@ -148,7 +148,9 @@ func (a *Aggregator) hIdx(k, h int) int {
 // and harmonic order; entries the Setup does not have are ignored.
 func (a *Aggregator) Add(r *Record) {
 	a.n++
-	a.samples += r.Samples
+	if r.Interval != Int200ms || r.Flags&FlagGap == 0 {
+		a.samples += r.Samples // only whole windows count (DESIGN "Sources": gaps)
+	}
 	if d := r.DurationS; d > 0 && !math.IsInf(d, 0) {
 		a.dur += d
 	}
@@ -187,7 +189,7 @@ func (a *Aggregator) Add(r *Record) {
 			p.pfN++
 		}
 	}
-	if len(a.ph) > 0 {
+	if a.s.HasTotal() {
 		t, v := &a.tot, &r.Total
 		t.p.add(v.P)
 		t.q1.add(v.Q1)
@@ -242,7 +244,8 @@ func keep(x float64) float64 {
 // by NewRecord; re-sized once otherwise). The caller sets Interval and
 // Start. Rules, per key (DESIGN "Aggregation"):
 //
-//   - Samples, DurationS: sums. Flags: union of the records' flags, plus
+//   - Samples, DurationS: sums, except that a 200 ms window flagged gap
+//     adds no samples (only whole windows count). Flags: union of the records' flags, plus
 //     undefined when a recomputed value falls below its near-zero floor.
 //   - FreqHz: mean. Freq10sHz: mean of the 10 s values present; HasFreq10s
 //     when any record had one.
@@ -293,10 +296,10 @@ func (a *Aggregator) Result(out *Record) {
 	a.total(&g, out)
 	out.UnbV, out.UnbI = Null(), Null()
 	if a.hasSeqV {
-		out.UnbV = resultSeq(&g, out.SeqV, a.seqV, s.Orders, s.floor(s.VIdx[0]))
+		out.UnbV = resultSeq(&g, out.SeqV, a.seqV, s.Orders, s.floor(s.seqFloorChannel(Voltage)))
 	}
 	if a.hasSeqI {
-		out.UnbI = resultSeq(&g, out.SeqI, a.seqI, s.Orders, s.floor(s.IIdx[0]))
+		out.UnbI = resultSeq(&g, out.SeqI, a.seqI, s.Orders, s.floor(s.seqFloorChannel(Current)))
 	}
 	out.Flags = a.flags | g.flags
 }
@@ -326,7 +329,10 @@ func (a *Aggregator) channel(g *agg, i int, cv *ChannelValues) {
 			cv.THDH50Pct = g.def(100 * math.Sqrt(h50) / x1)
 		}
 	} else {
-		cv.THDPct = g.def(Null())
+		cv.THDPct = Null()
+		if !s.naturalFloor(i) {
+			cv.THDPct = g.def(Null())
+		}
 		if s.AllOrders {
 			cv.THDH50Pct = Null()
 		}
@@ -411,8 +417,12 @@ func dpfOf(g *agg, p1, q1, fs float64) float64 {
 
 func (a *Aggregator) total(g *agg, out *Record) {
 	s, t, ta := a.s, &out.Total, &a.tot
-	if len(out.Phases) == 0 {
+	if !s.HasTotal() {
 		nullTotal(t)
+		return
+	}
+	if s.Wiring == Delta {
+		a.deltaTotal(g, t)
 		return
 	}
 	var sa, s1, p1, q1, fs float64
@@ -435,18 +445,45 @@ func (a *Aggregator) total(g *agg, out *Record) {
 	if s.Wiring == Wye && len(out.Phases) == 3 {
 		t.Se = keep(3 * t.Ve * t.Ie)
 		t.Se1 = keep(ta.se1.mean())
-		// all-or-nothing: P1⁺ and Q1⁺ from only some inputs (records
-		// stored before they were kept) would weight those few alone
-		if ta.p1p.n > 0 && ta.p1p.n == ta.dpf.n && ta.q1p.n == ta.dpf.n {
-			t.DPF = dpfOf(g, t.P1Pos, t.Q1Pos, fs)
-		} else {
-			t.DPF = keep(ta.dpf.mean())
-		}
+		t.DPF = a.posDPF(g, t, fs)
 		return
 	}
 	t.Se = keep(sa)
 	t.Se1 = keep(s1)
 	t.DPF = dpfOf(g, keep(p1), keep(q1), fs)
+}
+
+// posDPF returns the total dpf from the aggregated P1⁺ and Q1⁺. It is
+// all-or-nothing: P1⁺ and Q1⁺ from only some inputs (records stored before
+// they were kept) would weight those few alone, so then it is the mean of
+// the windows' dpf.
+func (a *Aggregator) posDPF(g *agg, t *TotalValues, fs float64) float64 {
+	ta := &a.tot
+	if ta.p1p.n > 0 && ta.p1p.n == ta.dpf.n && ta.q1p.n == ta.dpf.n {
+		return dpfOf(g, t.P1Pos, t.Q1Pos, fs)
+	}
+	return keep(ta.dpf.mean())
+}
+
+// deltaTotal aggregates three-wire totals: P, Q1, Se1, P1⁺, Q1⁺ means; Ve,
+// Ie quadratic means; Se = 3·Ve·Ie; pf Σp/Σse; s_va does not apply (null).
+func (a *Aggregator) deltaTotal(g *agg, t *TotalValues) {
+	s, ta := a.s, &a.tot
+	var fs float64
+	for _, e := range s.Products {
+		fs += s.floor(e.V) * s.floor(e.I)
+	}
+	t.P = keep(ta.p.mean())
+	t.Q1 = keep(ta.q1.mean())
+	t.S = Null()
+	t.Ve = keep(ta.ve.rms())
+	t.Ie = keep(ta.ie.rms())
+	t.P1Pos = keep(ta.p1p.mean())
+	t.Q1Pos = keep(ta.q1p.mean())
+	t.PF = pfOf(g, ta.pfP, ta.pfS, ta.pfN, fs)
+	t.Se = keep(3 * t.Ve * t.Ie)
+	t.Se1 = keep(ta.se1.mean())
+	t.DPF = a.posDPF(g, t, fs)
 }
 
 // resultSeq writes aggregated sequence magnitudes and returns the

@@ -41,6 +41,24 @@ func (w *window) undef() float64 {
 	return Null()
 }
 
+// floorNull is undef, except for a quantity undefined by nature (natural):
+// Null without the flag, so the flag keeps its meaning.
+func (w *window) floorNull(natural bool) float64 {
+	if natural {
+		return Null()
+	}
+	return w.undef()
+}
+
+// naturalFloor reports whether channel ci's fundamental is near zero by
+// nature: a neutral current, which in a balanced system carries little
+// fundamental (its distortion and harmonic percentages are then null
+// without the undefined flag; README "What is measured").
+func (s *Setup) naturalFloor(ci int) bool {
+	c := &s.Channels[ci]
+	return c.Kind == Current && c.Phase == 'n'
+}
+
 // bad reports whether channel ci's sums cannot be used: flagged Bad by the
 // pipeline, no samples, or sums of the wrong shape.
 func (w *window) bad(ci int) bool {
@@ -138,6 +156,11 @@ func Compute(s *Setup, in *Input, out *Record) {
 	for ci := range s.Channels {
 		w.channel(ci, &out.Channels[ci], refOK, thRef)
 	}
+	if s.Wiring == Delta {
+		w.delta(out)
+		out.Flags = w.flags
+		return
+	}
 	for pi, p := range s.Pairs {
 		w.pair(pi, p, &out.Phases[pi])
 	}
@@ -177,10 +200,11 @@ func (w *window) channel(ci int, cv *ChannelValues, refOK bool, thRef float64) {
 			cv.THDH50Pct = w.def(100 * math.Sqrt(h50) / x1)
 		}
 	} else {
-		cv.THDPct = w.undef()
+		nat := s.naturalFloor(ci)
+		cv.THDPct = w.floorNull(nat)
 		cv.THDH50Pct = Null()
 		if s.AllOrders {
-			cv.THDH50Pct = w.undef()
+			cv.THDH50Pct = w.floorNull(nat)
 		}
 	}
 	// TDD (IEEE 519): the same distortion relative to IL.
@@ -204,7 +228,7 @@ func (w *window) channel(ci int, cv *ChannelValues, refOK bool, thRef float64) {
 		if fundOK {
 			h.Pct = w.def(100 * r / x1)
 		} else {
-			h.Pct = w.undef()
+			h.Pct = w.floorNull(s.naturalFloor(ci))
 		}
 		h.PctIL = Null()
 		if il > 0 {

@@ -107,12 +107,12 @@ func inputFor(tb testing.TB, s *Setup, x [][]float64) *Input {
 	if len(x) != len(s.Channels) {
 		tb.Fatalf("inputFor: %d sample sets for %d channels", len(x), len(s.Channels))
 	}
-	in := &Input{Ch: make([]ChannelSums, len(x)), SumVI: make([]float64, len(s.Pairs)),
+	in := &Input{Ch: make([]ChannelSums, len(x)), SumVI: make([]float64, len(s.Products)),
 		FreqHz: f0, OmegaHz: f0, Lock: true}
 	for c := range x {
 		in.Ch[c] = dftSums(x[c], s.Orders)
 	}
-	for k, p := range s.Pairs {
+	for k, p := range s.Products {
 		for i, v := range x[p.V] {
 			in.SumVI[k] += v * x[p.I][i]
 		}

@@ -7,7 +7,7 @@ type Setup struct {
 	Orders    []int // computed orders, ascending, Orders[0] == 1
 	AllOrders bool  // Orders holds every order 1..50, so h50 values exist
 	Wiring    Wiring
-	NominalV  float64 // declared voltage (phase-to-neutral), V
+	NominalV  float64 // declared voltage (phase-to-neutral; line-to-line for Delta), V
 	NominalI  float64 // nominal current, A; 0 = unset
 	ILA       float64 // maximum demand load current, A; 0 = unset (no TDD, no pct_il)
 	Reference int     // index in Channels of the angle reference (a voltage)
@@ -18,6 +18,16 @@ type Setup struct {
 	VIdx    [3]int // voltage channel of phase a, b, c; −1 when none
 	IIdx    [3]int // current channel of phase a, b, c; −1 when none
 
+	// Products are the (voltage, current) channel products the pipeline
+	// sums over each window into Input.SumVI: Pairs for single-phase and
+	// wye, the two-wattmeter elements for Delta.
+	Products []Pair
+	// LL is, for Delta, the voltage channel of line ab, bc and ca (−1 when
+	// not measured); LLNeg marks a channel wired the other way round (ba,
+	// cb, ac), whose samples are the negative of the line's.
+	LL    [3]int
+	LLNeg [3]bool
+
 	valid bool // set by NewSetup; Compute fills only nulls without it
 }
 
@@ -25,6 +35,9 @@ type Setup struct {
 type Pair struct {
 	Phase byte
 	V, I  int
+	// Neg marks a Delta wattmeter element whose voltage channel measures
+	// the reverse of the element's voltage: its Σv·i enters P negated.
+	Neg bool
 }
 
 // ChannelSums is what the pipeline accumulates for one channel over one
@@ -41,7 +54,7 @@ type ChannelSums struct {
 // Input is one window's accumulated sums, handed to Compute.
 type Input struct {
 	Ch      []ChannelSums // per Setup.Channels
-	SumVI   []float64     // per Setup.Pairs: Σ v·i over the window (raw samples)
+	SumVI   []float64     // per Setup.Products: Σ v·i over the window (raw samples)
 	FreqHz  float64       // tracked fundamental frequency of the window; NaN without lock
 	OmegaHz float64       // frequency used for delay correction (FreqHz, or nominal without lock)
 	Lock    bool

@@ -41,13 +41,15 @@ type Wiring uint8
 const (
 	SinglePhase Wiring = iota + 1
 	Wye
+	Delta // three-wire: line-to-line voltages, two or three currents
 )
 
 // Channel describes one measured channel as the computations need it.
 type Channel struct {
 	Name      string
 	Kind      Kind
-	Phase     byte    // 'a', 'b', 'c' or 'n' (neutral current)
+	Phase     byte    // 'a', 'b', 'c' or 'n' (neutral current); a line-to-line voltage's first phase
+	To        byte    // Delta voltages: the second phase ('b' for a channel measuring v_ab); 0 otherwise
 	FullScale float64 // engineering units; 0 = none (no clipping check)
 	DelayS    float64 // sampling skew or sensor lag to correct, seconds; order h is rotated by h·ω·DelayS
 }

@@ -24,7 +24,7 @@ func NewSetup(s Setup) (*Setup, error) {
 	if len(s.Channels) == 0 {
 		return nil, ErrNoChannels
 	}
-	if s.Wiring != SinglePhase && s.Wiring != Wye {
+	if s.Wiring != SinglePhase && s.Wiring != Wye && s.Wiring != Delta {
 		return nil, fmt.Errorf("wiring %d: %w", s.Wiring, ErrWiring)
 	}
 	for _, v := range [...]struct {
@@ -42,6 +42,9 @@ func NewSetup(s Setup) (*Setup, error) {
 	out.VIdx = [3]int{-1, -1, -1}
 	out.IIdx = [3]int{-1, -1, -1}
 	out.Pairs = nil
+	out.Products = nil
+	out.LL = [3]int{-1, -1, -1}
+	out.LLNeg = [3]bool{}
 	for i := range out.Channels {
 		if err := out.addChannel(i); err != nil {
 			return nil, err
@@ -62,11 +65,19 @@ func NewSetup(s Setup) (*Setup, error) {
 	if out.Reference < 0 || out.Reference >= len(out.Channels) || out.Channels[out.Reference].Kind != Voltage {
 		return nil, fmt.Errorf("reference %d: %w", s.Reference, ErrReference)
 	}
+	if out.Wiring == Delta {
+		if err := out.deltaElements(); err != nil {
+			return nil, err
+		}
+		out.valid = true
+		return &out, nil
+	}
 	for p := range 3 {
 		if out.VIdx[p] >= 0 && out.IIdx[p] >= 0 {
 			out.Pairs = append(out.Pairs, Pair{Phase: byte('a' + p), V: out.VIdx[p], I: out.IIdx[p]})
 		}
 	}
+	out.Products = out.Pairs
 	out.valid = true
 	return &out, nil
 }
@@ -81,6 +92,12 @@ func (s *Setup) addChannel(i int) error {
 	}
 	if math.IsNaN(c.DelayS) || math.IsInf(c.DelayS, 0) {
 		return fmt.Errorf("channel %d %q: delay %v: %w", i, c.Name, c.DelayS, ErrChannel)
+	}
+	if s.Wiring == Delta {
+		return s.addDeltaChannel(i)
+	}
+	if c.To != 0 {
+		return fmt.Errorf("channel %d %q: line-to-line voltage %c%c needs delta wiring: %w", i, c.Name, c.Phase, c.To, ErrChannel)
 	}
 	switch {
 	case c.Phase == 'n' && c.Kind == Current:
@@ -107,8 +124,11 @@ func (s *Setup) addChannel(i int) error {
 }
 
 func wiringName(w Wiring) string {
-	if w == Wye {
+	switch w {
+	case Wye:
 		return "wye"
+	case Delta:
+		return "delta"
 	}
 	return "single-phase"
 }
@@ -144,14 +164,66 @@ func (s *Setup) floor(ci int) float64 {
 	return 1e-6
 }
 
-// threeV reports whether sequence values exist for voltages (wye, three
-// phase voltages); threeI likewise for currents.
+// threeV reports whether sequence values exist for voltages (wye: three
+// phase voltages; delta: two or three line-to-line voltages, the third
+// following from the other two); threeI likewise for currents (delta: two
+// or three currents).
 func (s *Setup) threeV() bool {
+	if s.Wiring == Delta {
+		return count3(s.LL) >= 2
+	}
 	return s.Wiring == Wye && s.VIdx[0] >= 0 && s.VIdx[1] >= 0 && s.VIdx[2] >= 0
 }
 
 func (s *Setup) threeI() bool {
+	if s.Wiring == Delta {
+		return count3(s.IIdx) >= 2
+	}
 	return s.Wiring == Wye && s.IIdx[0] >= 0 && s.IIdx[1] >= 0 && s.IIdx[2] >= 0
+}
+
+// seqFloorChannel returns the channel whose near-zero floor judges the
+// sequence values of kind k: the first phase (delta: line) channel present.
+func (s *Setup) seqFloorChannel(k Kind) int {
+	idx := s.VIdx
+	if k == Current {
+		idx = s.IIdx
+	} else if s.Wiring == Delta {
+		idx = s.LL
+	}
+	for _, x := range idx {
+		if x >= 0 {
+			return x
+		}
+	}
+	return s.Reference
+}
+
+// HasSequence reports whether records carry sequence components (and
+// unbalance) of voltages (k Voltage) or currents: wye with all three
+// phases, delta with two or three lines (currents).
+func (s *Setup) HasSequence(k Kind) bool {
+	if k == Current {
+		return s.threeI()
+	}
+	return s.threeV()
+}
+
+// HasTotal reports whether records carry three-phase (or single-phase)
+// totals: a phase pair exists, or a delta hook-up has its wattmeter
+// elements.
+func (s *Setup) HasTotal() bool {
+	return len(s.Pairs) > 0 || (s.Wiring == Delta && count3(s.IIdx) >= 2)
+}
+
+func count3(idx [3]int) int {
+	n := 0
+	for _, x := range idx {
+		if x >= 0 {
+			n++
+		}
+	}
+	return n
 }
 
 // NewRecord returns a Record whose slices are sized for s once: Channels

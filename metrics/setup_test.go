@@ -65,7 +65,7 @@ func TestNewSetupDerived(t *testing.T) {
 	}
 	// Pairs in a, b, c order for phases with both V and I (DESIGN
 	// interface contract: phases).
-	want := []Pair{{'a', 1, 2}, {'c', 3, 0}}
+	want := []Pair{{Phase: 'a', V: 1, I: 2}, {Phase: 'c', V: 3, I: 0}}
 	if len(s.Pairs) != len(want) || s.Pairs[0] != want[0] || s.Pairs[1] != want[1] {
 		t.Errorf("pairs %v, want %v", s.Pairs, want)
 	}

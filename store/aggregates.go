@@ -45,7 +45,7 @@ func (db *DB) SetLayout(s *metrics.Setup) error {
 	}
 	defer db.wmu.Unlock()
 	var id uint16
-	err = db.bdb.Update(func(tx *bolt.Tx) error {
+	err = db.update(func(tx *bolt.Tx) error {
 		lb := tx.Bucket(bktLayouts)
 		var found bool
 		var maxID uint16
@@ -165,18 +165,18 @@ func (db *DB) PutAggregates(recs []*metrics.Record) error {
 		}
 		return nil
 	}
-	err := db.bdb.Update(put)
+	err := db.update(put)
 	if errors.Is(err, berrors.ErrMaxSizeReached) {
 		db.log.Warn("size cap reached during write; trimming", "err", err)
 		if terr := db.trim(int64(trimLow*float64(db.usable)) - add); terr != nil {
 			return fmt.Errorf("store: put %d records: %w", len(recs), errors.Join(err, terr))
 		}
-		err = db.bdb.Update(put)
+		err = db.update(put)
 	}
 	if err != nil {
 		return fmt.Errorf("store: put %d records: %w", len(recs), err)
 	}
-	if now := time.Now(); now.Sub(db.lastRelease) >= releaseEvery || now.Before(db.lastRelease) {
+	if now := time.Now(); now.Sub(db.lastRelease) >= db.releaseEvery || now.Before(db.lastRelease) {
 		db.lastRelease = now
 		db.releaseMapped()
 	}
@@ -365,7 +365,7 @@ func (db *DB) totalCount() int {
 // ok(k, v) holds, in one transaction.
 func (db *DB) deleteOldest(l metrics.Interval, limit int, ok func(k, v []byte) bool) (int, error) {
 	n := 0
-	err := db.bdb.Update(func(tx *bolt.Tx) error {
+	err := db.update(func(tx *bolt.Tx) error {
 		n = 0
 		c := tx.Bucket([]byte(l.String())).Cursor()
 		for k, v := c.First(); k != nil && n < limit && ok(k, v); k, v = c.First() {

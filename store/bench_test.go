@@ -33,7 +33,7 @@ func wchar() int64 {
 }
 
 // BenchmarkPutAggregates stores batches of records of 8 channels and 17
-// orders: 200 3-s records (the brief's batch), 20 (what commit_every: 60s
+// orders: 200 3-s records (a batch of ten minutes of 3 s values), 20 (what commit_every: 60s
 // collects at 3 s) and a lone 10-min record. Reported: bbolt page-run writes
 // × page size per commit (tx_bytes/op, a lower bound) and write-syscall
 // bytes per commit (wchar_bytes/op, Linux).

@@ -25,6 +25,7 @@ const (
 	hasFreq10s = 1 << iota
 	hasSeqV
 	hasSeqI
+	hasTotal // totals without phases (delta)
 )
 
 // channel flag bits.
@@ -80,6 +81,11 @@ func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) (
 		}
 		pres |= hasSeqV << k
 	}
+	// delta records carry totals without phases
+	deltaTotal := len(r.Phases) == 0 && s.Wiring == metrics.Delta && s.HasTotal()
+	if deltaTotal {
+		pres |= hasTotal
+	}
 	b := append(dst, recordVersion)
 	b = be.AppendUint16(b, lid)
 	b = be.AppendUint64(b, uint64(r.Start.UnixNano()))
@@ -120,7 +126,7 @@ func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) (
 			b = appendF32(b, v)
 		}
 	}
-	if len(r.Phases) > 0 {
+	if len(r.Phases) > 0 || deltaTotal {
 		t := &r.Total
 		for _, v := range [...]float64{t.P, t.Q1, t.S, t.Se, t.Se1, t.Ve, t.Ie, t.PF, t.DPF, t.P1Pos, t.Q1Pos} {
 			b = appendF32(b, v)
@@ -269,7 +275,7 @@ func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Rec
 		p.P, p.P1, p.Q1, p.S, p.S1, p.SN = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
 		p.DI, p.DV, p.SH, p.PF, p.DPF = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
 	}
-	if np > 0 {
+	if np > 0 || pres&hasTotal != 0 {
 		t := &r.Total
 		t.P, t.Q1, t.S, t.Se, t.Se1 = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
 		t.Ve, t.Ie, t.PF, t.DPF = rd.f32(), rd.f32(), rd.f32(), rd.f32()
@@ -325,14 +331,14 @@ func RecordBytes(s *metrics.Setup) int {
 	n := 1 + 2 + 8 + 8 + 3 + 2 + 1 + 4 + 4
 	n += nch * (1 + 6*4 + nord*(4+2))
 	n += 1 + nph*(1+11*4)
-	if nph > 0 {
+	if nph > 0 || s.HasTotal() {
 		n += 11 * 4
 	}
-	if s.Wiring == metrics.Wye {
-		if s.VIdx[0] >= 0 && s.VIdx[1] >= 0 && s.VIdx[2] >= 0 {
+	if s.Wiring == metrics.Wye || s.Wiring == metrics.Delta {
+		if s.HasSequence(metrics.Voltage) {
 			n += nord * 3 * 4
 		}
-		if s.IIdx[0] >= 0 && s.IIdx[1] >= 0 && s.IIdx[2] >= 0 {
+		if s.HasSequence(metrics.Current) {
 			n += nord * 3 * 4
 		}
 	}

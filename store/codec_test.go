@@ -3,6 +3,10 @@ package store
 import (
 	"errors"
 	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
 	"testing"
 	"time"
 
@@ -23,6 +27,7 @@ func TestRecordRoundTrip(t *testing.T) {
 		{"8ch 17 orders wye", setup8(orders17), true, "random values, fixed PCG seed"},
 		{"8ch no sequence", setup8([]int{1, 5, 7}), false, "random values, fixed PCG seed"},
 		{"single-phase", setup1([]int{1, 3, 5}), false, "random values, fixed PCG seed"},
+		{"delta, two CTs", setupDelta([]int{1, 5, 7}), true, "random values, fixed PCG seed (DESIGN Delta wiring: total without phases)"},
 		{"fundamental only", setup1([]int{1}), false, "random values, fixed PCG seed"},
 	}
 	for _, tc := range cases {
@@ -78,7 +83,7 @@ func TestRecordBudget(t *testing.T) {
 		src    string
 	}{
 		{"8ch 50 orders", allOrders(), RecordBudget8Ch50, "budget stated in doc.go"},
-		{"8ch 17 orders", orders17, 1700, "1,637 bytes by the closed form in doc.go, rounded up"},
+		{"8ch 17 orders", orders17, 1700, "1,645 bytes by the closed form in doc.go, rounded up"},
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
@@ -92,6 +97,10 @@ func TestRecordBudget(t *testing.T) {
 				t.Fatal(err)
 			}
 			t.Logf("%s: %d bytes per record", tc.name, len(b))
+			// src: README "The store" quotes the measured size; it must be this one
+			if readme := readmeText(t); !strings.Contains(readme, thousands(len(b))) {
+				t.Errorf("README \"The store\" does not quote the measured %s bytes (%s)", thousands(len(b)), tc.name)
+			}
 			if want := recordSize(8, len(tc.orders), 3, true, true, true); len(b) != want {
 				t.Errorf("%d bytes, closed form says %d", len(b), want)
 			}
@@ -223,4 +232,42 @@ func TestRecordBytes(t *testing.T) {
 	if got, want := RecordBytes(s), len(b)+16+leafElemOverhead; got != want {
 		t.Errorf("RecordBytes %d, encoder %d + key and leaf overhead = %d", got, len(b), want)
 	}
+}
+
+// TestDeltaLayoutRoundTrip: a stored delta layout keeps its line-to-line
+// channels and derives the same wattmeter elements. src: DESIGN Delta wiring.
+func TestDeltaLayoutRoundTrip(t *testing.T) {
+	t.Parallel()
+	want := setupDelta([]int{1, 5})
+	b, err := marshalLayout(want)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := unmarshalLayout(b)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.Wiring != metrics.Delta || got.Channels[1].To != 'b' || got.Channels[1].Phase != 'c' ||
+		len(got.Products) != 2 || got.Products[0] != want.Products[0] || got.Products[1] != want.Products[1] || !got.HasTotal() {
+		t.Errorf("layout %+v, want %+v", got, want)
+	}
+}
+
+// readmeText returns the repository's README.
+func readmeText(t *testing.T) string {
+	t.Helper()
+	b, err := os.ReadFile(filepath.Join("..", "README.md"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	return string(b)
+}
+
+// thousands prints n with comma thousands separators, as the README does.
+func thousands(n int) string {
+	s := strconv.Itoa(n)
+	for i := len(s) - 3; i > 0; i -= 3 {
+		s = s[:i] + "," + s[i:]
+	}
+	return s
 }

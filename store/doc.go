@@ -52,6 +52,15 @@
 // handed to bbolt as its hard limit, so a write that would grow the file
 // past it fails (and is retried once after trimming) instead of growing.
 //
+// # Damage
+//
+// Open checks an existing file before bbolt walks it on goroutines of its
+// own (where a fault or a failed assertion would end the process): the
+// pages are read with ReadAt, each reachable page once, and checked for
+// everything bbolt asserts (fsck.go), then bbolt's own check runs. Every
+// transaction runs with debug.SetPanicOnFault and a recover. Damage is
+// reported as ErrDamaged with the path.
+//
 // # Concurrency
 //
 // A DB is safe for concurrent use. Writes are serialised inside the DB (one

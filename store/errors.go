@@ -29,3 +29,7 @@ var ErrBadMessage = errors.New("store: bad message")
 
 // ErrFull means the size cap was reached and trimming could not free enough space.
 var ErrFull = errors.New("store: size cap reached")
+
+// ErrDamaged means the store file is damaged (a bad page, a truncated file,
+// a failed consistency check): it cannot be used as it is.
+var ErrDamaged = errors.New("store: damaged store")

@@ -44,7 +44,7 @@ type pairJSON struct {
 	I     int    `json:"i"`
 }
 
-var wiringNames = map[metrics.Wiring]string{metrics.SinglePhase: "single-phase", metrics.Wye: "wye"}
+var wiringNames = map[metrics.Wiring]string{metrics.SinglePhase: "single-phase", metrics.Wye: "wye", metrics.Delta: "delta"}
 
 // validateLayout checks what the record codec relies on.
 func validateLayout(s *metrics.Setup) error {
@@ -89,8 +89,12 @@ func marshalLayout(s *metrics.Setup) ([]byte, error) {
 		Neutral: s.Neutral, VIdx: s.VIdx, IIdx: s.IIdx,
 	}
 	for _, c := range s.Channels {
+		ph := string(rune(c.Phase))
+		if c.To != 0 {
+			ph += string(rune(c.To)) // a line-to-line voltage (delta)
+		}
 		l.Channels = append(l.Channels, channelJSON{Name: c.Name, Kind: c.Kind.String(),
-			Phase: string(rune(c.Phase)), FullScale: c.FullScale, DelayS: c.DelayS})
+			Phase: ph, FullScale: c.FullScale, DelayS: c.DelayS})
 	}
 	for _, p := range s.Pairs {
 		l.Pairs = append(l.Pairs, pairJSON{Phase: string(rune(p.Phase)), V: p.V, I: p.I})
@@ -124,11 +128,16 @@ func unmarshalLayout(b []byte) (*metrics.Setup, error) {
 		}
 	}
 	for _, c := range l.Channels {
-		ph, err := phaseByte(c.Phase)
+		var to byte
+		p := c.Phase
+		if len(p) == 2 && s.Wiring == metrics.Delta {
+			p, to = p[:1], p[1]
+		}
+		ph, err := phaseByte(p)
 		if err != nil {
 			return nil, err
 		}
-		ch := metrics.Channel{Name: c.Name, Phase: ph, FullScale: c.FullScale, DelayS: c.DelayS}
+		ch := metrics.Channel{Name: c.Name, Phase: ph, To: to, FullScale: c.FullScale, DelayS: c.DelayS}
 		switch c.Kind {
 		case metrics.Voltage.String():
 			ch.Kind = metrics.Voltage
@@ -147,6 +156,15 @@ func unmarshalLayout(b []byte) (*metrics.Setup, error) {
 	if err := validateLayout(s); err != nil {
 		return nil, fmt.Errorf("stored layout: %w: %w", ErrCorrupt, err)
 	}
+	s.Products = s.Pairs
+	if s.Wiring == metrics.Delta {
+		// re-derive the line map and wattmeter elements (not stored)
+		d, err := metrics.NewSetup(*s)
+		if err != nil {
+			return nil, fmt.Errorf("stored layout: %w: %w", ErrCorrupt, err)
+		}
+		return d, nil
+	}
 	return s, nil
 }
 
@@ -156,5 +174,6 @@ func cloneSetup(s *metrics.Setup) *metrics.Setup {
 	c.Channels = append([]metrics.Channel(nil), s.Channels...)
 	c.Orders = append([]int(nil), s.Orders...)
 	c.Pairs = append([]metrics.Pair(nil), s.Pairs...)
+	c.Products = append([]metrics.Pair(nil), s.Products...)
 	return &c
 }

@@ -215,7 +215,7 @@ func (db *DB) commitOutbox(ot *outboxTx) {
 // dropOldest drops class c's oldest messages (counted as losses) in one transaction.
 func (db *DB) dropOldest(c Class, limit int, ok func(k, v []byte) bool) (int, error) {
 	var ot outboxTx
-	err := db.bdb.Update(func(tx *bolt.Tx) error {
+	err := db.update(func(tx *bolt.Tx) error {
 		ot = outboxTx{}
 		n, err := dropTx(tx, c, limit, ok)
 		if err != nil {
@@ -246,12 +246,12 @@ func (db *DB) updateOutbox(add int64, fn func(tx *bolt.Tx, ot *outboxTx) error) 
 		}
 		return db.capTx(tx, &ot)
 	}
-	err := db.bdb.Update(run)
+	err := db.update(run)
 	if errors.Is(err, berrors.ErrMaxSizeReached) {
 		if terr := db.trim(int64(trimLow*float64(db.usable)) - add); terr != nil {
 			return errors.Join(err, terr)
 		}
-		err = db.bdb.Update(run)
+		err = db.update(run)
 	}
 	if err != nil {
 		return err
@@ -327,7 +327,7 @@ func (db *DB) SetAlarmState(st AlarmState) error {
 		return err
 	}
 	defer db.wmu.Unlock()
-	if err := db.bdb.Update(func(tx *bolt.Tx) error { return putAlarm(tx, st) }); err != nil {
+	if err := db.update(func(tx *bolt.Tx) error { return putAlarm(tx, st) }); err != nil {
 		return fmt.Errorf("store: alarm state %q: %w", st.Name, err)
 	}
 	return nil
@@ -433,7 +433,7 @@ func (db *DB) Ack(seqs ...uint64) error {
 	}
 	defer db.wmu.Unlock()
 	var ot outboxTx
-	err := db.bdb.Update(func(tx *bolt.Tx) error {
+	err := db.update(func(tx *bolt.Tx) error {
 		ot = outboxTx{}
 		for _, s := range seqs {
 			k := be.AppendUint64(nil, s)

@@ -3,9 +3,9 @@
 package store
 
 import (
-	"os"
 	"unsafe"
 
+	bolt "go.etcd.io/bbolt"
 	"golang.org/x/sys/unix"
 )
 
@@ -20,19 +20,31 @@ import (
 // under it, so the mapping cannot move or shrink meanwhile. Read
 // transactions never remap and tolerate the dropped entries.
 func (db *DB) releaseMapped() {
-	fi, err := os.Stat(db.path)
-	if err != nil || fi.Size() == 0 {
+	p, n := db.releaseSpan()
+	if p == nil || n <= 0 {
 		return
 	}
+	_ = unix.Madvise(unsafe.Slice((*byte)(p), n), unix.MADV_DONTNEED)
+}
+
+// releaseSpan returns the start and length of the memory releaseMapped
+// advises: the committed high-water mark (meta page id × page size). That
+// is never longer than bbolt's map, because bbolt remaps before it moves the
+// mark past the map's end (db.go: allocate). The file's size is NOT a bound:
+// past bbolt's AllocSize (16 MiB) the file is grown up to AllocSize ahead of
+// the map, and MADV_DONTNEED over memory beyond the map zeroes whatever the
+// process has there (the Go heap). The caller holds db.wmu.
+func (db *DB) releaseSpan() (unsafe.Pointer, int) {
 	info := db.bdb.Info()
 	if info == nil || info.Data == 0 {
-		return
+		return nil, 0
 	}
-	// The mapping is at least as long as the file (bbolt maps the file
-	// size rounded up); stay within the file's whole pages.
-	n := int(fi.Size() &^ (db.pageSize - 1))
+	var hwm int64
+	if err := db.bdb.View(func(tx *bolt.Tx) error { hwm = tx.Size(); return nil }); err != nil {
+		return nil, 0
+	}
+	n := int(min(hwm&^(db.pageSize-1), maxInt))
 	// Info().Data is the address of the mapping as a uintptr; read it as a
 	// pointer without arithmetic (the mapping is not Go-managed memory).
-	p := *(*unsafe.Pointer)(unsafe.Pointer(&info.Data))
-	_ = unix.Madvise(unsafe.Slice((*byte)(p), n), unix.MADV_DONTNEED)
+	return *(*unsafe.Pointer)(unsafe.Pointer(&info.Data)), n
 }

@@ -27,9 +27,9 @@ const (
 	trimLow  = 0.80
 )
 
-// releaseEvery is how often (wall time) PutAggregates drops the memory
-// map's resident pages (releaseMapped).
-const releaseEvery = 30 * time.Second
+// defaultReleaseEvery is how often (wall time) PutAggregates drops the
+// memory map's resident pages (releaseMapped).
+const defaultReleaseEvery = 30 * time.Second
 
 // fillPercent for append-mostly buckets: keys arrive in ascending order, so
 // split pages can be filled almost full (bbolt's default 0.5 would leave
@@ -57,9 +57,10 @@ type DB struct {
 	usable   int64 // largest high-water mark bbolt allows under MaxSizeMB
 	pageSize int64
 
-	wmu         sync.Mutex // serialises writes (and so bbolt's remaps); owns buf and lastRelease
-	lastRelease time.Time  // last releaseMapped
-	buf         []byte
+	wmu          sync.Mutex    // serialises writes (and so bbolt's remaps); owns buf and the release fields
+	lastRelease  time.Time     // last releaseMapped
+	releaseEvery time.Duration // defaultReleaseEvery; tests force a release per commit with 0
+	buf          []byte
 
 	mu       sync.Mutex // guards the fields below
 	closed   bool
@@ -123,29 +124,53 @@ func Open(opts Options) (*DB, error) {
 		MaxSize:        int(min(capBytes, int64(maxInt))),
 		NoSync:         opts.NoSync,
 	}
-	if opts.ReadOnly {
-		if _, err := os.Stat(opts.Path); err != nil {
-			return nil, fmt.Errorf("store: %w", err)
+	fi, statErr := os.Stat(opts.Path)
+	if opts.ReadOnly && statErr != nil {
+		return nil, openError(opts, statErr)
+	}
+	if !opts.ReadOnly && statErr == nil && fi.Size() > 0 {
+		// bbolt's writable open scans every page on a goroutine of its own,
+		// where damage cannot be recovered: check the file read-only first.
+		ro := *bo
+		ro.ReadOnly = true
+		vdb, err := openGuarded(opts.Path, &ro)
+		if err != nil {
+			return nil, openError(opts, err)
+		}
+		if err := verify(vdb, opts.Path); err != nil {
+			return nil, err
+		}
+		if err := vdb.Close(); err != nil {
+			return nil, fmt.Errorf("store: close %s after checking it: %w", opts.Path, err)
 		}
 	}
-	bdb, err := bolt.Open(opts.Path, 0o600, bo)
+	bdb, err := openGuarded(opts.Path, bo)
 	if err != nil {
-		return nil, openError(opts.Path, err)
+		return nil, openError(opts, err)
+	}
+	if opts.ReadOnly {
+		if err := verify(bdb, opts.Path); err != nil {
+			return nil, err
+		}
 	}
 	db := &DB{
 		bdb: bdb, opts: opts, log: log.With("store", opts.Path), path: opts.Path,
 		layouts: map[uint16]*metrics.Setup{}, counts: map[metrics.Interval]int{}, caps: map[Class]int{},
+		releaseEvery: defaultReleaseEvery,
 	}
 	// Read once: bbolt's Info() reads the mmap fields unlocked and races with a remap.
 	db.pageSize = int64(bdb.Info().PageSize)
 	db.usable = usableBytes(capBytes, db.pageSize, int64(bdb.AllocSize))
 	if !opts.ReadOnly {
-		if err := bdb.Update(createBuckets); err != nil {
+		if err := db.update(createBuckets); err != nil {
 			return nil, errors.Join(fmt.Errorf("store: %s: create buckets: %w", opts.Path, err), bdb.Close())
 		}
 	}
-	if err := bdb.View(db.load); err != nil {
-		return nil, errors.Join(fmt.Errorf("store: %s: %w", opts.Path, err), bdb.Close())
+	if err := db.view(db.load); err != nil {
+		if !errors.Is(err, ErrDamaged) {
+			err = damaged(opts.Path, err)
+		}
+		return nil, errors.Join(err, bdb.Close())
 	}
 	return db, nil
 }
@@ -158,12 +183,22 @@ func OpenReadOnly(path string, timeout time.Duration) (*DB, error) {
 	return Open(Options{Path: path, Timeout: timeout, ReadOnly: true})
 }
 
-func openError(path string, err error) error {
+func openError(opts Options, err error) error {
+	path := opts.Path
 	switch {
+	case errors.Is(err, ErrDamaged):
+		return err
 	case errors.Is(err, berrors.ErrTimeout):
 		return fmt.Errorf("store: %s is held by another process (a running `gridloupe run`?): %w", path, ErrLocked)
+	case errors.Is(err, os.ErrNotExist) && opts.ReadOnly:
+		return fmt.Errorf("store: %s does not exist: %w", path, err)
+	case errors.Is(err, os.ErrPermission) && opts.ReadOnly:
+		return fmt.Errorf("store: cannot read %s (check its permissions): %w", path, err)
 	case errors.Is(err, os.ErrPermission), errors.Is(err, os.ErrNotExist):
-		return fmt.Errorf("store: cannot open %s (is %s writable?): %w", path, filepath.Dir(path), err)
+		if _, serr := os.Stat(path); serr == nil {
+			return fmt.Errorf("store: cannot open %s for reading and writing (check its permissions): %w", path, err)
+		}
+		return fmt.Errorf("store: cannot create %s (is %s writable?): %w", path, filepath.Dir(path), err)
 	}
 	return fmt.Errorf("store: open %s: %w", path, err)
 }
@@ -271,7 +306,7 @@ func (db *DB) view(fn func(tx *bolt.Tx) error) error {
 	if db.isClosed() {
 		return ErrClosed
 	}
-	return db.bdb.View(fn)
+	return guarded(db.path, func() error { return db.bdb.View(fn) })
 }
 
 // Stats describes the store.

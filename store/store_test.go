@@ -222,7 +222,7 @@ func TestRetention(t *testing.T) {
 	const (
 		days      = 30
 		retention = 7 * 24 * time.Hour
-		// growthTol: the file may still settle a little after day 10 (brief: ≤ 1.1×).
+		// growthTol: the file may still settle a little after day 10 (README "The store": the file stays bounded; 1.1× is common practice, no source).
 		growthTol = 1.1
 	)
 	step := 3 * time.Second // the real 3 s cadence

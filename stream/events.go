@@ -67,15 +67,65 @@ func (p *Pipeline) drainEvents() {
 	}
 }
 
-// closeEvents closes events still open at the end of the input or at
-// shutdown (they are marked unfinished) and returns a sink error.
-func (p *Pipeline) closeEvents() error {
+// endEvents closes events still open at the end of the input or at
+// shutdown (they are marked unfinished), emits the window held back, and
+// returns a sink or emit error.
+func (p *Pipeline) endEvents(emit func(*metrics.Record) error) error {
 	if p.ev == nil {
 		return nil
 	}
 	p.ev.Close()
 	p.drainEvents()
-	return p.evErr
+	if p.evErr != nil {
+		return p.evErr
+	}
+	return p.emitPending(emit, true)
+}
+
+// deferEmit holds the window just closed back until the detector has
+// passed the next half-cycle edge: an event is stamped at the start of the
+// half cycle whose Urms(1/2) value crossed, so one that starts in the last
+// half cycle of a window is known only after the window closes. The record
+// is emitted, with event when an event overlaps it, a half cycle later.
+func (p *Pipeline) deferEmit(emit func(*metrics.Record) error) error {
+	if err := p.emitPending(emit, true); err != nil { // never more than one held
+		return err
+	}
+	p.pending, p.pendS, p.pendE = true, p.winStart, p.winStart+uint64(p.winN)
+	p.startWindow()
+	return p.emitPending(emit, false)
+}
+
+// emitPending emits the held window once the detector has settled past its
+// end (or at once when force is set).
+func (p *Pipeline) emitPending(emit func(*metrics.Record) error, force bool) error {
+	if p.evErr != nil {
+		return p.evErr
+	}
+	if !p.pending || (!force && !p.ev.Settled(p.pendE)) {
+		return nil
+	}
+	p.pending = false
+	if p.ev.Overlaps(p.pendS, p.pendE) {
+		p.rec.Flags |= metrics.FlagEvent
+	}
+	return emit(p.rec)
+}
+
+// eventsSkip advances the detector over m missing samples (a gap), in
+// pieces its ring can hold, handing notes on between them.
+func (p *Pipeline) eventsSkip(m uint64, emit func(*metrics.Record) error) error {
+	if p.ev == nil {
+		return nil
+	}
+	bf := uint64(len(p.raw) / p.nch)
+	for m > 0 {
+		k := min(m, bf)
+		p.ev.Skip(int(k))
+		p.drainEvents()
+		m -= k
+	}
+	return p.emitPending(emit, false)
 }
 
 // voltageEvent dresses e in wall time and channel names (once per event,
@@ -103,11 +153,6 @@ func (p *Pipeline) voltageEvent(e *events.Event) *VoltageEvent {
 		r.ExtremePct = e.ExtremeV / p.setup.NominalV * 100
 	}
 	return ve
-}
-
-// eventFlag reports whether the window ending now overlaps an event.
-func (p *Pipeline) eventFlag() bool {
-	return p.ev != nil && p.ev.Overlaps(p.winStart, p.winStart+uint64(p.winN))
 }
 
 // eventFrequency passes the tracker's cut frequency and lock on to the

@@ -7,7 +7,6 @@ import (
 	"io"
 	"log/slog"
 	"math"
-	"math/cmplx"
 	"time"
 
 	"github.com/gridloupe/gridloupe/goertzel"
@@ -47,29 +46,22 @@ type Config struct {
 	EventSink EventSink
 }
 
-// Tracker limits, documented in the package and README.
+// Window cutting.
 const (
-	// trackRange bounds the tracked frequency to ±30 % of nominal, wider
-	// than the IEC 61000-4-30 range of 42.5–57.5 Hz / 51–69 Hz.
-	trackRange = 0.30
-	// syncTol is the relative frequency error of a window's cut above which
-	// the window is not synchronized and is flagged no_lock (0.1 %).
-	syncTol = 1e-3
-	// refineRange is the largest relative error the half-window phase method
-	// resolves without ambiguity (it wraps at 10 %); beyond 4 % the
-	// zero-crossing estimate is used instead.
-	refineRange = 0.04
-	// maxStepHz bounds the per-window frequency step used for prediction
-	// (2 Hz/s at 200 ms windows), so a glitch cannot throw the cut far off.
-	maxStepHz = 0.4
-	// trustTol is the relative cut error below which a window's frequency
-	// is trusted for prediction (0.5 %: up to 2.5 Hz/s at 50 Hz); a window
-	// cut much further off (acquisition, a step, the signal's return) is
-	// measured, but not extrapolated from.
-	trustTol = 5e-3
+	// measureHigh is the highest frequency, relative to nominal, at which
+	// harmonics are meant to be measured (115 %, the top of the IEC
+	// 61000-4-30 range, with margin): the sample rate must exceed twice the
+	// highest order there. config.Validate applies the same rule
+	// (trackHighPct), so a rate that passes `config --check` gets no
+	// warning here.
+	measureHigh = 1.15
 	// edgeSnap is the distance, in samples, within which an ideal window
 	// edge is put on the nearest sample (4·10⁻⁶ of a 2048-sample window).
 	edgeSnap = 0.01
+	// tenGuard is how many of the longest cycles past a 10 s boundary the
+	// interval waits for its closing crossing (the filter delay is under one
+	// cycle) before it closes without one.
+	tenGuard = 3
 )
 
 // Pipeline runs the per-sample path for one source. It is not safe for
@@ -98,11 +90,14 @@ type Pipeline struct {
 
 	in  metrics.Input
 	rec *metrics.Record
-	zc  crossings
+	trk tracker
 
 	ev      *events.Detector // nil = no event detection
 	evNames []string         // voltage channel names, detector order
 	evErr   error            // first error from the EventSink
+	pending bool             // p.rec is a closed window not yet emitted (see deferEmit)
+	pendS   uint64           // its first sample
+	pendE   uint64           // and the sample after its last
 
 	// window state
 	idx      uint64  // index of the next sample
@@ -111,12 +106,13 @@ type Pipeline struct {
 	filled   int     // samples accumulated so far
 	edgeI    uint64  // ideal start edge of the next window: integer part
 	edgeR    float64 // and fraction in [0, 1)
-	fUsed    float64 // frequency the current window was cut for
-	fPrev    float64 // measured frequency of the previous window, NaN if none
-	prevOK   bool    // the previous window's frequency is trusted for prediction
 	tenEnd   uint64  // sample index where the current 10 s interval ends
 	leftover int     // samples of an unfinished window at EOF
 	windows  uint64
+
+	// gaps (gap.go)
+	missing    uint64 // frames a source reported missing so far
+	winMissing int    // missing samples in the current window
 }
 
 // New validates cfg and allocates every buffer the run needs.
@@ -135,7 +131,7 @@ func New(cfg Config) (*Pipeline, error) {
 		return nil, fmt.Errorf("%w: %d calibrations for %d channels", ErrConfig, len(cfg.Cal), len(s.Channels))
 	}
 	maxOrder := s.Orders[len(s.Orders)-1]
-	if float64(maxOrder)*cfg.NominalHz*(1+trackRange) >= cfg.SampleRate/2 {
+	if float64(maxOrder)*cfg.NominalHz*measureHigh >= cfg.SampleRate/2 {
 		// still runs, but the top orders alias; config validation warns earlier
 		if cfg.Logger != nil {
 			cfg.Logger.Warn("sample rate too low for the highest order", "order", maxOrder, "sample_rate_hz", cfg.SampleRate)
@@ -195,15 +191,11 @@ func New(cfg Config) (*Pipeline, error) {
 		return nil, fmt.Errorf("%w: %w", ErrConfig, err)
 	}
 	p.half = h
-	p.in.SumVI = make([]float64, len(s.Pairs))
+	p.in.SumVI = make([]float64, len(s.Products))
 	p.rec = metrics.NewRecord(s)
-	// hysteresis: a tenth of the lock threshold's peak keeps noise from
-	// re-arming the detector; a locked signal is far larger.
-	p.zc = newCrossings(cfg.SampleRate, cfg.NominalHz, 0.1*p.lockV*math.Sqrt2)
-	p.fUsed = p.nomHz
-	p.fPrev = math.NaN()
+	p.trk = newTracker(cfg.SampleRate, cfg.NominalHz, p.lockV)
 	p.tenEnd = p.nextTenEnd(0)
-	p.zc.setTen(p.tenEnd)
+	p.trk.zc.setTen(p.tenEnd)
 	if err := p.initEvents(bf); err != nil {
 		return nil, err
 	}
@@ -227,7 +219,7 @@ func (p *Pipeline) nextTenEnd(idx uint64) uint64 {
 // its ideal edges are carried with their fractions so that no sample is lost
 // or counted twice and rounding never accumulates.
 func (p *Pipeline) startWindow() {
-	f := p.fUsed
+	f := p.trk.fUsed
 	l := p.cycles * p.fs / f
 	startCeil := p.edgeI
 	if p.edgeR > 0 {
@@ -280,11 +272,11 @@ func (p *Pipeline) Clock() Clock { return p.clock }
 // with each window record (200 ms). emit must not keep the record: it is
 // reused. Run returns nil at io.EOF and on cancellation; an error from src
 // is wrapped with ErrSource after the frames that came with it are
-// processed; an error from emit stops the run and is returned as is.
+// processed, except a *Gap, which is a hole in the data and not an end; an error from emit stops the run and is returned as is.
 func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.Record) error) error {
 	for {
 		if err := ctx.Err(); err != nil {
-			return p.closeEvents()
+			return p.endEvents(emit)
 		}
 		n, rerr := src.ReadFrames(p.raw)
 		if n < 0 || n*p.nch > len(p.raw) {
@@ -295,10 +287,16 @@ func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.
 				return err
 			}
 		}
+		if g := asGap(rerr); g != nil {
+			if err := p.skipGap(g.Missing, emit); err != nil {
+				return err
+			}
+			continue
+		}
 		if rerr != nil {
 			p.leftover = p.filled
 			if errors.Is(rerr, io.EOF) {
-				return p.closeEvents()
+				return p.endEvents(emit)
 			}
 			return fmt.Errorf("%w: %w", ErrSource, rerr)
 		}
@@ -320,8 +318,8 @@ func (p *Pipeline) block(n int, emit func(*metrics.Record) error) error {
 		k := min(p.winN-p.filled, n-off)
 		p.segment(off, k)
 		off += k
-		if p.evErr != nil {
-			return p.evErr
+		if err := p.emitPending(emit, false); err != nil {
+			return err
 		}
 		if p.filled == p.winN {
 			if err := p.finish(emit); err != nil {
@@ -357,11 +355,11 @@ func (p *Pipeline) segment(off, k int) {
 	if m := p.winN / 2; p.filled < m {
 		p.half.Write(ref[:min(k, m-p.filled)])
 	}
-	p.zc.write(ref)
+	p.trk.zc.write(ref)
 	if p.ev != nil {
 		p.eventsWrite(off, k)
 	}
-	for i, pr := range p.setup.Pairs {
+	for i, pr := range p.setup.Products {
 		v, cur := p.buf[pr.V][off:off+k], p.buf[pr.I][off:off+k]
 		acc := p.in.SumVI[i]
 		for j, x := range v {
@@ -382,8 +380,11 @@ func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
 			ch.Bad = true
 		}
 	}
-	used := p.fUsed
-	fMeas, lock := p.track()
+	realBad := p.gapNull()
+	used := p.trk.fUsed
+	p.half.Phasors(p.halfX[:])
+	ref := &p.in.Ch[p.ref]
+	fMeas, lock := p.trk.measure(ref.Phasors[0], p.halfX[0], p.winN, ref.Bad)
 	p.in.FreqHz = fMeas
 	p.in.Lock = lock
 	p.in.OmegaHz = used
@@ -396,79 +397,38 @@ func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
 	rec.Start = p.clock.Time(p.winStart)
 	rec.Samples = uint64(p.winN)
 	rec.DurationS = float64(p.winN) / p.fs
-	rec.FreqHz = fMeas
 	if !lock {
 		rec.Flags |= metrics.FlagNoLock
 	}
-	if p.eventFlag() {
-		rec.Flags |= metrics.FlagEvent
-	}
-	p.eventFrequency(p.fUsed, lock)
+	p.eventFrequency(p.trk.fUsed, lock)
 	if p.cfg.Unsynced != nil && p.cfg.Unsynced() {
 		rec.Flags |= metrics.FlagClockUnsynced
 	}
+	p.gapFlag(rec, realBad)
 	rec.HasFreq10s = false
 	if p.idx >= p.tenEnd {
-		if p.zc.nextTen != 0 { // no crossing past the boundary yet: close now
-			p.zc.closeTen()
+		// The interval closes at the first crossing past its end (delay
+		// removed). Without one within tenGuard cycles (the signal is
+		// gone), it closes here.
+		zc := &p.trk.zc
+		if zc.nextTen != 0 && float64(p.idx-p.tenEnd) >= tenGuard*zc.maxP {
+			zc.closeTen()
 		}
-		if f, ok := p.zc.takeTen(); ok && !math.IsNaN(f) {
-			rec.Freq10sHz, rec.HasFreq10s = f, true
+		if f, ok := zc.takeTen(); ok {
+			if !math.IsNaN(f) {
+				rec.Freq10sHz, rec.HasFreq10s = f, true
+			}
+			p.tenEnd = p.nextTenEnd(p.tenEnd)
+			zc.setTen(p.tenEnd)
 		}
-		p.tenEnd = p.nextTenEnd(p.tenEnd)
-		p.zc.setTen(p.tenEnd)
 	}
 	p.windows++
+	if p.ev != nil {
+		return p.deferEmit(emit)
+	}
 	if err := emit(rec); err != nil {
 		return err
 	}
 	p.startWindow()
 	return nil
-}
-
-// track measures the window's fundamental frequency on the reference
-// channel and chooses the next window's cut.
-//
-// Within ±4 % of the cut frequency the phase method refines it: the
-// fundamental's DFT sum over the first half of the window (SA) and over the
-// second half (SB = S − SA) advance in phase by (ω − ω̂)·N/2 radians, so
-// Δf = Δφ·fs/(π·N). On a window holding a whole number of cycles both halves
-// hold five (six) whole cycles, so harmonics cancel and only noise remains.
-// Beyond that range, and after a loss of signal, the zero-crossing count of
-// the low-passed reference gives a coarse value for the next cut.
-func (p *Pipeline) track() (fMeas float64, lock bool) {
-	zcF, zcN := p.zc.windowFreq()
-	x1 := p.in.Ch[p.ref].Phasors[0]
-	if p.in.Ch[p.ref].Bad || !(cmplx.Abs(x1) >= p.lockV) {
-		p.prevOK = false
-		p.fPrev = math.NaN()
-		p.fUsed = p.nomHz
-		p.zc.resetCounts()
-		return math.NaN(), false
-	}
-	n := float64(p.winN)
-	m := float64(p.winN / 2)
-	p.half.Phasors(p.halfX[:])
-	sa := p.halfX[0] * complex(m/math.Sqrt2, 0)
-	sb := x1*complex(n/math.Sqrt2, 0) - sa
-	dphi := cmplx.Phase(sb * cmplx.Conj(sa))
-	fRef := p.fUsed + dphi*p.fs/(math.Pi*n)
-	fMeas = fRef
-	if zcN >= 3 && math.Abs(zcF-p.fUsed) > refineRange*p.fUsed {
-		fMeas = zcF
-	}
-	lock = math.Abs(fMeas-p.fUsed) <= syncTol*p.fUsed
-	trusted := fMeas == fRef && math.Abs(fMeas-p.fUsed) <= trustTol*p.fUsed
-	next := fMeas
-	if trusted && p.prevOK && !math.IsNaN(p.fPrev) {
-		// both windows measured near their cut: extrapolate the trend
-		step := max(-maxStepHz, min(maxStepHz, fMeas-p.fPrev))
-		next = fMeas + step
-	}
-	p.prevOK = trusted
-	lo, hi := p.nomHz*(1-trackRange), p.nomHz*(1+trackRange)
-	next = max(lo, min(hi, next))
-	p.fPrev = fMeas
-	p.fUsed = next
-	return fMeas, lock
 }

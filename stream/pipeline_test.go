@@ -17,10 +17,27 @@ const (
 	// fundTol: IEC 61000-4-30 class A magnitude uncertainty ±0.1 % of the
 	// declared voltage (from memory).
 	fundTolPct = 0.1
-	// pfTol: the figure for PF at off-nominal frequency (common practice, no source).
+	// pfTol: PF within 0.002 at off-nominal frequency, a figure in common
+	// use for revenue-grade meters (common practice, no source).
 	pfTol = 0.002
+	// harmTol: IEC 61000-4-7 class I, harmonic voltages and currents
+	// ≥ 1 % of nominal within ±5 % of reading (from memory).
+	harmTol = 0.05
+	// The project's own bounds, about twice the worst case measured by
+	// TestOffNominalAccuracy over its ten cases (21 s each, seed fixed), so
+	// that a regression far inside the standard's figures still fails:
+	// ownFreqTol: measured 2.6 mHz (freq_hz and freq_10s_hz).
+	ownFreqTol = 0.005
+	// ownHarmTol: measured 1.2 % of reading (0.5 % noise), so a 3 %
+	// scaling error fails.
+	ownHarmTol = 0.025
+	// ownPFTol: measured 3.9e-4.
+	ownPFTol = 8e-4
+	// (V1 has no bound of its own: the measured 0.081 % is already close to
+	// the standard's 0.1 %, which stays the check.)
 	// acquireWindows: windows allowed for acquisition after start-up or
-	// re-lock before the accuracy checks apply (stated in the README).
+	// re-lock before the accuracy checks apply (the README's "No lock"
+	// paragraph: re-lock within two windows, three after a step).
 	acquireWindows = 3
 )
 
@@ -97,36 +114,55 @@ func TestOffNominalAccuracy(t *testing.T) {
 			ir := math.Sqrt(100*100 + 2*10*10 + 0.25)
 			wantPF := p / (vr * ir)
 			tens := 0
+			var worstF, worstV1, worstH, worstPF float64 // largest errors seen, checked against the project's bounds below
 			for k, r := range recs[acquireWindows:] {
 				if r.Flags&metrics.FlagNoLock != 0 {
 					t.Fatalf("window %d: no_lock on a steady %g Hz signal", k+acquireWindows, tc.f)
 				}
+				worstF = max(worstF, math.Abs(r.FreqHz-tc.f))
 				if d := math.Abs(r.FreqHz - tc.f); !(d <= freqTol) {
 					t.Errorf("window %d: freq_hz %.5f, want %g ± %g (IEC 61000-4-30 class A, from memory)", k, r.FreqHz, tc.f, freqTol)
 				}
 				if r.HasFreq10s && r.Start.Sub(time.Unix(0, 0)) > 10*time.Second { // the first 10 s interval is complete
 					tens++
+					worstF = max(worstF, math.Abs(r.Freq10sHz-tc.f))
 					if d := math.Abs(r.Freq10sHz - tc.f); !(d <= freqTol) {
 						t.Errorf("freq_10s_hz %.5f, want %g ± %g (IEC 61000-4-30 10 s value, class A, from memory)", r.Freq10sHz, tc.f, freqTol)
 					}
 				}
 				v1 := harmonic(t, &r, 0, 1).RMS
+				worstV1 = max(worstV1, 100*math.Abs(v1-vNom)/vNom)
 				if d := 100 * math.Abs(v1-vNom) / vNom; !(d <= fundTolPct) {
 					t.Errorf("window %d: V1 %.4f V, want %g V ± %g %% (IEC 61000-4-30 class A, from memory)", k, v1, vNom, fundTolPct)
 				}
 				for _, h := range []int{5, 7} {
 					// IEC 61000-4-7 class I, voltage ≥ 1 % of nominal: ±5 % of reading (from memory)
 					got := harmonic(t, &r, 0, h).RMS
-					if d := math.Abs(got-23) / 23; !(d <= 0.05) {
+					worstH = max(worstH, math.Abs(got-23)/23)
+					if d := math.Abs(got-23) / 23; !(d <= harmTol) {
 						t.Errorf("window %d: V%d %.4f V, want 23 V ± 5 %% (IEC 61000-4-7 class I, from memory)", k, h, got)
 					}
 					got = harmonic(t, &r, 1, h).RMS
-					if d := math.Abs(got-10) / 10; !(d <= 0.05) {
+					worstH = max(worstH, math.Abs(got-10)/10)
+					if d := math.Abs(got-10) / 10; !(d <= harmTol) {
 						t.Errorf("window %d: I%d %.4f A, want 10 A ± 5 %% (IEC 61000-4-7 class I, from memory)", k, h, got)
 					}
 				}
+				worstPF = max(worstPF, math.Abs(r.Phases[0].PF-wantPF))
 				if d := math.Abs(r.Phases[0].PF - wantPF); !(d <= pfTol) {
 					t.Errorf("window %d: pf %.5f, want %.5f ± %g (closed form P/S)", k, r.Phases[0].PF, wantPF, pfTol)
+				}
+			}
+			t.Logf("worst errors: frequency %.2g Hz, V1 %.2g %%, 5th/7th %.2g of reading, pf %.2g", worstF, worstV1, worstH, worstPF)
+			for _, b := range []struct {
+				what         string
+				worst, bound float64
+			}{
+				{"frequency (Hz)", worstF, ownFreqTol},
+				{"5th/7th (fraction of reading)", worstH, ownHarmTol}, {"pf", worstPF, ownPFTol},
+			} {
+				if !(b.worst <= b.bound) {
+					t.Errorf("%s: worst error %.3g over the project's own bound %.3g (about twice the measured worst case)", b.what, b.worst, b.bound)
 				}
 			}
 			if !testing.Short() && tens == 0 {
@@ -213,7 +249,7 @@ func TestLossOfSignal(t *testing.T) {
 		t.Fatalf("only %d windows inside the loss", lost)
 	}
 	if relock < 0 || relock > 2 {
-		t.Errorf("re-locked at window %d after the signal returned, want within 2 (stated in the README)", relock)
+		t.Errorf("re-locked at window %d after the signal returned, want within 2 (the README's No lock paragraph)", relock)
 	}
 	t.Logf("re-lock at window %d after the signal returned", relock)
 }

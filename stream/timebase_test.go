@@ -28,7 +28,7 @@ func TestClockPast32Bits(t *testing.T) {
 		{"2^31-1", 12800, 1<<31 - 1, "largest int32"},
 		{"2^31", 12800, 1 << 31, "int32 wrap"},
 		{"2^32+7", 12800, 1<<32 + 7, "uint32 wrap"},
-		{"8.3 days", 12800, uint64(8.3 * 86400 * 12800), "the issue's 8.3-day figure"},
+		{"8.3 days", 12800, uint64(8.3 * 86400 * 12800), "8.3 days at 12.8 kHz: past 2^33 samples, closed form"},
 		{"1 year", 10240, 365 * 86400 * 10240, "a year unattended"},
 		{"fractional rate", 10240.5, 9_000_000_123, "recorded rate with a fraction"},
 	}
@@ -68,7 +68,7 @@ func TestClockIndexBoundaries(t *testing.T) {
 // TestClockIndexUnalignedBase: with a base whose sub-second part is not a
 // whole number of samples (a live base taken from the system clock),
 // Index stays the exact inverse of Time for weeks of samples; float
-// arithmetic drifts off by one after days (review finding).
+// arithmetic drifts off by one after days.
 func TestClockIndexUnalignedBase(t *testing.T) {
 	base := time.Date(2026, 3, 1, 10, 0, 0, 97_656, time.UTC)
 	for _, fs := range []float64{10240, 12800, 10240.5} {

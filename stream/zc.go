@@ -1,6 +1,9 @@
 package stream
 
-import "math"
+import (
+	"math"
+	"math/cmplx"
+)
 
 // biquad is one second-order section in transposed direct form II.
 type biquad struct {
@@ -19,6 +22,14 @@ func lowpass(fc, fs float64) biquad {
 	return biquad{b0: b0, b1: 2 * b0, b2: b0, a1: 2 * (k*k - 1) * norm, a2: (1 - k/q + k*k) * norm}
 }
 
+// response returns the section's frequency response at ω radians per sample.
+func (f *biquad) response(w float64) complex128 {
+	z1 := cmplx.Rect(1, -w)
+	z2 := z1 * z1
+	return (complex(f.b0, 0) + complex(f.b1, 0)*z1 + complex(f.b2, 0)*z2) /
+		(1 + complex(f.a1, 0)*z1 + complex(f.a2, 0)*z2)
+}
+
 func (f *biquad) step(x float64) float64 {
 	y := f.b0*x + f.z1
 	f.z1 = f.b1*x - f.a1*y + f.z2
@@ -32,9 +43,14 @@ func (f *biquad) step(x float64) float64 {
 // interpolation between samples. It serves two purposes: coarse frequency
 // acquisition per window, and the 10 s frequency value of IEC 61000-4-30
 // (whole cycles counted in the 10 s clock interval divided by their total
-// duration; cycles straddling the interval edges are discarded). The filter's
-// group delay is constant for a steady frequency, so it does not bias the
-// period. Positions are kept as a uint64 sample index plus a fraction.
+// duration; cycles straddling the interval edges are discarded). Each
+// crossing is moved back by the filter's phase delay at the frequency of the
+// cycle it ends, so the positions are those of the unfiltered fundamental:
+// on a steady signal the delay cancels in every period, and on a ramp or
+// after a step it would otherwise move the 10 s interval's edges (the delay
+// changes with frequency). Positions are kept as a uint64 sample index plus
+// a fraction. It also measures the low-passed signal's level over each
+// window, which does not depend on how the window was cut.
 type crossings struct {
 	f1, f2  biquad
 	hyst    float64 // the filtered signal must fall below −hyst to arm
@@ -45,11 +61,18 @@ type crossings struct {
 	fs      float64
 	win     span   // crossings in the current window
 	ten     cycles // whole cycles in the current 10 s interval
-	lastI   uint64 // the previous crossing, for the cycle it ends
+	lastI   uint64 // the previous crossing (delay removed), for the cycle it ends
 	lastF   float64
+	rawI    uint64 // the previous crossing as filtered
+	rawF    float64
 	hasLast bool
 	minP    float64 // shortest and longest plausible period, samples
 	maxP    float64
+	fEst    float64 // frequency of the last plausible cycle, Hz (for the delay)
+	nomHz   float64
+	ySum    float64 // Σy and Σy² of the filtered signal over the window
+	ySq     float64
+	yN      int
 	nextTen uint64
 	closed  float64 // value of the last closed 10 s interval, NaN if none
 	hasTen  bool
@@ -103,7 +126,7 @@ func (s *span) freq(fs float64) float64 {
 func newCrossings(fs, nominalHz, hyst float64) crossings {
 	fc := 1.5 * nominalHz // passes 42.5–69 Hz with little attenuation, takes 5th and up down by ~20 dB or more
 	return crossings{f1: lowpass(fc, fs), f2: lowpass(fc, fs), hyst: hyst, fs: fs,
-		settle: uint64(fs / nominalHz * 3), closed: math.NaN(),
+		settle: uint64(fs / nominalHz * 3), closed: math.NaN(), fEst: nominalHz, nomHz: nominalHz,
 		minP: fs / (nominalHz * (1 + trackRange)), maxP: fs / (nominalHz * (1 - trackRange))}
 }
 
@@ -125,6 +148,9 @@ func (c *crossings) write(x []float64) {
 			c.prev = y
 			continue
 		}
+		c.ySum += y
+		c.ySq += y * y
+		c.yN++
 		if y < -c.hyst {
 			c.armed = true
 		} else if c.armed && y >= 0 && c.prev < 0 {
@@ -135,6 +161,15 @@ func (c *crossings) write(x []float64) {
 			if i == 0 {
 				pi, pf = 0, 0
 			}
+			if c.hasLast {
+				// the frequency of the cycle ending here, for its delay
+				d := float64(pi-c.rawI) + (pf - c.rawF)
+				if d >= c.minP && d <= c.maxP {
+					c.fEst = c.fs / d
+				}
+			}
+			c.rawI, c.rawF = pi, pf
+			pi, pf = back(pi, pf, c.delay(c.fEst))
 			if c.nextTen > 0 && pi >= c.nextTen {
 				c.closeTen() // the cycle ending here straddles the edge: discarded
 			}
@@ -163,12 +198,55 @@ func (c *crossings) closeTen() {
 	c.nextTen = 0
 }
 
+// back returns position (i, f) moved back by d ≥ 0 samples, not before 0.
+func back(i uint64, f, d float64) (uint64, float64) {
+	r := f - d
+	w := math.Floor(r)
+	if w < 0 && uint64(-w) > i {
+		return 0, 0
+	}
+	if w < 0 {
+		i -= uint64(-w)
+	} else {
+		i += uint64(w)
+	}
+	return i, r - w
+}
+
+// delay returns the low-pass filter's phase delay at f, in samples: the time
+// by which a crossing of the filtered signal follows the crossing of the
+// input's fundamental (−arg H(f) / ω for the two identical sections).
+func (c *crossings) delay(f float64) float64 {
+	w := 2 * math.Pi * f / c.fs
+	return -2 * cmplx.Phase(c.f1.response(w)) / w
+}
+
+// level returns the RMS of the filtered signal's AC part over the window so
+// far divided by the filter's gain at f (nominal when f is NaN): an estimate
+// of the fundamental's RMS that does not depend on the window's cut. NaN
+// before any sample.
+func (c *crossings) level(f float64) float64 {
+	if c.yN == 0 {
+		return math.NaN()
+	}
+	if math.IsNaN(f) || f <= 0 {
+		f = c.nomHz
+	}
+	n := float64(c.yN)
+	m := c.ySum / n
+	g := cmplx.Abs(c.f1.response(2 * math.Pi * f / c.fs))
+	return math.Sqrt(max(0, c.ySq/n-m*m)) / (g * g)
+}
+
 // windowFreq returns the frequency from the crossings inside the window just
-// ended and starts counting for the next.
-func (c *crossings) windowFreq() (f float64, n int) {
+// ended, their number, and the fundamental's level (see level) at that
+// frequency, and starts counting for the next window.
+func (c *crossings) windowFreq() (f float64, n int, lvl float64) {
 	f, n = c.win.freq(c.fs), c.win.n
+	lvl = c.level(f)
 	c.win = span{}
-	return f, n
+	c.ySum, c.ySq, c.yN = 0, 0, 0
+	return f, n, lvl
 }
 
 // takeTen returns the last closed 10 s value once.

@@ -53,6 +53,9 @@ Commands:
   replay    analyse a recorded waveform file (CSV or WAV) and print one record
             per window or aggregation interval
   simulate  write a recording of the built-in drive-cabinet simulator (CSV)
+  wiring    check a hook-up on site: rotation, reversed, swapped or misplaced
+            CTs, dead channels, voltages off nominal; plain-language findings
+  modbus-map  print the Modbus TCP register map of a config (CSV) for a BMS
   config    print the documented defaults of every config key, or check a file
   version   print the version and build information
 
@@ -78,7 +81,7 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 		fmt.Fprint(stdout, rootHelp)
 		return nil
 	case "replay":
-		err = cmdReplay(ctx, rest, stdout, stderr)
+		err = cmdReplay(ctx, rest, stdin, stdout, stderr)
 	case "config":
 		err = cmdConfig(rest, stdout, stderr)
 	case "run":
@@ -91,11 +94,15 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 		err = cmdEvaluate(rest, stdout, stderr)
 	case "simulate":
 		err = cmdSimulate(ctx, rest, stdout, stderr)
+	case "wiring":
+		err = cmdWiring(ctx, rest, stdout, stderr)
+	case "modbus-map":
+		err = cmdModbusMap(rest, stdout)
 	case "version", "--version", "-version":
 		err = cmdVersion(rest, stdout)
 	default:
 		fmt.Fprint(stderr, rootHelp)
-		return usagef("unknown command %q (commands: demo, run, export, evaluate, replay, simulate, config, version)", cmd)
+		return usagef("unknown command %q (commands: demo, run, export, evaluate, replay, simulate, modbus-map, wiring, config, version)", cmd)
 	}
 	if errors.Is(err, errHelp) {
 		return nil

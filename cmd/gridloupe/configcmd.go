@@ -13,13 +13,15 @@ func cmdConfig(args []string, stdout, stderr io.Writer) error {
 	defaults := fs.Bool("defaults", false, "print every config key with its default and allowed values")
 	check := fs.String("check", "", "validate a config `FILE` and report the first problem with its line")
 	fs.Usage = func() {
-		fmt.Fprintln(fs.Output(), "Usage: gridloupe config --defaults | --check FILE\n\nFlags:")
+		fmt.Fprintln(fs.Output(), "Usage: gridloupe config --defaults | --check FILE\n\n--check validates the file as run reads it: keys, values, the sample rate\nfor the computed orders, and the files it names (mqtt.password_file, TLS\nfiles, a csv or wav source) exist and are readable. A file without alarm\nrules also gets the usual starting rules for its channels, as YAML to paste.\nGive one of the two.\n\nFlags:")
 		fs.PrintDefaults()
 	}
 	if err := parseFlags(fs, args, stdout); err != nil {
 		return err
 	}
 	switch {
+	case *defaults && *check != "":
+		return usagef("config: give either --defaults or --check FILE, not both")
 	case *defaults:
 		_, err := io.WriteString(stdout, config.Defaults())
 		return err
@@ -28,8 +30,18 @@ func cmdConfig(args []string, stdout, stderr io.Writer) error {
 		if err != nil {
 			return &usageError{err}
 		}
-		fmt.Fprintf(stdout, "%s: ok (%d channels, wiring %s, %v Hz)\n", *check, len(cfg.Channels), cfg.Wiring, cfg.Nominal.FrequencyHz)
-		return nil
+		if err := preflight(cfg); err != nil {
+			return err
+		}
+		if _, err := io.WriteString(stdout, preflightMessage(*check, cfg)); err != nil {
+			return err
+		}
+		hint, err := suggestAlarms(cfg)
+		if err != nil || hint == "" {
+			return err
+		}
+		_, err = io.WriteString(stdout, hint)
+		return err
 	}
 	fs.SetOutput(stderr)
 	fs.Usage()

@@ -328,6 +328,11 @@ func TestExportReadsStore(t *testing.T) {
 	if r := runCmd("export", "--store", filepath.Join(dir, "gl.db"), "--interval", "5min"); r.code != 2 {
 		t.Errorf("bad interval: exit %d, want 2", r.code)
 	}
+	// for people: per-phase blocks with the site's IEEE 519 reference
+	r = runCmd("export", "--store", filepath.Join(dir, "gl.db"), "--interval", "3s", "--format", "table", "--config", cfg)
+	if r.code != 0 || strings.Count(r.stdout, "\n3s ") < 10 || !strings.Contains(r.stdout, "TDD %<8") || !strings.Contains(r.stdout, "CAUTION") {
+		t.Errorf("export --format table: exit %d, want 10 blocks of 3 s with the TDD limit (IEEE 519-2014 Table 2 row 20<50: 8 %%):\n%s%s", r.code, r.stdout, r.stderr)
+	}
 }
 
 func readFile(t *testing.T, p string) string {
@@ -349,7 +354,7 @@ func TestDemoRaisesAndClears(t *testing.T) {
 		t.Skip("runs the demo for 18 simulated minutes")
 	}
 	dir := t.TempDir()
-	r := runCmd("demo", "--speed", "0", "--stop-after", "18m", "--duration", "5m", "--dir", dir)
+	r := runCmd("demo", "--config", "../../testdata/demo-dc2.yaml", "--speed", "0", "--stop-after", "18m", "--duration", "5m", "--dir", dir)
 	if r.code != 0 {
 		t.Fatalf("demo: exit %d\n%s", r.code, r.stderr)
 	}
@@ -361,6 +366,22 @@ func TestDemoRaisesAndClears(t *testing.T) {
 	}
 	if !strings.Contains(r.stdout, "acknowledged by the broker") {
 		t.Errorf("demo summary lacks the published count:\n%s", r.stdout)
+	}
+	// rows are labelled with their end and come in time order; the first
+	// 10 min value (the demo starts at the wall clock, off a tick) is marked
+	var last string
+	for _, line := range strings.Split(r.stdout, "\n") {
+		if len(line) < 19 || !strings.HasPrefix(line, "20") {
+			continue
+		}
+		if end := line[:19]; end < last {
+			t.Errorf("row ending %s after one ending %s", end, last)
+		} else {
+			last = end
+		}
+	}
+	if !strings.Contains(r.stdout, "10min partial") {
+		t.Errorf("the first 10 min row is not marked partial:\n%s", r.stdout)
 	}
 }
 

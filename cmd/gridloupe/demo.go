@@ -2,12 +2,14 @@ package main
 
 import (
 	"context"
+	"errors"
 	"flag"
 	"fmt"
 	"io"
 	"log/slog"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"time"
 
@@ -23,52 +25,28 @@ Runs the whole gateway in one process for about a minute, with nothing to
 set up: the built-in simulator of an invented drive cabinet (North Weir
 pumping station, cabinet DC-2: 400/230 V, 50 Hz, three 30 kW six-pulse pump
 drives with 3 % input reactors) at accelerated time, an MQTT broker embedded
-on loopback, and a store in a temporary folder. The simulated input reactor
-wears and recovers, so current and voltage distortion rise and fall: the
-alarms below raise and clear. A live table shows the 3 s and 10 min values;
-a summary closes the run. Ctrl-C ends it early the same way.
+on loopback, and a store in a temporary folder. Site, channels and alarm
+rules come from testdata/demo-dc2.yaml (run it from the repository's root,
+or give --config); the demo prints the file's path and each rule. The
+simulated input reactor wears and recovers, so current and voltage
+distortion rise and fall: the alarms raise and clear. A live table shows the
+3 s and 10 min values, labelled with their end, each watched value with its
+alarm threshold beside it; a summary closes the run with commands to look
+back that work as printed. Ctrl-C ends it early the same way.
 
 Flags:
 `
 
-// demoConfig is the demo's config; STORE is replaced by the store path.
-const demoConfig = `# gridloupe demo: North Weir pumping station, cabinet DC-2 (invented site)
-site: north-weir-dc2
-gateway: dc2-demo
-nominal: {frequency_hz: 50, voltage_v: 230, current_a: 160}
-wiring: wye
-sample_rate_hz: 10240
-harmonics: all
-il_a: 160
-isc_a: 6100
-channels:
-  - {name: va, kind: voltage, phase: a, full_scale: 450}
-  - {name: vb, kind: voltage, phase: b, full_scale: 450}
-  - {name: vc, kind: voltage, phase: c, full_scale: 450}
-  - {name: ia, kind: current, phase: a, full_scale: 400}
-  - {name: ib, kind: current, phase: b, full_scale: 400}
-  - {name: ic, kind: current, phase: c, full_scale: 400}
-  - {name: in, kind: current, phase: n, full_scale: 400}
-source: {kind: sim, speed: SPEED}
-store: {path: STORE, commit_every: 2s}
-mqtt: {broker: embedded, telemetry: [3s, 10min]}
-alarms:
-  # The reactor of drive cabinet DC-2 keeps its current TDD near a third of
-  # IL at this load; above 45 % it has lost much of its effect.
-  - {name: reactor-wear, metric: tdd_h50_pct, channel: ia, level: 3s, above: 45,
-     deadband: 3, on_delay: 30s, off_delay: 30s, severity: warning, min_load_pct: 10}
-  # IEEE 519-2014 Table 1, bus at or below 1 kV: voltage THD 8 %.
-  - {name: voltage-thd, metric: thd_h50_pct, channel: va, level: 3s, above: 8,
-     deadband: 0.5, on_delay: 30s, off_delay: 30s, severity: warning}
-  - {name: low-pf, metric: pf, phase: total, level: 3s, below: 0.85,
-     deadband: 0.02, on_delay: 30s, off_delay: 30s, severity: info, min_load_pct: 20}
-`
+// demoConfigPath is the demo's config, relative to the repository root
+// (where the README runs the demo).
+const demoConfigPath = "testdata/demo-dc2.yaml"
 
 func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("demo", flag.ContinueOnError)
+	cfgPath := fs.String("config", demoConfigPath, "config `FILE` with the site and the alarm rules (its store.path and source.speed are replaced)")
 	dur := fs.Duration("duration", 60*time.Second, "how long to run (wall time)")
 	speed := fs.Float64("speed", 30, "time acceleration of the simulator (30 = half an hour per minute)")
-	dir := fs.String("dir", "", "folder for the store (default: a new temporary folder)")
+	dir := fs.String("dir", "", "folder for the store: a new or empty one (default: a new temporary folder)")
 	stopAfter := fs.Duration("stop-after", 0, "also stop after this much simulated time (with --speed 0: as fast as the machine allows)")
 	verbose := fs.Bool("v", false, "log the gateway's info messages on stderr")
 	fs.Usage = func() {
@@ -81,19 +59,22 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if *dur <= 0 || *speed < 0 || *stopAfter < 0 || (*speed == 0 && *stopAfter == 0) || fs.NArg() != 0 {
 		return usagef("demo: --duration must be positive, --speed positive (or 0 with --stop-after); no arguments")
 	}
-	if *dir == "" {
-		d, err := os.MkdirTemp("", "gridloupe-demo-")
-		if err != nil {
-			return fmt.Errorf("demo: %w", err)
-		}
-		*dir = d
+	cfg, err := config.Load(*cfgPath)
+	if errors.Is(err, os.ErrNotExist) && *cfgPath == demoConfigPath {
+		return usagef("demo: %s not found: run the demo from the repository's root folder, or give --config FILE", demoConfigPath)
+	}
+	if err != nil {
+		return &usageError{err}
+	}
+	if cfg.Source.Kind != config.SourceSim {
+		return usagef("demo: %s: source.kind must be sim", cfg.Path)
+	}
+	created, err := demoDir(dir)
+	if err != nil {
+		return err
 	}
 	dbPath := filepath.Join(*dir, "gridloupe.db")
-	text := strings.NewReplacer("STORE", dbPath, "SPEED", fmt.Sprint(*speed)).Replace(demoConfig)
-	cfg, err := config.Parse("demo.yaml", []byte(text))
-	if err != nil {
-		return fmt.Errorf("demo config: %w", err)
-	}
+	cfg.Store.Path, cfg.Source.Speed = dbPath, *speed
 
 	pace := fmt.Sprintf("simulated at %g× real time", *speed)
 	if *speed == 0 {
@@ -104,8 +85,18 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	fmt.Fprintln(stdout, "electrical codes, with rated sensors (CAT III or better); never open-circuit a loaded CT secondary; gridloupe is")
 	fmt.Fprintln(stdout, "not a protective device.")
 	fmt.Fprintln(stdout)
+	fmt.Fprintf(stdout, "config: %s (site, channels and the alarm rules below)\n", cfg.Path)
 
-	tab := &liveTable{w: stdout, every: 2 * time.Second}
+	setup, _, err := setupFromConfig(cfg)
+	if err != nil {
+		return err
+	}
+	rules, err := alarmRules(cfg, setup)
+	if err != nil {
+		return err
+	}
+	tab := &liveTable{w: stdout, every: 2 * time.Second, cells: alarmCells(cfg)}
+	tab.legend(cfg, rules)
 	var d *daemon
 	var raised, cleared int
 	runCtx, cancel := context.WithTimeout(ctx, *dur)
@@ -154,62 +145,210 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 		fmt.Fprintf(stdout, "  measured:  %d windows of 10 cycles (%.1f simulated minutes), %d aggregates (3 s, 10 min, 2 h)\n",
 			st.Windows, float64(st.Windows)*0.2/60, st.Aggregates)
 		fmt.Fprintf(stdout, "  stored:    %d records in %s\n", st.Stored, dbPath)
-		fmt.Fprintf(stdout, "  alarms:    %d raised, %d cleared\n", raised, cleared)
+		fmt.Fprintf(stdout, "  alarms:    %d raised, %d cleared (thresholds from %s)\n", raised, cleared, cfg.Path)
 		if d.pub != nil {
 			ps := d.pub.Stats()
 			fmt.Fprintf(stdout, "  published: %d messages acknowledged by the broker (queued in the outbox: %d)\n", ps.Acked, st.Queued)
 		}
 	}
-	fmt.Fprintf(stdout, "  look back: gridloupe export --store %s --interval 10min --format csv\n", dbPath)
-	fmt.Fprintf(stdout, "  clean up:  rm -r %s\n", *dir)
+	self := selfCommand()
+	fmt.Fprintf(stdout, "  look back: %s export --store %s --interval 10min --format table --config %s\n", self, dbPath, cfg.Path)
+	fmt.Fprintf(stdout, "             %s evaluate --config %s --store %s\n", self, cfg.Path, dbPath)
+	if created {
+		fmt.Fprintf(stdout, "  clean up:  rm -r %s\n", *dir)
+	} else {
+		fmt.Fprintf(stdout, "  clean up:  rm %s\n", dbPath)
+	}
 	return nil
 }
 
+// demoDir prepares the demo's folder: a new temporary one when *dir is "",
+// a new one when *dir does not exist, or an existing empty one; a folder
+// holding anything is refused, so the clean-up advice never names files
+// the demo did not write. created reports whether the demo made the folder.
+func demoDir(dir *string) (created bool, err error) {
+	if *dir == "" {
+		d, err := os.MkdirTemp("", "gridloupe-demo-")
+		if err != nil {
+			return false, fmt.Errorf("demo: %w", err)
+		}
+		*dir = d
+		return true, nil
+	}
+	ents, err := os.ReadDir(*dir)
+	switch {
+	case errors.Is(err, os.ErrNotExist):
+		if err := os.MkdirAll(*dir, 0o755); err != nil {
+			return false, fmt.Errorf("demo: %w", err)
+		}
+		return true, nil
+	case err != nil:
+		return false, usagef("demo: --dir %s: %v", *dir, err)
+	case len(ents) > 0:
+		return false, usagef("demo: --dir %s is not empty (%d entries): give a new or empty folder, so the demo's files stay apart from others", *dir, len(ents))
+	}
+	return false, nil
+}
+
+// selfCommand is how the user runs this program again: "go run
+// ./cmd/gridloupe" under go run (or go test), else the executable's path.
+func selfCommand() string {
+	exe := os.Args[0]
+	if strings.Contains(exe, "go-build") || strings.HasSuffix(exe, ".test") {
+		return "go run ./cmd/gridloupe"
+	}
+	return exe
+}
+
 // liveTable prints the demo's rows: the latest 3 s values at most every
-// `every` of wall time, every 10 min and 2 h value, and alarm transitions.
-// Its header uses the record's own key names. Called from one goroutine.
+// `every` of wall time, every 10 min and 2 h value, and alarm transitions,
+// in time order of their end (an aggregate is known when it ends, so each
+// row is labelled with its end). A value an alarm rule watches carries the
+// rule's threshold beside it (">45": raised above 45). Its header uses the
+// record's own key names. Called from one goroutine.
 type liveTable struct {
 	w     io.Writer
 	every time.Duration
 	setup *metrics.Setup
+	cells map[alarmCell]string // watched cells: their threshold text
 	last  time.Time
 	rows  int
+	// alarms active at any time during the current 10 min interval
+	during map[string]bool
+}
+
+// alarmCell names a cell of the live table: the metric, the channel or
+// phase ("total" for the three-phase total), the level.
+type alarmCell struct {
+	metric, target string
+	level          metrics.Interval
+}
+
+// alarmCells maps the cells the config's alarm rules watch to the text
+// printed beside their values.
+func alarmCells(cfg *config.Config) map[alarmCell]string {
+	m := map[alarmCell]string{}
+	for _, a := range cfg.Alarms {
+		lv, _ := metrics.ParseInterval(a.Level)
+		target := a.Channel
+		if a.Metric == "pf" || a.Metric == "dpf" {
+			target = a.Phase
+			if target == "" {
+				target = "total"
+			}
+		}
+		switch {
+		case a.Above != nil:
+			m[alarmCell{a.Metric, target, lv}] = fmt.Sprintf(">%g", *a.Above)
+		case a.Below != nil:
+			m[alarmCell{a.Metric, target, lv}] = fmt.Sprintf("<%g", *a.Below)
+		}
+	}
+	return m
+}
+
+// legend explains the rules before the first row.
+func (t *liveTable) legend(cfg *config.Config, rules []alarm.Rule) {
+	if len(cfg.Alarms) == 0 {
+		fmt.Fprintln(t.w, "no alarm rules configured")
+		return
+	}
+	fmt.Fprintln(t.w, "alarm rules (a watched value shows its threshold beside it, e.g. 33.29 >45):")
+	for _, a := range cfg.Alarms {
+		what, cond := a.Channel, ""
+		if a.Metric == "pf" || a.Metric == "dpf" {
+			what = "phase " + a.Phase
+			if a.Phase == "" || a.Phase == "total" {
+				what = "total"
+			}
+		}
+		switch {
+		case a.Above != nil:
+			cond = fmt.Sprintf("above %g", *a.Above)
+		case a.Below != nil:
+			cond = fmt.Sprintf("below %g", *a.Below)
+		}
+		load := ""
+		if a.MinLoadPct > 0 {
+			load = fmt.Sprintf(", quiet below %g %% load", a.MinLoadPct)
+		}
+		fmt.Fprintf(t.w, "  %-13s %s %s %s for %v of %s values (clears %g back, after %v)%s; %s\n", a.Name, what, a.Metric, cond,
+			a.OnDelay, a.Level, a.Deadband, a.OffDelay, load, a.Severity)
+	}
+	fmt.Fprintln(t.w, "rows: end of each interval (UTC); partial: a value shorter than its interval; 10min rows list the alarms")
+	fmt.Fprintln(t.w, "active at any time during the interval, 3s rows those active at its end")
+	fmt.Fprintln(t.w)
 }
 
 func (t *liveTable) header() {
 	// the record's own key names; (V) and (I) say which channel of the phase
-	fmt.Fprintf(t.w, "%-19s %-8s %-5s %8s %8s %15s %15s %15s %6s %8s  %s\n", "start", "interval", "phase",
-		"rms(V)", "rms(I)", "thd_h50_pct(V)", "thd_h50_pct(I)", "tdd_h50_pct(I)", "pf", "freq_hz", "active alarms")
+	fmt.Fprintf(t.w, "%-19s %-13s %-5s %7s %7s %15s %15s %11s %7s  %s\n", "end", "interval", "phase",
+		"rms(V)", "rms(I)", "thd_h50_pct(V)", "tdd_h50_pct(I)", "pf", "freq_hz", "alarms")
+}
+
+// cell formats v with the threshold of the rule watching it, if any, in
+// a suffix of fixed width so that the values stay aligned.
+func (t *liveTable) cell(v float64, dec int, metric, target string, lv metrics.Interval) string {
+	return fmt.Sprintf("%s %-5s", num(v, dec), t.cells[alarmCell{metric, target, lv}])
 }
 
 func (t *liveTable) record(r *metrics.Record, active []string) {
+	if t.during == nil {
+		t.during = map[string]bool{}
+	}
+	for _, a := range active {
+		t.during[a] = true
+	}
 	if r.Interval == metrics.Int3s && time.Since(t.last) < t.every {
 		return
 	}
-	t.last = time.Now()
+	list := active
+	if r.Interval == metrics.Int10min {
+		list = nil
+		for a := range t.during {
+			list = append(list, a)
+		}
+		slices.Sort(list)
+		t.during = map[string]bool{}
+		for _, a := range active {
+			t.during[a] = true
+		}
+	} else {
+		t.last = time.Now()
+	}
 	if t.rows%24 == 0 {
 		t.header()
 	}
-	alarms := strings.Join(active, ",")
+	alarms := strings.Join(list, ",")
 	if alarms == "" {
 		alarms = "-"
 	}
+	end := r.Start.Add(time.Duration(r.DurationS * float64(time.Second))).UTC().Format("2006-01-02 15:04:05")
+	iv := r.Interval.String()
+	if r.Flags&metrics.FlagPartial != 0 {
+		iv += " partial"
+	}
 	s := t.setup
+	lv := r.Interval
 	for k, pr := range s.Pairs {
 		v, i := r.Channels[pr.V], r.Channels[pr.I]
-		st, iv, fq, al := "", "", "", ""
+		st, ivs, fq, al := "", "", "", ""
 		if k == 0 {
-			st = r.Start.UTC().Format("2006-01-02 15:04:05")
-			iv = r.Interval.String()
-			fq = num(r.FreqHz, 3)
-			al = alarms
+			st, ivs, fq, al = end, iv, num(r.FreqHz, 3), alarms
 		}
 		pf := metrics.Null()
 		if k < len(r.Phases) {
 			pf = r.Phases[k].PF
 		}
-		fmt.Fprintf(t.w, "%-19s %-8s %-5c %8s %8s %15s %15s %15s %6s %8s  %s\n", st, iv, pr.Phase,
-			num(v.RMS, 1), num(i.RMS, 1), num(v.THDH50Pct, 2), num(i.THDH50Pct, 2), num(i.TDDH50Pct, 2), num(pf, 3), fq, al)
+		vn, in := s.Channels[pr.V].Name, s.Channels[pr.I].Name
+		fmt.Fprintf(t.w, "%-19s %-13s %-5c %7s %7s %15s %15s %11s %7s  %s\n", st, ivs, pr.Phase,
+			num(v.RMS, 1), num(i.RMS, 1), t.cell(v.THDH50Pct, 2, "thd_h50_pct", vn, lv), t.cell(i.TDDH50Pct, 2, "tdd_h50_pct", in, lv),
+			t.cell(pf, 3, "pf", string(pr.Phase), lv), fq, al)
+		t.rows++
+	}
+	if len(s.Pairs) > 1 {
+		fmt.Fprintf(t.w, "%-19s %-13s %-5s %7s %7s %15s %15s %11s\n", "", "", "total", num(r.Total.Ve, 1), num(r.Total.Ie, 1), "", "",
+			t.cell(r.Total.PF, 3, "pf", "total", lv))
 		t.rows++
 	}
 }

@@ -25,13 +25,22 @@ values below 1.5 × Table 1, weekly 95th percentile of the 10 min values
 below 1.0 × Table 1), for each phase current (with il_a set) TDD and
 harmonics 3..50 (daily p99 of 3 s below 2.0 ×, weekly p99 of 10 min below
 1.5 ×, weekly p95 of 10 min below 1.0 × Table 2, row chosen by isc_a/il_a).
-Values flagged event or no_lock are excluded; a day or week with less than
-90 % of its expected values is incomplete, never passed.
+Values flagged event, no_lock or partial are excluded. Coverage is the
+share of a period's time that whole values cover (never above 100 %); a day
+or week with less than 90 % is incomplete, never passed; one without any
+record shows "no data".
 
-The week starts at --from, by default at the midnight (UTC) that lies
-7 days before the midnight at or before the end of the newest stored 10 min
-value: the last 7 whole days. The store is opened read-only: stop a running
+The week starts at --from, by default 7 days before the midnight (UTC) at
+or before the end of the newest stored value: the last 7 whole days. When
+those hold no data (a store younger than its first midnight), the week ends
+at the midnight after the newest value instead, so the days that hold data
+are shown (incomplete). The store is opened read-only: stop a running
 'gridloupe run' first, or copy the file and evaluate the copy.
+
+The table shows every thd_h50 and tdd_h50 line, every failed line, and for
+each channel and statistic the one harmonic order whose value is closest to
+its threshold (the largest value/threshold; none when no order has a
+value); --all shows every line.
 
 Exit status: 0 when the report is printed, whatever the verdict; 2 for
 usage and config errors; 1 for store errors.
@@ -48,7 +57,7 @@ func cmdEvaluate(args []string, stdout, stderr io.Writer) error {
 	dbPath := fs.String("store", "", "bbolt store `FILE` (default: the config's store.path)")
 	fromStr := fs.String("from", "", "start of the week, RFC 3339 (default: the last 7 whole UTC days of stored 10 min values)")
 	format := fs.String("format", "table", "output format: table (for people) or jsonl (every line, unrounded)")
-	all := fs.Bool("all", false, "table: print every line, not only THD/TDD, the highest harmonic and failures")
+	all := fs.Bool("all", false, "table: print every line, not only THD/TDD, failures and per channel and statistic the order closest to its threshold")
 	timeout := fs.Duration("timeout", 2*time.Second, "how long to wait for the store's file lock")
 	fs.Usage = func() {
 		fmt.Fprint(fs.Output(), evaluateHelp)
@@ -120,18 +129,13 @@ func evaluateStore(db *store.DB, cfg *config.Config, from time.Time) (*complianc
 		return nil, fmt.Errorf("evaluate: %w", err)
 	}
 	if from.IsZero() {
-		last, err := db.Last(metrics.Int10min, 1)
-		if err != nil {
-			return nil, fmt.Errorf("evaluate: %w", err)
+		if from, err = defaultWeek(db); err != nil {
+			return nil, err
 		}
-		if len(last) == 0 {
-			return nil, errors.New("evaluate: the store holds no 10 min values; give --from to evaluate a week anyway")
-		}
-		from = defaultWeekStart(last[0].Start)
 	}
 	busV := cfg.Nominal.VoltageV
-	if cfg.Wiring != config.WiringSinglePhase {
-		busV *= math.Sqrt(3) // wye: the table row goes by the line-to-line bus voltage
+	if cfg.Wiring == config.WiringWye {
+		busV *= math.Sqrt(3) // wye: the table row goes by the line-to-line bus voltage; delta declares it
 	}
 	ev, err := compliance.New(compliance.Config{
 		Setup: setup, NominalV: cfg.Nominal.VoltageV, BusV: busV,
@@ -150,10 +154,46 @@ func evaluateStore(db *store.DB, cfg *config.Config, from time.Time) (*complianc
 }
 
 // defaultWeekStart returns the start of the last 7 whole UTC days that end
-// at or before the end of the newest 10 min value starting at newest.
-func defaultWeekStart(newest time.Time) time.Time {
-	end := newest.UTC().Add(10 * time.Minute).Truncate(24 * time.Hour)
+// at or before newestEnd, the end of the newest stored value.
+func defaultWeekStart(newestEnd time.Time) time.Time {
+	end := newestEnd.UTC().Truncate(24 * time.Hour)
 	return end.Add(-compliance.Days * 24 * time.Hour)
+}
+
+// errFound stops a Query at its first record.
+var errFound = errors.New("found")
+
+// defaultWeek picks the default week: the last 7 whole days before the
+// newest stored 3 s or 10 min value's end, or, when those hold no value,
+// the 7 days ending at the midnight after it.
+func defaultWeek(db *store.DB) (time.Time, error) {
+	var newest time.Time
+	for _, iv := range []metrics.Interval{metrics.Int3s, metrics.Int10min} {
+		last, err := db.Last(iv, 1)
+		if err != nil {
+			return time.Time{}, fmt.Errorf("evaluate: %w", err)
+		}
+		if len(last) > 0 {
+			if end := last[0].Start.Add(time.Duration(last[0].DurationS * float64(time.Second))); end.After(newest) {
+				newest = end
+			}
+		}
+	}
+	if newest.IsZero() {
+		return time.Time{}, errors.New("evaluate: the store holds no 3 s or 10 min values; give --from to evaluate a week anyway")
+	}
+	from := defaultWeekStart(newest)
+	to := from.Add(compliance.Days * 24 * time.Hour)
+	for _, iv := range []metrics.Interval{metrics.Int3s, metrics.Int10min} {
+		err := db.Query(iv, from, to, func(*metrics.Record) error { return errFound })
+		if errors.Is(err, errFound) {
+			return from, nil
+		}
+		if err != nil {
+			return time.Time{}, fmt.Errorf("evaluate: %s values: %w", iv, err)
+		}
+	}
+	return from.Add(24 * time.Hour), nil
 }
 
 // evalCautions open every human-readable evaluation report.
@@ -198,8 +238,8 @@ func writeEvalTable(w io.Writer, cfg *config.Config, path string, res *complianc
 	}
 	fmt.Fprintln(w, "  bases      voltage THD: % of fundamental; voltage harmonics: % of nominal voltage; TDD and current harmonics: % of IL")
 
-	fmt.Fprintf(w, "\nCOVERAGE  (a day or the week needs %.0f %% of its expected values)\n", 100*res.MinCoverage)
-	fmt.Fprintf(w, "  %-12s %8s %8s %7s %8s %9s  %s\n", "period", "used", "expected", "event", "no_lock", "coverage", "state")
+	fmt.Fprintf(w, "\nCOVERAGE  (share of the period's time covered by whole values used; a day or the week needs %.0f %%)\n", 100*res.MinCoverage)
+	fmt.Fprintf(w, "  %-12s %8s %7s %8s %8s %9s  %s\n", "period", "used", "event", "no_lock", "partial", "coverage", "state")
 	state := func(complete, overfull bool) string {
 		switch {
 		case overfull:
@@ -209,17 +249,22 @@ func writeEvalTable(w io.Writer, cfg *config.Config, path string, res *complianc
 		}
 		return "incomplete"
 	}
+	period := func(name string, noData bool, used, event, noLock, partial int, cov float64, complete, overfull bool) {
+		if noData {
+			fmt.Fprintf(w, "  %-12s %8s %7s %8s %8s %9s  %s\n", name, "-", "-", "-", "-", "no data", "incomplete")
+			return
+		}
+		fmt.Fprintf(w, "  %-12s %8d %7d %8d %8d %8.1f%%  %s\n", name, used, event, noLock, partial, 100*cov, state(complete, overfull))
+	}
 	for _, d := range res.Days {
-		fmt.Fprintf(w, "  %-12s %8d %8d %7d %8d %8.1f%%  %s\n", d.Start.Format(dayFmt)+" 3s", d.Used, d.Expected,
-			d.Event, d.NoLock, 100*d.Coverage, state(d.Complete, d.Overfull))
+		period(d.Start.Format(dayFmt)+" 3s", d.NoData(), d.Used, d.Event, d.NoLock, d.Partial, d.Coverage, d.Complete, d.Overfull)
 	}
 	wk := res.Week
-	fmt.Fprintf(w, "  %-12s %8d %8d %7d %8d %8.1f%%  %s\n", "week 10min", wk.Used, wk.Expected, wk.Event, wk.NoLock,
-		100*wk.Coverage, state(wk.Complete, wk.Overfull))
+	period("week 10min", wk.NoData(), wk.Used, wk.Event, wk.NoLock, wk.Partial, wk.Coverage, wk.Complete, wk.Overfull)
 
 	fmt.Fprintln(w, "\nRESULTS  (percent; each value must stay below limit × multiplier)")
-	fmt.Fprintf(w, "  %-8s %-8s %-17s %8s %7s %5s %9s  %-10s %-10s %s\n",
-		"channel", "quantity", "statistic", "value", "limit", "mult", "threshold", "worst day", "verdict", "coverage")
+	fmt.Fprintf(w, "  %-8s %-8s %-17s %8s %7s %5s %9s  %-10s %-10s %8s %s\n",
+		"channel", "quantity", "statistic", "value", "limit", "mult", "threshold", "worst day", "verdict", "coverage", "days")
 	shown := evalShown(res.Lines, all)
 	for i, l := range res.Lines {
 		if !shown[i] {
@@ -229,9 +274,17 @@ func writeEvalTable(w io.Writer, cfg *config.Config, path string, res *complianc
 		if l.WorstDay >= 0 {
 			day = res.Days[l.WorstDay].Start.Format(dayFmt)
 		}
-		fmt.Fprintf(w, "  %-8s %-8s %-17s %8s %7.3g %5.1f %9.3g  %-10s %-10s %5.1f%%\n",
-			l.Channel, l.Quantity, l.Statistic, pctStr(l.Value), l.Limit, l.Multiplier, l.Threshold,
-			day, l.Verdict, 100*l.Coverage)
+		val, cov, days := pctStr(l.Value), fmt.Sprintf("%7.1f%%", 100*l.Coverage), ""
+		if l.Values == 0 {
+			val, cov = "no data", "no data"
+		}
+		if l.Statistic == compliance.DailyP99 {
+			// the days a daily verdict rests on
+			days = fmt.Sprintf("%d/%d", l.DaysJudged, compliance.Days)
+		}
+		fmt.Fprintf(w, "  %-8s %-8s %-17s %8s %7.3g %5.1f %9.3g  %-10s %-10s %8s %s\n",
+			l.Channel, l.Quantity, l.Statistic, val, l.Limit, l.Multiplier, l.Threshold,
+			day, l.Verdict, cov, days)
 	}
 	var hidPass, hidInc int
 	for i, l := range res.Lines {
@@ -269,7 +322,8 @@ func verdictWord(v compliance.Verdict) string {
 
 // evalShown picks the lines the table prints: all of them with all; else
 // every thd_h50/tdd_h50 line, every failed line, and per channel and
-// statistic the harmonic line closest to its threshold.
+// statistic the harmonic line with a value closest to its threshold (the
+// largest value/threshold; evaluateHelp says so).
 func evalShown(lines []compliance.Line, all bool) []bool {
 	shown := make([]bool, len(lines))
 	type key struct {
@@ -283,9 +337,11 @@ func evalShown(lines []compliance.Line, all bool) []bool {
 			shown[i] = true
 			continue
 		}
+		if math.IsNaN(l.Value) {
+			continue // no value: nothing to be close to its threshold
+		}
 		k := key{l.Channel, l.Statistic}
-		j, ok := best[k]
-		if !ok || lines[j].Value/lines[j].Threshold < l.Value/l.Threshold || math.IsNaN(lines[j].Value) {
+		if j, ok := best[k]; !ok || lines[j].Value/lines[j].Threshold < l.Value/l.Threshold {
 			best[k] = i
 		}
 	}
@@ -334,8 +390,11 @@ func writeEvalJSONL(w io.Writer, cfg *config.Config, path string, res *complianc
 		Records  int     `json:"records"`
 		Event    int     `json:"event"`
 		NoLock   int     `json:"no_lock"`
+		Partial  int     `json:"partial"`
 		Used     int     `json:"used"`
+		Covered  float64 `json:"covered_s"`
 		Coverage float64 `json:"coverage"`
+		NoData   bool    `json:"no_data"`
 		Overfull bool    `json:"overfull"`
 		Complete bool    `json:"complete"`
 	}
@@ -354,6 +413,7 @@ func writeEvalJSONL(w io.Writer, cfg *config.Config, path string, res *complianc
 		Multiplier float64   `json:"multiplier"`
 		Threshold  float64   `json:"threshold_pct"`
 		Coverage   float64   `json:"coverage"`
+		DaysJudged *int      `json:"days_judged,omitempty"`
 		Values     int       `json:"values"`
 		Nulls      int       `json:"nulls"`
 		Verdict    string    `json:"verdict"`
@@ -370,13 +430,13 @@ func writeEvalJSONL(w io.Writer, cfg *config.Config, path string, res *complianc
 		return fmt.Errorf("evaluate: %w", err)
 	}
 	for _, d := range res.Days {
-		p := period{"day_3s", d.Start.Format(time.RFC3339), d.Expected, d.Records, d.Event, d.NoLock, d.Used, d.Coverage, d.Overfull, d.Complete}
+		p := period{"day_3s", d.Start.Format(time.RFC3339), d.Expected, d.Records, d.Event, d.NoLock, d.Partial, d.Used, d.Covered, d.Coverage, d.NoData(), d.Overfull, d.Complete}
 		if err := enc.Encode(p); err != nil {
 			return fmt.Errorf("evaluate: %w", err)
 		}
 	}
 	wk := res.Week
-	if err := enc.Encode(period{"week_10min", res.Start.Format(time.RFC3339), wk.Expected, wk.Records, wk.Event, wk.NoLock, wk.Used, wk.Coverage, wk.Overfull, wk.Complete}); err != nil {
+	if err := enc.Encode(period{"week_10min", res.Start.Format(time.RFC3339), wk.Expected, wk.Records, wk.Event, wk.NoLock, wk.Partial, wk.Used, wk.Covered, wk.Coverage, wk.NoData(), wk.Overfull, wk.Complete}); err != nil {
 		return fmt.Errorf("evaluate: %w", err)
 	}
 	for _, l := range res.Lines {
@@ -385,6 +445,7 @@ func writeEvalJSONL(w io.Writer, cfg *config.Config, path string, res *complianc
 			Multiplier: l.Multiplier, Threshold: l.Threshold, Coverage: l.Coverage, Values: l.Values,
 			Nulls: l.Nulls, Verdict: l.Verdict.String()}
 		if l.Statistic == compliance.DailyP99 {
+			o.DaysJudged = &l.DaysJudged
 			if l.WorstDay >= 0 {
 				s := res.Days[l.WorstDay].Start.Format(dayFmt)
 				o.WorstDay = &s

@@ -158,11 +158,11 @@ func TestEvaluateThinned(t *testing.T) {
 	}
 	for _, want := range []string{
 		"qualified personnel", "measurement category", "open-circuit the secondary of a loaded CT",
-		"not a protective device", "local electrical codes", // safety cautions (common rules; REFERENCE §7, common practice)
+		"not a protective device", "local electrical codes", // safety cautions (common practice, no source)
 		"IEEE 519 limits apply at the point of common coupling; measured inside a cabinet these figures are a reference.",
 		"week 2026-03-02T00:00:00Z to 2026-03-09T00:00:00Z", // default week: the last 7 whole days of 10 min values
-		"Table 2 row 20<50, TDD 8.0 %",        // REFERENCE 1.5 [confirmed 1992; 2014 from memory], ISC/IL 38.1
-		"Table 1 5.0 % individual, 8.0 % THD", // REFERENCE 1.3, ≤ 1 kV row [confirmed]; bus √3·230 = 398 V
+		"Table 2 row 20<50, TDD 8.0 %",        // IEEE 519-2014 Table 2 [confirmed 1992; 2014 from memory], ISC/IL 38.1
+		"Table 1 5.0 % individual, 8.0 % THD", // IEEE 519-2014 Table 1, ≤ 1 kV row [confirmed]; bus √3·230 = 398 V
 		"2026-03-02 3s",
 		"INCOMPLETE",
 		"nearest-rank",
@@ -260,7 +260,7 @@ func TestEvaluateFullWeek(t *testing.T) {
 			if !strings.Contains(res.stdout, "VERDICT  "+tc.verdict) {
 				t.Errorf("want verdict %s:\n%s", tc.verdict, res.stdout)
 			}
-			if !strings.Contains(res.stdout, "2026-03-06 3s    28800    28800       0") {
+			if !strings.Contains(res.stdout, "2026-03-06 3s    28800       0        0        0    100.0%  complete") {
 				t.Errorf("day 4 coverage row missing:\n%s", res.stdout)
 			}
 			if tc.fail != "" {
@@ -337,9 +337,9 @@ func TestDefaultWeekStart(t *testing.T) {
 		newest, want string
 		src          string
 	}{
-		{"2026-03-08T23:50:00Z", "2026-03-02T00:00:00Z", "our rule: the last value ends at midnight, so 03-08 is a whole day"},
-		{"2026-03-08T12:00:00Z", "2026-03-01T00:00:00Z", "our rule: 03-08 is not over, the week ends at its start"},
-		{"2026-03-09T00:00:00Z", "2026-03-02T00:00:00Z", "our rule: a value just after midnight does not complete 03-09"},
+		{"2026-03-09T00:00:00Z", "2026-03-02T00:00:00Z", "our rule: the last value ends at midnight, so 03-08 is a whole day"},
+		{"2026-03-08T12:10:00Z", "2026-03-01T00:00:00Z", "our rule: 03-08 is not over, the week ends at its start"},
+		{"2026-03-09T00:10:00Z", "2026-03-02T00:00:00Z", "our rule: a value just after midnight does not complete 03-09"},
 	}
 	for _, tc := range tests {
 		n, _ := time.Parse(time.RFC3339, tc.newest)

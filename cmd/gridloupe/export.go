@@ -7,17 +7,22 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"strings"
 	"time"
 
+	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/store"
+	"github.com/gridloupe/gridloupe/stream/encode"
 	"github.com/gridloupe/gridloupe/stream/gateway"
 )
 
 const exportHelp = `Usage: gridloupe export --store FILE --interval 3s|10min|2h [flags]
 
-Prints stored aggregates in the replay schema (JSON Lines or CSV). While
-'gridloupe run' holds the store, the request goes through the daemon's local
-socket (FILE.sock); otherwise the file is opened read-only.
+Prints stored aggregates in the replay schema (JSON Lines or CSV), or for
+people as per-phase blocks (table; with --config, titled with the site and
+with its IEEE 519 reference beside THD-V and TDD) or one wide row per record
+(wide). While 'gridloupe run' holds the store, the request goes through the
+daemon's local socket (FILE.sock); otherwise the file is opened read-only.
 
 Flags:
 `
@@ -28,7 +33,8 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 	iv := fs.String("interval", "10min", "level to print: 3s, 10min or 2h")
 	from := fs.String("from", "", "first record start, RFC 3339 (default: the oldest)")
 	to := fs.String("to", "", "end (exclusive), RFC 3339 (default: the newest)")
-	format := fs.String("format", "jsonl", "output format: jsonl or csv")
+	format := fs.String("format", "jsonl", "output format: jsonl, csv, table (per-phase blocks) or wide")
+	cfgPath := fs.String("config", "", "config `FILE` of the site, for the table's title and IEEE 519 reference (optional)")
 	timeout := fs.Duration("timeout", 2*time.Second, "how long to wait for the store's file lock")
 	fs.Usage = func() {
 		fmt.Fprint(fs.Output(), exportHelp)
@@ -60,8 +66,15 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 	default:
 		return usagef("export: --interval %q: allowed are 3s, 10min, 2h", req.Interval)
 	}
-	if req.Format != "jsonl" && req.Format != "csv" {
-		return usagef("export: --format %q: allowed are jsonl, csv", req.Format)
+	if _, ok := encode.ParseFormat(req.Format); !ok {
+		return usagef("export: --format %q: allowed are %s", req.Format, strings.Join(encode.FormatNames(), ", "))
+	}
+	if *cfgPath != "" {
+		cfg, err := config.Load(*cfgPath)
+		if err != nil {
+			return &usageError{err}
+		}
+		req.Title, req.Reference = cfg.Site, ieeeReference(cfg)
 	}
 	if _, err := os.Stat(*dbPath); err != nil {
 		return fmt.Errorf("export: %w", err)

@@ -7,6 +7,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -17,6 +18,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/limits"
 	"github.com/gridloupe/gridloupe/stream"
 	"github.com/gridloupe/gridloupe/stream/encode"
 	"github.com/gridloupe/gridloupe/stream/input"
@@ -30,17 +32,18 @@ or their 3 s and 10 min aggregates (IEC 61000-4-30 aggregation).
 
 INPUT is a CSV file (a header row naming the config's channels, optional
 first column t in seconds, '#' comments) or a WAV file (16/24/32-bit PCM or
-32-bit float, channels in config order). Values are raw; the config's
+32-bit float, channels in config order); - reads CSV from standard input.
+Values are raw; the config's
 scale and offset turn them into volts and amperes.
 
 Flags:
 `
 
-func cmdReplay(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.Writer) error {
 	fs := flag.NewFlagSet("replay", flag.ContinueOnError)
 	cfgPath := fs.String("config", "", "config `FILE` (YAML); required")
 	ivName := fs.String("interval", "200ms", "interval to print: "+strings.Join(metrics.IntervalLabels()[:3], ", "))
-	format := fs.String("format", "jsonl", "output format: jsonl (unrounded), csv, or table (rounded, for people)")
+	format := fs.String("format", "jsonl", "output format: jsonl (unrounded), csv, table (per-phase blocks for people, with the IEEE 519 reference) or wide (one row per record)")
 	startStr := fs.String("start", "", "wall time of the first sample, RFC 3339 (default 1970-01-01T00:00:00Z)")
 	eventsPath := fs.String("events", "", "also write the voltage events (dips, swells, interruptions) to `FILE`, as JSON Lines")
 	progress := fs.Bool("progress", true, "show a progress bar on stderr when it is a terminal")
@@ -64,7 +67,7 @@ func cmdReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	}
 	fmtKind, ok := encode.ParseFormat(*format)
 	if !ok {
-		return usagef("replay: --format %q: allowed are jsonl, csv, table", *format)
+		return usagef("replay: --format %q: allowed are %s", *format, strings.Join(encode.FormatNames(), ", "))
 	}
 	var base time.Time
 	if *startStr != "" {
@@ -84,26 +87,13 @@ func cmdReplay(ctx context.Context, args []string, stdout, stderr io.Writer) err
 		return err
 	}
 
-	f, err := os.Open(inPath)
+	r, closeIn, err := openReplayInput(inPath, stdin, stderr, *progress)
 	if err != nil {
-		return fmt.Errorf("input: %w", err)
+		return err
 	}
-	defer f.Close()
-	var size int64
-	if st, err := f.Stat(); err == nil {
-		size = st.Size()
-	}
-	var r io.Reader = f
-	if *progress && size > 0 && isTerminal(stderr) {
-		bar := progressbar.NewOptions64(size,
-			progressbar.OptionSetWriter(stderr),
-			progressbar.OptionSetDescription("replay "+filepath.Base(inPath)),
-			progressbar.OptionShowBytes(true),
-			progressbar.OptionThrottle(200*time.Millisecond),
-			progressbar.OptionClearOnFinish(),
-		)
-		defer bar.Finish()
-		r = io.TeeReader(f, bar)
+	defer closeIn()
+	if inPath == "-" {
+		inPath = "stdin"
 	}
 
 	names := make([]string, len(setup.Channels))
@@ -191,15 +181,68 @@ type recordWriter interface {
 }
 
 func newEncoder(k encode.Format, w io.Writer, s *metrics.Setup, cfg *config.Config) (recordWriter, error) {
-	switch k {
-	case encode.FormatJSONL:
-		return encode.NewJSONL(w, s), nil
-	case encode.FormatCSV:
-		return encode.NewCSV(w, s), nil
-	case encode.FormatTable:
-		return encode.NewTable(w, s, encode.TableOptions{Title: cfg.Site}), nil
+	enc, err := encode.New(k, w, s, encode.TableOptions{Title: cfg.Site, Reference: ieeeReference(cfg)})
+	if err != nil {
+		return nil, &usageError{err}
 	}
-	return nil, usagef("unknown format")
+	return enc, nil
+}
+
+// ieeeReference is the IEEE 519-2014 reference of the config's site for
+// the tables: Table 1 by the bus voltage, Table 2 by isc_a/il_a (the
+// strictest row without isc_a; no TDD limit without il_a).
+func ieeeReference(cfg *config.Config) *encode.Reference {
+	if !(cfg.Nominal.VoltageV > 0) {
+		return nil
+	}
+	bus := cfg.Nominal.VoltageV
+	if cfg.Wiring != config.WiringSinglePhase {
+		bus *= math.Sqrt(3) // wye: the row goes by the line-to-line bus voltage
+	}
+	_, vthd := limits.VoltageLimits(bus)
+	ref := &encode.Reference{Edition: limits.Edition, BusV: bus, VTHDPct: vthd}
+	if cfg.ILA > 0 {
+		ratio := math.NaN()
+		ref.IRowWhy = "isc_a unknown: the strictest row"
+		if cfg.IscA > 0 {
+			ratio = cfg.IscA / cfg.ILA
+			ref.IRowWhy = fmt.Sprintf("ISC/IL %.1f", ratio)
+		}
+		row := limits.CurrentLimits(ratio)
+		ref.IRow, ref.TDDPct = row.RatioLabel, row.TDD
+	}
+	return ref
+}
+
+// openReplayInput opens replay's INPUT: a file, with a progress bar on a
+// terminal stderr when progress is set, or standard input for "-" (read as
+// CSV). The returned function closes what was opened.
+func openReplayInput(inPath string, stdin io.Reader, stderr io.Writer, progress bool) (io.Reader, func(), error) {
+	if inPath == "-" {
+		if stdin == nil {
+			return nil, nil, usagef("replay: INPUT - reads standard input, which is not available")
+		}
+		return stdin, func() {}, nil
+	}
+	f, err := os.Open(inPath)
+	if err != nil {
+		return nil, nil, fmt.Errorf("input: %w", err)
+	}
+	var size int64
+	if st, err := f.Stat(); err == nil {
+		size = st.Size()
+	}
+	if !progress || size == 0 || !isTerminal(stderr) {
+		return f, func() { f.Close() }, nil
+	}
+	bar := progressbar.NewOptions64(size,
+		progressbar.OptionSetWriter(stderr),
+		progressbar.OptionSetDescription("replay "+filepath.Base(inPath)),
+		progressbar.OptionShowBytes(true),
+		progressbar.OptionThrottle(200*time.Millisecond),
+		progressbar.OptionClearOnFinish(),
+	)
+	return io.TeeReader(f, bar), func() { bar.Finish(); f.Close() }, nil
 }
 
 // openInput opens a CSV or WAV source by file extension. It returns the

@@ -13,6 +13,7 @@ import (
 	"runtime"
 	"runtime/pprof"
 	"sync"
+	"sync/atomic"
 	"time"
 
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/sdnotify"
@@ -24,6 +25,7 @@ import (
 	"github.com/gridloupe/gridloupe/stream"
 	"github.com/gridloupe/gridloupe/stream/gateway"
 	"github.com/gridloupe/gridloupe/stream/input"
+	"github.com/gridloupe/gridloupe/stream/live"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
 	"github.com/gridloupe/gridloupe/stream/mqtt/broker"
 	"github.com/gridloupe/gridloupe/stream/sim"
@@ -36,9 +38,12 @@ Runs the gateway until SIGINT or SIGTERM: reads the configured source
 3 s, 10 min and 2 h aggregates in the bbolt store (store.path), raises and
 clears the configured alarms, and publishes status, telemetry and alarms over
 MQTT through the store's outbox (mqtt.broker; "embedded" starts a broker in
-the process on loopback). Exit status: 0 after a signal (and when a csv or
-wav source reaches its end), 1 when the simulator stops, a source fails or
-the store cannot be opened, 2 for config errors.
+the process on loopback). With a modbus or http section it also serves the
+latest values over Modbus TCP and HTTP (see the README). Exit status: 0
+after a signal, 0 when a csv or
+wav source reaches its end (and after --stop-after), 1 when the simulator
+stops otherwise, a source fails or the store cannot be opened, 2 for config
+errors.
 
 Flags:
 `
@@ -138,8 +143,8 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			ret[iv] = v
 		}
 	}
-	db, err := store.Open(store.Options{Path: cfg.Store.Path, MaxSizeMB: cfg.Store.MaxSizeMB, Retention: ret,
-		Logger: log.With("part", "store"), Clock: now})
+	db, storeNotice, err := openRunStore(store.Options{Path: cfg.Store.Path, MaxSizeMB: cfg.Store.MaxSizeMB, Retention: ret,
+		Logger: log.With("component", "store"), Clock: now}, cfg.Store.OnDamage, now(), log)
 	if err != nil {
 		return fmt.Errorf("cannot open the store: %w", err)
 	}
@@ -229,6 +234,22 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		return err
 	}
 
+	// One clock for every message's time: the sample clock (the newest
+	// record's end), the wall clock only before the first record.
+	var sampleNS atomic.Int64
+	sampleNow := func() time.Time {
+		if n := sampleNS.Load(); n != 0 {
+			return time.Unix(0, n).UTC()
+		}
+		return now()
+	}
+	onRecord := func(r *metrics.Record, active []string) {
+		sampleNS.Store(r.Start.Add(time.Duration(r.DurationS * float64(time.Second))).UnixNano())
+		if o.onRecord != nil {
+			o.onRecord(r, active)
+		}
+	}
+
 	// MQTT: embedded broker and publisher.
 	pubCtx, stopPub := context.WithCancel(context.Background())
 	defer stopPub()
@@ -247,7 +268,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		}
 		if url == config.BrokerEmbedded {
 			b, err := broker.Start(broker.Config{Addr: embeddedAddr(o, cfg), Username: cfg.MQTT.Username, Password: pw,
-				TLS: tlsCfg, Logger: log.With("part", "broker")})
+				TLS: tlsCfg, Logger: log})
 			if err != nil {
 				return fmt.Errorf("embedded broker: %w", err)
 			}
@@ -261,11 +282,14 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			log.Info("embedded MQTT broker listening", "addr", b.Addr())
 		}
 		pub, err := mqtt.New(mqtt.Config{Broker: url, ClientID: cfg.MQTT.ClientID, Username: cfg.MQTT.Username,
-			Password: pw, TLS: tlsCfg, Base: base, Outbox: db, Logger: log.With("part", "mqtt"), Now: now})
+			Password: pw, TLS: tlsCfg, Base: base, Outbox: db, Logger: log, Now: sampleNow})
 		if err != nil {
 			return usagef("%s: mqtt: %v", cfg.Path, err)
 		}
 		d.pub = pub
+		if storeNotice != "" {
+			pub.SetNotice("store: " + storeNotice)
+		}
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
@@ -285,12 +309,18 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			tele = append(tele, iv)
 		}
 	}
+	teleQoS := map[metrics.Interval]byte{}
+	for l, q := range cfg.MQTT.TelemetryQoS {
+		if iv, ok := metrics.ParseInterval(l); ok {
+			teleQoS[iv] = byte(q)
+		}
+	}
 	pc := pipelineConfig(cfg, setup, cal, rate)
 	pc.Base = now().UTC()
 	if d.sim != nil {
 		pc.Base = d.sim.Truth().Time
 	}
-	pc.Logger = log.With("part", "pipeline")
+	pc.Logger = log.With("component", "pipeline")
 	if cfg.Source.Kind == config.SourceSim {
 		pc.BlockFrames = 256
 	}
@@ -312,10 +342,15 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			d.pub.SetProblem("store: " + err.Error())
 		}
 	}
+	integ, err := startIntegration(cfg, setup, func() live.Health { return daemonHealth(d, db) }, log)
+	if err != nil {
+		return err
+	}
+	defer integ.Close()
 	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError,
-		Store: db, Alarms: ev, Telemetry: tele, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
-		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("part", "gateway"),
-		OnRecord: o.onRecord, OnTransition: o.onTransition, OnStoreError: onStoreErr})
+		Store: db, Alarms: ev, Telemetry: tele, TelemetryQoS: teleQoS, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
+		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("component", "gateway"),
+		OnRecord: integ.onRecord(onRecord), OnTransition: o.onTransition, OnStoreError: onStoreErr, Notice: storeNotice})
 	if err != nil {
 		return err
 	}

@@ -42,12 +42,22 @@ func simConfig(cfg *config.Config, fs float64) sim.Config {
 	if sc.ILA == 0 {
 		sc.ILA = cfg.Nominal.CurrentA
 	}
+	if cfg.Wiring == config.WiringDelta {
+		// the simulator's VoltageV is phase-to-neutral; a three-wire feed
+		// has no neutral, so no zero-sequence 3rd from single-phase loads
+		sc.VoltageV /= math.Sqrt(3)
+		sc.NeutralI3A = -1
+	}
 	for _, ch := range cfg.Channels {
 		k := metrics.Voltage
 		if ch.Kind == "current" {
 			k = metrics.Current
 		}
-		sc.Channels = append(sc.Channels, sim.Chan{Name: ch.Name, Kind: k, Phase: ch.Phase[0], Scale: ch.Scale, Offset: ch.Offset})
+		c := sim.Chan{Name: ch.Name, Kind: k, Phase: ch.Phase[0], Scale: ch.Scale, Offset: ch.Offset}
+		if len(ch.Phase) == 2 {
+			c.To = ch.Phase[1]
+		}
+		sc.Channels = append(sc.Channels, c)
 	}
 	return sc
 }

@@ -21,8 +21,11 @@ func setupFromConfig(cfg *config.Config) (*metrics.Setup, []stream.Cal, error) {
 		Wiring:    metrics.Wye,
 		Reference: -1,
 	}
-	if cfg.Wiring == "single-phase" {
+	switch cfg.Wiring {
+	case config.WiringSinglePhase:
 		s.Wiring = metrics.SinglePhase
+	case config.WiringDelta:
+		s.Wiring = metrics.Delta
 	}
 	cal := make([]stream.Cal, len(cfg.Channels))
 	for i, ch := range cfg.Channels {
@@ -30,11 +33,14 @@ func setupFromConfig(cfg *config.Config) (*metrics.Setup, []stream.Cal, error) {
 		if ch.Kind == "current" {
 			k = metrics.Current
 		}
-		ph := byte('a')
+		ph, to := byte('a'), byte(0)
 		if len(ch.Phase) > 0 {
 			ph = ch.Phase[0]
 		}
-		s.Channels = append(s.Channels, metrics.Channel{Name: ch.Name, Kind: k, Phase: ph,
+		if len(ch.Phase) > 1 {
+			to = ch.Phase[1] // a line-to-line voltage (delta)
+		}
+		s.Channels = append(s.Channels, metrics.Channel{Name: ch.Name, Kind: k, Phase: ph, To: to,
 			FullScale: ch.FullScale, DelayS: ch.DelayUS * 1e-6})
 		cal[i] = stream.Cal{Scale: ch.Scale, Offset: ch.Offset}
 		if ch.Name == cfg.Reference {

@@ -93,7 +93,7 @@ func DefaultRules(s *metrics.Setup, il, isc, nominalV float64, currentChannels, 
 			})
 		}
 	}
-	if len(s.Pairs) > 0 {
+	if s.HasTotal() {
 		r := Rule{
 			Name: "power-factor", Metric: MetricPF,
 			Target: Target{Channel: -1, Total: true}, Level: metrics.Int10min,
@@ -103,7 +103,7 @@ func DefaultRules(s *metrics.Setup, il, isc, nominalV float64, currentChannels, 
 		}
 		if il > 0 {
 			r.MinLoad = il * defPFMinLoadPct / 100
-			for _, p := range s.Pairs {
+			for _, p := range s.Products {
 				r.LoadChannels = append(r.LoadChannels, p.I)
 			}
 		}

@@ -89,7 +89,7 @@ func TestDefaultRules(t *testing.T) {
 				case r.Name == "power-factor":
 					nPF++
 					if r.Metric != MetricPF || r.Above || r.Threshold != 0.9 || !r.Target.Total {
-						t.Errorf("pf rule %+v; want total pf below 0.90 (brief)", r)
+						t.Errorf("pf rule %+v; want total pf below 0.90 (README, Alarm rules: the example config's PF rule)", r)
 					}
 					if math.Abs(r.MinLoad-tc.wantPFLoad) > valTol {
 						t.Errorf("pf min load %v; want %v (%s)", r.MinLoad, tc.wantPFLoad, tc.src)

@@ -45,12 +45,12 @@ func TestEvaluateSemantics(t *testing.T) {
 		{
 			name: "on delay 0 raises on the first record",
 			rule: tddIA, vals: []float64{9}, want: []ev{{0, true}},
-			src: srcDesign + "; brief: OnDelay 0 → transition on the first record",
+			src: srcDesign + "; Evaluator doc: OnDelay 0 → transition on the first record",
 		},
 		{
 			name: "value equal to threshold does not raise",
 			rule: tddIA, vals: []float64{8, 8, 8}, want: nil,
-			src: "brief: raise when value > Threshold (strict)",
+			src: "README, Alarm rules: raise when value > Threshold (strict)",
 		},
 		{
 			name: "on delay 1 s raises at 1 s of sample time, not before",
@@ -196,7 +196,7 @@ func TestEvaluateLevelFilter(t *testing.T) {
 	}
 	r := series(s, metrics.Int3s, 3, 1, 100)[0]
 	put(t, s, r, ru, 20)
-	if trs := e.Evaluate(r, nil); len(trs) != 0 { // brief: only rules whose Level == r.Interval
+	if trs := e.Evaluate(r, nil); len(trs) != 0 { // Evaluate doc: only rules whose Level == r.Interval
 		t.Fatalf("3 s record raised a 10 min rule: %+v", trs)
 	}
 	r.Interval = metrics.Int10min
@@ -211,7 +211,7 @@ func TestEvaluateLevelFilter(t *testing.T) {
 	}
 }
 
-// TestRestart checks that restored states resume (brief: a raised alarm is
+// TestRestart checks that restored states resume (README, Alarm rules: a raised alarm is
 // not re-raised; a pending timer continues from PendingSince), through the
 // JSON form the store persists.
 func TestRestart(t *testing.T) {

@@ -110,6 +110,7 @@ type compiled struct {
 	hk    int // index of Harmonic in Setup.Orders (pct, pct_il)
 	phase int // index in Setup.Pairs / Record.Phases; −1 for the total
 	load  []int
+	delta bool // the total of a delta record, which has no phases
 }
 
 // compile validates r against s.
@@ -187,9 +188,10 @@ func (c *compiled) target(r *Rule, s *metrics.Setup) error {
 		case r.Target.Total && r.Target.Phase != 0:
 			return fmt.Errorf("both phase %q and total: %w", r.Target.Phase, ErrTarget)
 		case r.Target.Total:
-			if len(s.Pairs) == 0 {
-				return fmt.Errorf("total needs a phase with both a voltage and a current: %w", ErrTarget)
+			if !s.HasTotal() {
+				return fmt.Errorf("total needs a phase with both a voltage and a current (delta: two or three currents): %w", ErrTarget)
 			}
+			c.delta = s.Wiring == metrics.Delta
 		default:
 			k := slices.IndexFunc(s.Pairs, func(p metrics.Pair) bool { return p.Phase == r.Target.Phase })
 			if k < 0 {
@@ -202,11 +204,30 @@ func (c *compiled) target(r *Rule, s *metrics.Setup) error {
 		if m == mUnbI {
 			idx, what = s.IIdx, "currents"
 		}
+		if s.Wiring == metrics.Delta {
+			if m == mUnbV {
+				idx = s.LL
+			}
+			if n := countIdx(idx); n < 2 {
+				return fmt.Errorf("needs two or three %s on delta: %w", what, ErrTarget)
+			}
+			break
+		}
 		if s.Wiring != metrics.Wye || idx[0] < 0 || idx[1] < 0 || idx[2] < 0 {
 			return fmt.Errorf("needs wye wiring with three phase %s: %w", what, ErrTarget)
 		}
 	}
 	return nil
+}
+
+func countIdx(idx [3]int) int {
+	n := 0
+	for _, x := range idx {
+		if x >= 0 {
+			n++
+		}
+	}
+	return n
 }
 
 func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
@@ -242,7 +263,7 @@ func (c *compiled) value(r *metrics.Record) float64 {
 			}
 		}
 	case mPF, mDPF:
-		if len(r.Phases) == 0 || c.phase >= len(r.Phases) {
+		if (len(r.Phases) == 0 && !c.delta) || c.phase >= len(r.Phases) {
 			return math.NaN()
 		}
 		switch {

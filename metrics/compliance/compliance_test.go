@@ -16,7 +16,7 @@ const tolPct = 1e-5
 
 func near(got, want float64) bool { return math.Abs(got-want) <= tolPct*math.Max(1, math.Abs(want)) }
 
-// Sources of the statistics, with REFERENCE.md's marks.
+// Sources of the statistics: [confirmed] read in a published copy, [from memory] recalled.
 const (
 	srcV51 = "IEEE 519-2014 5.1: daily p99 3 s < 1.5 × Table 1, weekly p95 10 min < 1.0 × Table 1 [confirmed]"
 	srcI52 = "IEEE 519-2014 5.2: daily p99 3 s < 2.0 ×, weekly p99 10 min < 1.5 ×, weekly p95 10 min < 1.0 × Table 2 [from memory, unconfirmed]"
@@ -74,7 +74,7 @@ func TestOneDayExceeds(t *testing.T) {
 	}{
 		{"289 values high (> 1 %)", 289, 0, true, Fail, srcP99 + ": 289 > 288 values above"},
 		{"288 values high (exactly 1 %)", 288, 0, false, Pass, srcP99 + ": 288 values above the p99 rank"},
-		{"400 values high but flagged event", 400, metrics.FlagEvent, false, Pass, "IEC 61000-4-30 flagging concept (REFERENCE §2.5): flagged values excluded"},
+		{"400 values high but flagged event", 400, metrics.FlagEvent, false, Pass, "IEC 61000-4-30 flagging (from memory): flagged values excluded"},
 		{"400 values high but flagged no_lock", 400, metrics.FlagNoLock, false, Pass, "same; no_lock values excluded (DESIGN)"},
 	}
 	for _, tc := range tests {
@@ -204,8 +204,9 @@ func TestIncompleteNeverFails(t *testing.T) {
 	})
 	res := e.Result()
 	l := findLine(t, res, "va", "h5", DailyP99)
-	if l.Verdict != Incomplete || !near(l.Value, 9) || l.WorstDay != 2 || !near(l.Coverage, 0.5) || res.Verdict != Incomplete {
-		t.Errorf("line %+v, verdict %s; want incomplete at 9 %% on day 2, coverage 0.5 (our rule: incomplete, never passed)", l, res.Verdict)
+	// hand: six whole days and half of day 2 cover 6.5 of 7 days
+	if l.Verdict != Incomplete || !near(l.Value, 9) || l.WorstDay != 2 || !near(l.Coverage, 6.5/7) || l.DaysJudged != 6 || res.Verdict != Incomplete {
+		t.Errorf("line %+v, verdict %s; want incomplete at 9 %% on day 2, coverage 6.5/7, 6 days judged (our rule: incomplete, never passed)", l, res.Verdict)
 	}
 }
 
@@ -230,14 +231,14 @@ func TestNulls(t *testing.T) {
 // cabinet: ISC/IL = 6100/160 = 38.1.
 func TestNorthWeirRow(t *testing.T) {
 	t.Parallel()
-	const src = "REFERENCE 1.5 Table 2 row 20<50 [confirmed for the 1992 table; 2014 from memory]; even 25 % [confirmed 1992, 2014 from memory]"
+	const src = "IEEE 519-2014 Table 2 row 20<50 [confirmed for the 1992 table; 2014 from memory]; even 25 % [confirmed 1992, 2014 from memory]"
 	s := newSetup(t, "abc", nwIL)
 	res := newEval(t, s).Result()
 	if res.Row != "20<50" || res.TDDLimit != 8 || !near(res.Ratio, 38.125) {
 		t.Errorf("row %s TDD %v ratio %v; want 20<50, 8, 38.125 (%s)", res.Row, res.TDDLimit, res.Ratio, src)
 	}
 	if res.VIndivLimit != 5 || res.VTHDLimit != 8 {
-		t.Errorf("voltage limits %v / %v; want 5 / 8 (REFERENCE 1.3 Table 1, V ≤ 1.0 kV row [confirmed])", res.VIndivLimit, res.VTHDLimit)
+		t.Errorf("voltage limits %v / %v; want 5 / 8 (IEEE 519-2014 Table 1, V ≤ 1.0 kV row [confirmed])", res.VIndivLimit, res.VTHDLimit)
 	}
 	tests := []struct {
 		ch, q string
@@ -256,9 +257,9 @@ func TestNorthWeirRow(t *testing.T) {
 		{"ib", "h49", 0.5, src},
 		{"ib", "h50", 0.125, src + ": even, 25 % of 0.5"},
 		{"ib", "h4", 1.75, src + ": even, 25 % of 7"},
-		{"vc", "thd_h50", 8, "REFERENCE 1.3 Table 1, V ≤ 1.0 kV [confirmed]"},
-		{"vc", "h2", 5, "REFERENCE 1.3 Table 1, V ≤ 1.0 kV [confirmed]"},
-		{"vc", "h50", 5, "REFERENCE 1.3 Table 1, V ≤ 1.0 kV [confirmed]"},
+		{"vc", "thd_h50", 8, "IEEE 519-2014 Table 1, V ≤ 1.0 kV [confirmed]"},
+		{"vc", "h2", 5, "IEEE 519-2014 Table 1, V ≤ 1.0 kV [confirmed]"},
+		{"vc", "h50", 5, "IEEE 519-2014 Table 1, V ≤ 1.0 kV [confirmed]"},
 	}
 	for _, tc := range tests {
 		l := findLine(t, res, tc.ch, tc.q, DailyP99)
@@ -283,7 +284,7 @@ func TestNorthWeirRow(t *testing.T) {
 func TestTDDRescaled(t *testing.T) {
 	t.Parallel()
 	// stored against IL 200 A, evaluated against 160 A: TDD scales by
-	// 200/160 (TDD = IH/IL, IEEE 519 definition; REFERENCE 1.2 from memory)
+	// 200/160 (TDD = IH/IL, IEEE 519 definition; from memory)
 	s := newSetup(t, "a", 200)
 	e := newEval(t, s)
 	r := metrics.NewRecord(s)
@@ -408,7 +409,7 @@ func TestNoILNoISC(t *testing.T) {
 		t.Fatal(err)
 	}
 	if res := e.Result(); res.Row != "<20" || res.TDDLimit != 5 {
-		t.Errorf("ISC unset: row %s TDD %v; want the strictest row <20, 5 (REFERENCE 1.5 [confirmed 1992])", res.Row, res.TDDLimit)
+		t.Errorf("ISC unset: row %s TDD %v; want the strictest row <20, 5 (IEEE 519-2014 Table 2 [confirmed 1992])", res.Row, res.TDDLimit)
 	}
 }
 
@@ -438,7 +439,7 @@ func TestOverfull(t *testing.T) {
 
 // TestAtThresholdFails: a statistic equal to its threshold fails, since
 // clause 5 requires the value to be below it ("must be below 1.0 × the
-// Table 1 values", REFERENCE 1.4 [confirmed: 5.1]).
+// Table 1 values", IEEE 519-2014 5.1 [confirmed]).
 func TestAtThresholdFails(t *testing.T) {
 	t.Parallel()
 	s := newSetup(t, "a", nwIL, 1, 2, 3, 4, 5, 6, 7) // orders 1..7 keep the week fast; H[4] is h5

@@ -73,7 +73,8 @@ type Line struct {
 	Multiplier float64 // clause 5 multiplier of the limit
 	Threshold  float64 // Limit × Multiplier: Value must be below it
 	Verdict    Verdict
-	Coverage   float64 // values used over values expected: DailyP99 the least-covered day, weekly the week
+	Coverage   float64 // fraction of the period's time this quantity's values cover, in [0, 1]: DailyP99 the week's 3 s time, weekly the week's 10 min time
+	DaysJudged int     // DailyP99: days complete for this quantity (those a verdict rests on); 0 otherwise
 	Values     int     // values used (excluded and null values not counted)
 	Nulls      int     // null values of this quantity in records that were not excluded
 }
@@ -81,15 +82,20 @@ type Line struct {
 // Day summarises one day's 3 s records (all quantities).
 type Day struct {
 	Start    time.Time
-	Expected int     // 3 s values in 24 h: 28,800
+	Expected int     // 3 s values in 24 h at the nominal length: 28,800
 	Records  int     // 3 s records whose start lies in the day
 	Event    int     // of them, excluded for the event flag
 	NoLock   int     // of them, excluded for no_lock (and not event)
-	Used     int     // Records − Event − NoLock
-	Coverage float64 // Used / Expected
+	Partial  int     // of them, excluded as partial (shorter than 3 s; not event or no_lock)
+	Used     int     // Records − Event − NoLock − Partial: whole values used
+	Covered  float64 // s, summed durations of the used values
+	Coverage float64 // Covered / 24 h, at most 1: the share of the day whole used values cover
 	Overfull bool    // more records than the percentile tails were sized for (overlapping records after a clock step?)
 	Complete bool    // Coverage ≥ the threshold and not Overfull
 }
+
+// NoData reports whether no record at all started in the period.
+func (d *Day) NoData() bool { return d.Records == 0 }
 
 // Week summarises the week's 10 min records.
 type Week struct {
@@ -97,11 +103,16 @@ type Week struct {
 	Records  int
 	Event    int
 	NoLock   int
+	Partial  int
 	Used     int
-	Coverage float64
+	Covered  float64 // s
+	Coverage float64 // Covered / 7 days, at most 1
 	Overfull bool
 	Complete bool
 }
+
+// NoData reports whether no record at all started in the week.
+func (w *Week) NoData() bool { return w.Records == 0 }
 
 // Result is a finished evaluation. Lines come in setup channel order, then
 // quantity (thd_h50 or tdd_h50 first, then ascending orders), then

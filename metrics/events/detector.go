@@ -150,6 +150,7 @@ type Detector struct {
 	nLen    int
 	dropped int
 
+	lastB   uint64 // index at the latest half-cycle edge
 	lastEnd uint64 // latest End of a closed event, for Overlaps
 	hasEnd  bool
 }
@@ -318,6 +319,7 @@ func (d *Detector) capture(buf [][]float64, off, n int) {
 // 204 or 205 whole samples of a 204.7-sample cycle, which would move a
 // steady Urms(1/2) by up to ~0.1 %.
 func (d *Detector) boundary() {
+	d.lastB = d.idx
 	stamp := d.idx - uint64(d.curN)
 	frac := 0.0
 	if d.edgeR > 0 {
@@ -496,6 +498,37 @@ func (d *Detector) Close() {
 			mc.capEnd = d.idx
 		}
 	}
+	d.captures()
+}
+
+// Settled reports whether every event starting before sample idx is known:
+// a half-cycle edge at or after idx has been evaluated.
+func (d *Detector) Settled(idx uint64) bool { return d.lastB >= idx }
+
+// Skip advances over k missing samples (a gap in the input; k ≤ MaxBlock):
+// the capture ring holds NaN for them, and Urms(1/2) restarts on a fresh
+// half-cycle grid after the gap (NaN until a full cycle has arrived, which
+// holds open events open). Drain Next after it.
+func (d *Detector) Skip(k int) {
+	if k > d.cfg.MaxBlock {
+		panic("events: Skip: more than MaxBlock samples")
+	}
+	nch := d.cfg.Channels
+	nan := float32(math.NaN())
+	for i := range k {
+		pos := int((d.idx + uint64(i)) % uint64(d.ringFrames))
+		for c := range nch {
+			d.ring[pos*nch+c] = nan
+		}
+	}
+	d.idx += uint64(k)
+	for i := range d.u {
+		d.u[i], d.cur[i], d.prev[i] = math.NaN(), 0, 0
+	}
+	d.curN, d.prevN, d.halves = 0, 0, 0
+	d.edgeI, d.edgeR = d.idx, 0
+	d.lastB = d.idx
+	d.advanceEdge()
 	d.captures()
 }
 

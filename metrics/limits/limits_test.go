@@ -9,7 +9,7 @@ import (
 // constants, so only float representation error could differ.
 const tol = 1e-12
 
-// Marks copied from /work/shared/REFERENCE.md §1.3 and §1.5.
+// Marks: [confirmed] read in a published copy, [from memory] recalled.
 const (
 	srcT1LV      = "IEEE 519-2014 Table 1, V ≤ 1.0 kV row [confirmed: published text on the 2014 changes]"
 	srcT1Other   = "IEEE 519-2014 Table 1 [from memory, unconfirmed]"
@@ -115,7 +115,7 @@ func TestIndividualCurrentLimit(t *testing.T) {
 		src  string
 	}{
 		{1, 0, "IEEE 519-2014 Table 2 limits harmonics only; fundamental not limited (our 0 = no limit)"},
-		{2, 0, "below the first band (3 ≤ h); our 0 = no limit, as the brief specifies"},
+		{2, 0, "below the first band (3 ≤ h); our 0 = no limit (Limits doc)"},
 		{3, 7.0, srcT2Bands},
 		{4, 7.0 * 0.25, srcT2Even},
 		{5, 7.0, srcT2},

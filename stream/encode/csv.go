@@ -31,9 +31,9 @@ type CSV struct {
 // (currents) configured, which is when metrics fills Record.SeqV (SeqI).
 func NewCSV(w io.Writer, s *metrics.Setup) *CSV {
 	c := &CSV{w: bufio.NewWriterSize(w, 32<<10), s: s, buf: make([]byte, 0, 4096)}
-	if s.Wiring == metrics.Wye {
-		c.seqV = s.VIdx[0] >= 0 && s.VIdx[1] >= 0 && s.VIdx[2] >= 0
-		c.seqI = s.IIdx[0] >= 0 && s.IIdx[1] >= 0 && s.IIdx[2] >= 0
+	if s.Wiring == metrics.Wye || s.Wiring == metrics.Delta {
+		c.seqV = s.HasSequence(metrics.Voltage)
+		c.seqI = s.HasSequence(metrics.Current)
 		c.unb = c.seqV || c.seqI
 	}
 	return c
@@ -72,8 +72,11 @@ func (c *CSV) Header() []string {
 			h = append(h, p+k)
 		}
 	}
-	if len(s.Pairs) > 0 {
+	if s.HasTotal() {
 		for _, k := range totalKeys {
+			if k == "s_va" && s.Wiring == metrics.Delta {
+				continue // no arithmetic sum without phase-to-neutral voltages
+			}
 			h = append(h, "total."+k)
 		}
 	}
@@ -83,7 +86,11 @@ func (c *CSV) Header() []string {
 		}
 		for _, o := range s.Orders {
 			p := "sequence." + seqSides[side] + "." + strconv.Itoa(o) + "."
-			h = append(h, p+"pos", p+"neg", p+"zero", p+"dominant")
+			h = append(h, p+"pos", p+"neg")
+			if side == 1 || s.Wiring != metrics.Delta {
+				h = append(h, p+"zero") // line-to-line voltages have none
+			}
+			h = append(h, p+"dominant")
 		}
 	}
 	if c.seqV {
@@ -221,18 +228,24 @@ func (c *CSV) appendRow(b []byte, r *metrics.Record) []byte {
 			b = cell(b, v)
 		}
 	}
-	if len(s.Pairs) > 0 {
+	delta := s.Wiring == metrics.Delta
+	if s.HasTotal() {
 		t := &r.Total
-		for _, v := range [...]float64{t.P, t.Q1, t.S, t.Se, t.Se1, t.Ve, t.Ie, t.PF, t.DPF} {
+		for i, v := range [...]float64{t.P, t.Q1, t.S, t.Se, t.Se1, t.Ve, t.Ie, t.PF, t.DPF} {
+			if i == 2 && delta {
+				continue // s_va, as in Header
+			}
 			b = cell(b, v)
 		}
 	}
-	for _, seq := range [2][]metrics.Seq{r.SeqV, r.SeqI} {
+	for side, seq := range [2][]metrics.Seq{r.SeqV, r.SeqI} {
 		for k := range seq {
 			q := &seq[k]
 			b = cell(b, q.Pos)
 			b = cell(b, q.Neg)
-			b = cell(b, q.Zero)
+			if side == 1 || !delta {
+				b = cell(b, q.Zero)
+			}
 			b = append(b, ',')
 			b = append(b, dominant(q)...)
 		}

@@ -25,7 +25,7 @@ func readCSV(tb testing.TB, b []byte) [][]string {
 
 // TestCSVColumns checks the header against the JSON presence rules: every
 // JSON leaf (flattened with dots, harmonics by order) is a column and no
-// column is without a JSON leaf (src: brief "same presence rules as JSON";
+// column is without a JSON leaf (src: README, Record: csv flattens the same keys;
 // AppendJSON is checked against DESIGN in TestAppendJSONPresence).
 func TestCSVColumns(t *testing.T) {
 	t.Parallel()
@@ -53,7 +53,7 @@ func TestCSVColumns(t *testing.T) {
 			}
 			head := rows[0]
 			if want := []string{"interval", "start", "duration_s", "samples", "freq_hz", "freq_10s_hz", "flags"}; !slices.Equal(head[:7], want) {
-				t.Errorf("first columns %v, want %v (src: brief)", head[:7], want)
+				t.Errorf("first columns %v, want %v (src: README, Record)", head[:7], want)
 			}
 			leaves := jsonLeaves(t, AppendJSON(nil, s, r))
 			cols := slices.Clone(head)
@@ -167,9 +167,9 @@ func TestCSVValues(t *testing.T) {
 		{"start", "2026-03-01T10:00:00.000000Z", "DESIGN Time format"},
 		{"samples", "2048", "record value"},
 		{"freq_10s_hz", "", "absent value is an empty cell"},
-		{"flags", "gap|undefined", "brief: flags joined with |, metrics bit order"},
+		{"flags", "gap|undefined", "README, Record: flags joined with |, metrics bit order"},
 		{`v"a,1.rms`, "0.30000000000000004", "IEEE 754 sum 0.1+0.2, shortest round-trip (strconv)"},
-		{"ia.thd_pct", "", "null → empty cell (brief)"},
+		{"ia.thd_pct", "", "null → empty cell (README, Record)"},
 		{"total.pf", "", "non-finite → empty cell, never Inf"},
 	}
 	for _, tc := range cases {

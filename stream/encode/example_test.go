@@ -99,9 +99,35 @@ func ExampleNewTable() {
 	// Output:
 	// gridloupe: North Weir pumping station, cabinet DC-2
 	// CAUTION: Measurements only: installation by qualified personnel under local electrical codes; rated sensors (CAT III or better); never open-circuit a loaded CT secondary; not a protective device.
+	// THD% is thd_pct and TDD% tdd_pct (every component but DC and the fundamental); IEEE 519 compares the orders 2-50 values (--format table).
 	//
 	// start (UTC)               intvl    f Hz     va V  va THD%     ia A  ia THD%  ia TDD%    PF a   DPF a      P kW    Q kvar      PF  flags
 	// 2026-03-01T10:00:00.000Z  200ms  50.000    230.1     1.50    47.90    30.60     8.77   0.937   0.978     10.33      2.19   0.937  partial
+}
+
+func ExampleNewBlocks() {
+	ref := &encode.Reference{Edition: "IEEE 519-2014", BusV: 230, VTHDPct: 8, IRow: "20<50", TDDPct: 8, IRowWhy: "ISC/IL 38.1"}
+	w := encode.NewBlocks(os.Stdout, exampleSetup(), encode.TableOptions{Title: "North Weir pumping station, cabinet DC-2", Reference: ref})
+	r := exampleRecord()
+	r.Flags = metrics.FlagPartial
+	if err := w.Write(r); err != nil {
+		fmt.Println(err)
+	}
+	if err := w.Flush(); err != nil {
+		fmt.Println(err)
+	}
+	// Output:
+	// gridloupe: North Weir pumping station, cabinet DC-2
+	// CAUTION: Measurements only: installation by qualified personnel under local
+	//   electrical codes; rated sensors (CAT III or better); never open-circuit a
+	//   loaded CT secondary; not a protective device.
+	// THD-V is thd_pct, TDD tdd_pct (every component but DC and the fundamental):
+	//   harmonics is a list, so the orders 2-50 values that IEEE 519 limits are not
+	//   computed and nothing is compared.
+	//
+	// 200ms 2026-03-01T10:00:00.000Z  0.200 s  50.000 Hz  flags: partial
+	// phase         V       A    THD-V %      TDD %     PF    DPF     P kW  Q1 kvar
+	// a         230.1   47.90      1.50       8.77   0.937  0.978    10.33     2.19
 }
 
 func ExampleFormatTime() {

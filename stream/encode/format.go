@@ -1,6 +1,9 @@
 package encode
 
 import (
+	"fmt"
+	"io"
+	"strings"
 	"time"
 
 	"github.com/gridloupe/gridloupe/metrics"
@@ -17,7 +20,23 @@ var (
 	_ Writer = (*JSONL)(nil)
 	_ Writer = (*CSV)(nil)
 	_ Writer = (*Table)(nil)
+	_ Writer = (*Blocks)(nil)
 )
+
+// New returns the writer of format f (the table formats take opts).
+func New(f Format, w io.Writer, s *metrics.Setup, opts TableOptions) (Writer, error) {
+	switch f {
+	case FormatJSONL:
+		return NewJSONL(w, s), nil
+	case FormatCSV:
+		return NewCSV(w, s), nil
+	case FormatTable:
+		return NewBlocks(w, s, opts), nil
+	case FormatWide:
+		return NewTable(w, s, opts), nil
+	}
+	return nil, fmt.Errorf("encode: format %d: allowed are %s", f, strings.Join(FormatNames(), ", "))
+}
 
 // Format is an output format of `gridloupe replay`.
 type Format uint8
@@ -26,10 +45,11 @@ type Format uint8
 const (
 	FormatJSONL Format = iota + 1
 	FormatCSV
-	FormatTable
+	FormatTable // per-phase blocks for a terminal (Blocks)
+	FormatWide  // one wide row per record (Table)
 )
 
-var formatNames = [...]string{FormatJSONL: "jsonl", FormatCSV: "csv", FormatTable: "table"}
+var formatNames = [...]string{FormatJSONL: "jsonl", FormatCSV: "csv", FormatTable: "table", FormatWide: "wide"}
 
 // String returns the format's command-line spelling.
 func (f Format) String() string {
@@ -39,7 +59,7 @@ func (f Format) String() string {
 	return "invalid"
 }
 
-// ParseFormat parses "jsonl", "csv" or "table".
+// ParseFormat parses "jsonl", "csv", "table" or "wide".
 func ParseFormat(s string) (Format, bool) {
 	for i, n := range formatNames {
 		if i > 0 && n == s {
@@ -50,7 +70,7 @@ func ParseFormat(s string) (Format, bool) {
 }
 
 // FormatNames lists the valid format spellings, for help and error texts.
-func FormatNames() []string { return []string{"jsonl", "csv", "table"} }
+func FormatNames() []string { return []string{"jsonl", "csv", "table", "wide"} }
 
 // timeLayout is RFC 3339 in UTC with exactly six fractional digits (DESIGN
 // "Time"). The trailing Z is a literal: the time is converted to UTC first.

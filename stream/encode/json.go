@@ -65,25 +65,25 @@ func AppendJSON(dst []byte, s *metrics.Setup, r *metrics.Record) []byte {
 		}
 		dst = append(dst, '}')
 	}
-	if len(s.Pairs) > 0 {
-		dst = appendJSONTotal(dst, &r.Total)
+	if s.HasTotal() {
+		dst = appendJSONTotal(dst, &r.Total, s.Wiring == metrics.Delta)
 	}
 
 	if len(r.SeqV) > 0 || len(r.SeqI) > 0 {
 		dst = append(dst, `,"sequence":{`...)
 		if len(r.SeqV) > 0 {
 			dst = append(dst, `"voltage":`...)
-			dst = appendJSONSeq(dst, r.SeqV)
+			dst = appendJSONSeq(dst, r.SeqV, s.Wiring != metrics.Delta)
 			if len(r.SeqI) > 0 {
 				dst = append(dst, ',')
 			}
 		}
 		if len(r.SeqI) > 0 {
 			dst = append(dst, `"current":`...)
-			dst = appendJSONSeq(dst, r.SeqI)
+			dst = appendJSONSeq(dst, r.SeqI, true)
 		}
 		dst = append(dst, '}')
-		if s.Wiring == metrics.Wye {
+		if s.Wiring == metrics.Wye || s.Wiring == metrics.Delta {
 			dst = append(dst, `,"unbalance":{`...)
 			if len(r.SeqV) > 0 {
 				dst = append(dst, `"voltage_pct":`...)
@@ -178,13 +178,17 @@ func appendJSONPhase(dst []byte, p *metrics.PhaseValues) []byte {
 	return append(dst, '}')
 }
 
-func appendJSONTotal(dst []byte, t *metrics.TotalValues) []byte {
+// appendJSONTotal appends the totals; delta has no s_va (no arithmetic
+// sum without phase-to-neutral voltages).
+func appendJSONTotal(dst []byte, t *metrics.TotalValues, delta bool) []byte {
 	dst = append(dst, `,"total":{"p_w":`...)
 	dst = appendJSONNum(dst, t.P)
 	dst = append(dst, `,"q_var":`...)
 	dst = appendJSONNum(dst, t.Q1)
-	dst = append(dst, `,"s_va":`...)
-	dst = appendJSONNum(dst, t.S)
+	if !delta {
+		dst = append(dst, `,"s_va":`...)
+		dst = appendJSONNum(dst, t.S)
+	}
 	dst = append(dst, `,"se_va":`...)
 	dst = appendJSONNum(dst, t.Se)
 	dst = append(dst, `,"se1_va":`...)
@@ -209,7 +213,9 @@ func dominant(q *metrics.Seq) string {
 	return q.Dominant()
 }
 
-func appendJSONSeq(dst []byte, seq []metrics.Seq) []byte {
+// appendJSONSeq appends sequence magnitudes; zero is left out for
+// line-to-line voltages, which have no zero sequence.
+func appendJSONSeq(dst []byte, seq []metrics.Seq, zero bool) []byte {
 	dst = append(dst, '{')
 	for k := range seq {
 		q := &seq[k]
@@ -222,8 +228,10 @@ func appendJSONSeq(dst []byte, seq []metrics.Seq) []byte {
 		dst = appendJSONNum(dst, q.Pos)
 		dst = append(dst, `,"neg":`...)
 		dst = appendJSONNum(dst, q.Neg)
-		dst = append(dst, `,"zero":`...)
-		dst = appendJSONNum(dst, q.Zero)
+		if zero {
+			dst = append(dst, `,"zero":`...)
+			dst = appendJSONNum(dst, q.Zero)
+		}
 		dst = append(dst, `,"dominant":`...)
 		if d := dominant(q); d != "" {
 			dst = append(dst, '"')

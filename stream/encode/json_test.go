@@ -213,7 +213,7 @@ func TestAppendJSONPresence(t *testing.T) {
 				}
 			}
 			if f, ok := m["flags"].([]any); !ok || len(f) != 0 {
-				t.Errorf("flags = %#v, want [] always present (src: brief: \"flags\":[] always present)", m["flags"])
+				t.Errorf("flags = %#v, want [] always present (src: README, Record: \"flags\":[] always present)", m["flags"])
 			}
 		})
 	}
@@ -498,7 +498,7 @@ func TestAppendJSONFlags(t *testing.T) {
 		want []string
 		src  string
 	}{
-		{0, []string{}, "brief: flags always present, [] when none"},
+		{0, []string{}, "README, Record: flags always present, [] when none"},
 		{metrics.FlagPartial, []string{"partial"}, "DESIGN: closed set"},
 		{metrics.FlagGap | metrics.FlagPartial | metrics.FlagClockUnsynced, []string{"partial", "gap", "clock_unsynced"}, "metrics.Flags bit order"},
 	}
@@ -546,7 +546,7 @@ func TestAppendJSONHeader(t *testing.T) {
 	}
 	keys := objectKeys(t, out)
 	if i := slices.Index(keys, "freq_10s_hz"); i < 0 || keys[i-1] != "freq_hz" || keys[i+1] != "flags" {
-		t.Errorf("keys %v: want freq_10s_hz between freq_hz and flags (src: brief CSV column order)", keys)
+		t.Errorf("keys %v: want freq_10s_hz between freq_hz and flags (src: README, Record, CSV flattens the same keys in order)", keys)
 	}
 }
 

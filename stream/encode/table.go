@@ -19,8 +19,9 @@ const nullCell = "-"
 
 // TableOptions adjusts the table.
 type TableOptions struct {
-	Title       string // site title for the banner; "" = none
-	HeaderEvery int    // repeat the column header every n rows; 0 = once
+	Title       string     // site title for the banner; "" = none
+	HeaderEvery int        // wide table: repeat the column header every n rows; 0 = once
+	Reference   *Reference // IEEE 519 limits beside THD-V and TDD (Blocks); nil = none
 }
 
 // colSrc says where a table column takes its value from.
@@ -97,7 +98,7 @@ func NewTable(w io.Writer, s *metrics.Setup, opts TableOptions) *Table {
 		add(column{head: "PF " + ph, width: 6, src: srcPF, idx: k, dec: 3})
 		add(column{head: "DPF " + ph, width: 6, src: srcDPF, idx: k, dec: 3})
 	}
-	if len(s.Pairs) > 0 {
+	if s.HasTotal() {
 		add(column{head: "P kW", width: 8, src: srcPkW, dec: 2})
 		add(column{head: "Q kvar", width: 8, src: srcQkvar, dec: 2})
 		add(column{head: "PF", width: 6, src: srcTotPF, dec: 3})
@@ -158,6 +159,7 @@ func (t *Table) banner() error {
 	}
 	b = append(b, "\nCAUTION: "...)
 	b = append(b, Caution...)
+	b = append(b, "\nTHD% is thd_pct and TDD% tdd_pct (every component but DC and the fundamental); IEEE 519 compares the orders 2-50 values (--format table)."...)
 	b = append(b, '\n', '\n')
 	t.buf = t.appendHeader(b)
 	if _, err := t.w.Write(t.buf); err != nil {

@@ -45,8 +45,11 @@ func TestTableBanner(t *testing.T) {
 			t.Errorf("caution line lacks %q (src: common rules, Safety)", must)
 		}
 	}
-	if got := len(lines); got != 3+1+3 {
-		t.Errorf("%d lines, want banner(2) + blank + header + 3 rows", got)
+	if !strings.Contains(lines[2], "thd_pct") {
+		t.Errorf("legend line %q does not say which THD is shown", lines[2])
+	}
+	if got := len(lines); got != 4+1+3 {
+		t.Errorf("%d lines, want banner(3) + blank + header + 3 rows", got)
 	}
 	// No record at all: the caution still comes out.
 	lines = tableLines(t, s, TableOptions{})
@@ -78,7 +81,7 @@ func TestTableRounding(t *testing.T) {
 	r.Channels[4].THDPct = metrics.Null() // ib
 	r.Flags = metrics.FlagPartial | metrics.FlagGap
 	lines := tableLines(t, s, TableOptions{}, r)
-	head, row := lines[3], lines[4]
+	head, row := lines[4], lines[5] // banner: title, caution, THD legend, blank
 	names := splitHeader(t, head)
 	cells := strings.Fields(row)
 	if len(cells) != len(names) {
@@ -91,14 +94,14 @@ func TestTableRounding(t *testing.T) {
 	cases := []struct {
 		col, want, src string
 	}{
-		{"start (UTC)", "2026-03-01T10:00:00.000Z", "DESIGN Time, to the millisecond (brief)"},
+		{"start (UTC)", "2026-03-01T10:00:00.000Z", "DESIGN Time, to the millisecond (README, Record)"},
 		{"intvl", "200ms", "DESIGN interval labels"},
 		{"f Hz", "50.000", "3 decimals; 49.99951 rounds up (arithmetic)"},
 		{"va V", "230.0", "0.1 V; 230.04999 rounds down (arithmetic)"},
 		{"vb V", exactRound(230.05, 1), "binary64 230.05 is 230.0500000000000113…, rounds up (math/big exact value)"},
 		{"va THD%", exactRound(2.085, 2), "binary64 2.085 is 2.0849999999999999644…, rounds down (math/big exact value)"},
 		{"ia A", "47.90", "0.01 A (arithmetic)"},
-		{"ib THD%", "-", "null shown as - (brief)"},
+		{"ib THD%", "-", "null shown as - (README, Record)"},
 		{"PF a", "0.000", "a value rounding to zero prints without sign: common practice, no source"},
 		{"DPF a", exactRound(0.9785, 3), "0.001 (math/big exact value)"},
 		{"P kW", "30.99", "30990 W in kW (arithmetic)"},
@@ -154,7 +157,7 @@ func TestTableAlignment(t *testing.T) {
 		t.Fatal(err)
 	}
 	lines := strings.Split(strings.TrimSuffix(buf.String(), "\n"), "\n")
-	head, row := lines[3], lines[4]
+	head, row := lines[4], lines[5] // banner: title, caution, THD legend, blank
 	pos := 0
 	for i, c := range tw.cols {
 		if i > 0 {

@@ -25,7 +25,23 @@ type ExportRequest struct {
 	Interval string    `json:"interval"` // 3s, 10min or 2h
 	From     time.Time `json:"from"`     // zero = from the oldest
 	To       time.Time `json:"to"`       // zero = to the newest
-	Format   string    `json:"format"`   // jsonl or csv
+	Format   string    `json:"format"`   // jsonl, csv, table or wide (encode.ParseFormat)
+	// For the table formats: the banner's title and the IEEE 519 reference
+	// of the site (the store alone does not know them).
+	Title     string            `json:"title,omitempty"`
+	Reference *encode.Reference `json:"reference,omitempty"`
+}
+
+// exportFormat parses req.Format ("" is jsonl).
+func exportFormat(req ExportRequest) (encode.Format, error) {
+	if req.Format == "" {
+		return encode.FormatJSONL, nil
+	}
+	f, ok := encode.ParseFormat(req.Format)
+	if !ok {
+		return 0, fmt.Errorf("%w: format %q: allowed are %s", ErrExport, req.Format, strings.Join(encode.FormatNames(), ", "))
+	}
+	return f, nil
 }
 
 // ErrExport reports a bad export request.
@@ -55,17 +71,13 @@ func WriteExport(w io.Writer, db *store.DB, req ExportRequest) error {
 		}
 		return err
 	}
-	var enc interface {
-		Write(*metrics.Record) error
-		Flush() error
+	f, err := exportFormat(req)
+	if err != nil {
+		return err
 	}
-	switch req.Format {
-	case "jsonl", "":
-		enc = encode.NewJSONL(w, layout)
-	case "csv":
-		enc = encode.NewCSV(w, layout)
-	default:
-		return fmt.Errorf("%w: format %q: allowed are jsonl, csv", ErrExport, req.Format)
+	enc, err := encode.New(f, w, layout, encode.TableOptions{Title: req.Title, Reference: req.Reference})
+	if err != nil {
+		return fmt.Errorf("%w: %w", ErrExport, err)
 	}
 	if err := db.Query(iv, req.From, req.To, enc.Write); err != nil {
 		return err
@@ -131,8 +143,8 @@ func serveOne(c net.Conn, db *store.DB, log *slog.Logger) {
 		fmt.Fprintf(c, "error: interval %q: allowed are 3s, 10min, 2h\n", req.Interval)
 		return
 	}
-	if req.Format != "" && req.Format != "jsonl" && req.Format != "csv" {
-		fmt.Fprintf(c, "error: format %q: allowed are jsonl, csv\n", req.Format)
+	if _, err := exportFormat(req); err != nil {
+		fmt.Fprintf(c, "error: %v\n", err)
 		return
 	}
 	bw := bufio.NewWriterSize(c, 64<<10)

@@ -13,13 +13,7 @@ import (
 	"github.com/gridloupe/gridloupe/metrics/alarm"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream"
-)
-
-// Topic levels below the gateway's base (DESIGN: our own layout).
-const (
-	levelTelemetry = "telemetry"
-	levelAlarm     = "alarm"
-	levelHealth    = "health"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 // Config configures a Gateway. Zero values are documented per field.
@@ -27,7 +21,8 @@ type Config struct {
 	Pipeline stream.Config      // the per-sample path; Pipeline.Setup is required
 	Source   stream.FrameReader // required
 	// Live marks a source that must never block: when the sink queue is
-	// full its records are dropped and counted. Replay and the simulator
+	// full its records are dropped and counted, and the next record of the
+	// same level carries the flag gap. Replay and the simulator
 	// leave it false and get back-pressure.
 	Live bool
 	// EndIsError says that the source ending is a failure (live sources,
@@ -38,10 +33,13 @@ type Config struct {
 	Alarms    *alarm.Evaluator // nil = no alarm rules
 	Channels  []string         // channel names, for alarm payloads; nil = from the setup
 	Telemetry []metrics.Interval
-	Base      string // topic base <prefix>/<site>/<gateway>; "" = nothing is queued for MQTT
-	Site      string
-	Gateway   string
-	Kick      func() // wakes the publisher after messages were queued; nil = none
+	// TelemetryQoS is the MQTT QoS per telemetry level; a level absent
+	// here is published at QoS 1 (deleted from the outbox on PUBACK).
+	TelemetryQoS map[metrics.Interval]byte
+	Base         string // topic base <prefix>/<site>/<gateway>; "" = nothing is queued for MQTT
+	Site         string
+	Gateway      string
+	Kick         func() // wakes the publisher after messages were queued; nil = none
 
 	CommitEvery time.Duration    // aggregate batch period (wall time); 0 = 60 s
 	QueueLen    int              // records between the two goroutines; 0 = 256
@@ -60,6 +58,9 @@ type Config struct {
 	// in its MQTT status), and with nil when writes succeed again;
 	// measurement goes on either way.
 	OnStoreError func(err error)
+	// Notice is news from start-up (a damaged store set aside) that the
+	// first health message carries; "" = none.
+	Notice string
 }
 
 // Store is what the gateway needs of the bbolt store (*store.DB).
@@ -91,6 +92,7 @@ type Health struct {
 	Stored, Dropped uint64
 	Losses          []ClassCount
 	StoreErr        string
+	Notice          string // Config.Notice, in the first health message only
 }
 
 // ClassCount is one outbox class's loss count.
@@ -193,12 +195,11 @@ func (g *Gateway) Run(ctx context.Context) error {
 		defer wg.Done()
 		g.sink(q)
 	}()
+	var drops liveDrops
 	send := func(r *metrics.Record) error {
 		c := r.Clone()
 		if g.cfg.Live {
-			select {
-			case q <- c:
-			default:
+			if !drops.offer(q, c) {
 				g.dropped.Add(1)
 			}
 			return nil
@@ -276,8 +277,8 @@ func (g *Gateway) handle(r *metrics.Record) {
 	}()
 	g.evaluate(r)
 	if g.cfg.Base != "" && int(r.Interval) < len(g.telem) && g.telem[r.Interval] {
-		g.msgs = append(g.msgs, store.Message{Class: store.ClassTelemetry, QoS: 0,
-			Topic:   g.cfg.Base + "/" + levelTelemetry + "/" + r.Interval.String(),
+		g.msgs = append(g.msgs, store.Message{Class: store.ClassTelemetry, QoS: g.telemetryQoS(r.Interval),
+			Topic:   topic.Telemetry(g.cfg.Base, r.Interval.String()),
 			Payload: telemetryPayload(nil, g.cfg.Site, g.cfg.Gateway, g.setup, r)})
 	}
 	if g.cfg.OnRecord != nil {
@@ -289,7 +290,7 @@ func (g *Gateway) handle(r *metrics.Record) {
 	}
 	if r.Interval == metrics.Int10min {
 		if g.cfg.Base != "" {
-			g.msgs = append(g.msgs, g.healthMessage())
+			g.msgs = append(g.msgs, g.healthMessage(r.Start.Add(time.Duration(r.DurationS*float64(time.Second)))))
 		}
 		g.add2h(r)
 	}
@@ -308,7 +309,7 @@ func (g *Gateway) evaluate(r *metrics.Record) {
 		st := states[t.Rule]
 		ch := g.ruleChannel(t.Rule)
 		msg := store.Message{Class: store.ClassAlarm, QoS: 1,
-			Topic: g.cfg.Base + "/" + levelAlarm, Payload: alarmPayload(g.cfg.Site, g.cfg.Gateway, t, ch)}
+			Topic: topic.Alarm(g.cfg.Base), Payload: alarmPayload(g.cfg.Site, g.cfg.Gateway, t, ch)}
 		g.commitAlarm(pendingAlarm{st: toStore(t.Rule, st, t.Severity), msg: msg, withMsg: g.cfg.Base != ""})
 		state := "cleared"
 		if t.Raised {
@@ -426,16 +427,18 @@ func (g *Gateway) commit() {
 }
 
 // healthMessage builds the health message (store size, losses, last store
-// error) queued on <base>/health with every 10 min record.
-func (g *Gateway) healthMessage() store.Message {
+// error) queued on <base>/health with every 10 min record; its time is the
+// record's end on the sample clock, the clock of every queued message.
+func (g *Gateway) healthMessage(at time.Time) store.Message {
 	st := g.cfg.Store.Stats()
-	h := Health{StoreBytes: st.FileBytes, Stored: g.stored.Load(), Dropped: g.dropped.Load(), StoreErr: g.lastErr}
+	h := Health{StoreBytes: st.FileBytes, Stored: g.stored.Load(), Dropped: g.dropped.Load(), StoreErr: g.lastErr, Notice: g.cfg.Notice}
+	g.cfg.Notice = ""
 	losses := g.cfg.Store.Losses()
 	for _, c := range []store.Class{store.ClassTelemetry, store.ClassEventWaveform, store.ClassEvent, store.ClassAlarm} {
 		h.Losses = append(h.Losses, ClassCount{c.String(), losses[c]})
 	}
-	return store.Message{Class: store.ClassEvent, QoS: 1, Topic: g.cfg.Base + "/" + levelHealth,
-		Payload: healthPayload(g.cfg.Site, g.cfg.Gateway, g.now(), h)}
+	return store.Message{Class: store.ClassEvent, QoS: 1, Topic: topic.Health(g.cfg.Base),
+		Payload: healthPayload(g.cfg.Site, g.cfg.Gateway, at, h)}
 }
 
 func (g *Gateway) storeError(err error) {
@@ -464,4 +467,16 @@ func (g *Gateway) kick() {
 	if g.cfg.Kick != nil {
 		g.cfg.Kick()
 	}
+}
+
+// DefaultTelemetryQoS is the QoS of a telemetry level Config.TelemetryQoS
+// does not name: 1, so a message in flight when the broker goes away is
+// resent rather than deleted as delivered.
+const DefaultTelemetryQoS = 1
+
+func (g *Gateway) telemetryQoS(iv metrics.Interval) byte {
+	if q, ok := g.cfg.TelemetryQoS[iv]; ok {
+		return q
+	}
+	return DefaultTelemetryQoS
 }

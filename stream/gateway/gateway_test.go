@@ -302,8 +302,8 @@ func (f *failingStore) CommitAlarm(st store.AlarmState, m store.Message) (uint64
 }
 
 // TestAlarmCommitRetried: a transition whose commit fails is kept and
-// committed, in order, once the store works again; none is lost (review
-// finding: it used to be dropped and marked as persisted).
+// committed, in order, once the store works again; none is lost (README "The gateway": alarm
+// transitions are committed at once; a failed commit once dropped one).
 func TestAlarmCommitRetried(t *testing.T) {
 	r := newRig(t, filepath.Join(t.TempDir(), "g.db"), 150)
 	ev, err := alarm.New([]alarm.Rule{thdRule()}, r.setup, nil)
@@ -359,7 +359,7 @@ func TestAlarmCommitRetried(t *testing.T) {
 
 // TestTwoHourNotDuplicatedAfterRestart: a run stopped in the last 10 min
 // slot stores the 2 h value; a restart inside that slot must not store a
-// second one for the same interval (review finding).
+// second one for the same interval.
 func TestTwoHourNotDuplicatedAfterRestart(t *testing.T) {
 	r := newRig(t, filepath.Join(t.TempDir(), "g.db"), 1)
 	start := time.Date(2026, 3, 1, 0, 0, 0, 0, time.UTC)

@@ -89,10 +89,16 @@ func healthPayload(site, gw string, now time.Time, h Health) []byte {
 		b = strconv.AppendUint(b, c.N, 10)
 	}
 	b = append(b, `},"store_error":`...)
-	if h.StoreErr == "" {
-		b = append(b, "null"...)
-	} else {
-		b = encode.AppendString(b, h.StoreErr)
-	}
+	b = appendOptString(b, h.StoreErr)
+	b = append(b, `,"store_notice":`...)
+	b = appendOptString(b, h.Notice)
 	return append(b, '}')
+}
+
+// appendOptString appends s as a JSON string, or null when it is empty.
+func appendOptString(b []byte, s string) []byte {
+	if s == "" {
+		return append(b, "null"...)
+	}
+	return encode.AppendString(b, s)
 }

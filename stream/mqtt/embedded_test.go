@@ -69,7 +69,7 @@ func TestTLSConfig(t *testing.T) {
 		src                 string
 	}{
 		{"ca and client pair", c.CAFile, c.ClientCert, c.ClientKey, true, "crypto/tls: LoadX509KeyPair"},
-		{"ca only", c.CAFile, "", "", true, "brief: client certificate optional"},
+		{"ca only", c.CAFile, "", "", true, "README, MQTT topics and payloads: client certificate optional"},
 		{"nothing", "", "", "", true, "doc of TLSConfig: system roots"},
 		{"junk ca", junk, "", "", false, "crypto/x509: AppendCertsFromPEM finds no certificate"},
 		{"missing ca", c.CAFile + ".gone", "", "", false, "os.ReadFile"},

@@ -95,7 +95,8 @@ type Publisher struct {
 	connects  atomic.Uint64 // successful connections
 	statusGen atomic.Uint64 // bumped by SetProblem: the online status must be republished
 	problem   atomic.Pointer[string]
-	failing   atomic.Bool // a connection failure was logged since the last connect
+	notice    atomic.Pointer[string] // SetNotice: kept for the process's life
+	failing   atomic.Bool            // a connection failure was logged since the last connect
 	published atomic.Uint64
 	acked     atomic.Uint64
 	dropped   atomic.Uint64
@@ -246,6 +247,7 @@ type statusJSON struct {
 	Gateway string `json:"gateway"`
 	Reason  string `json:"reason,omitempty"`
 	Problem string `json:"problem,omitempty"`
+	Notice  string `json:"notice,omitempty"`
 }
 
 func (p *Publisher) statusPayload(status, reason string, withTime bool) []byte {
@@ -253,6 +255,9 @@ func (p *Publisher) statusPayload(status, reason string, withTime bool) []byte {
 	if status == "online" {
 		if pr := p.problem.Load(); pr != nil {
 			s.Problem = *pr
+		}
+		if n := p.notice.Load(); n != nil {
+			s.Notice = *n
 		}
 	}
 	if withTime {
@@ -275,6 +280,15 @@ func (p *Publisher) SetProblem(msg string) {
 	} else {
 		p.problem.Store(&msg)
 	}
+	p.statusGen.Add(1)
+	signal(p.kick)
+}
+
+// SetNotice sets news that the retained online status carries for the rest
+// of the process's life, such as a damaged store set aside at start (unlike
+// a problem, nothing clears it). Safe for concurrent use; never blocks.
+func (p *Publisher) SetNotice(msg string) {
+	p.notice.Store(&msg)
 	p.statusGen.Add(1)
 	signal(p.kick)
 }

@@ -11,7 +11,7 @@ import (
 	"github.com/gridloupe/gridloupe/stream/mqtt/mqtttest"
 )
 
-// shutdownBound is how soon Run must return after cancel: the brief's bound
+// shutdownBound is how soon Run must return after cancel: the README's "exits within a few seconds"
 // (offline status wait 1 s + disconnect quiesce 0.25 s inside it).
 const shutdownBound = 2 * time.Second
 
@@ -299,7 +299,7 @@ func TestBadTopicAndRawPayload(t *testing.T) {
 		case mqtt.EventTopic(testBase):
 			events++
 			if string(m.payload) != "[1,2,3]" {
-				t.Errorf("raw payload %q changed (brief: non-objects unchanged)", m.payload)
+				t.Errorf("raw payload %q changed (WithSeq doc: non-objects unchanged)", m.payload)
 			}
 		}
 	}
@@ -320,15 +320,15 @@ func TestNewErrors(t *testing.T) {
 		mod  func(*mqtt.Config)
 		src  string
 	}{
-		{"empty broker", func(c *mqtt.Config) { c.Broker = "" }, "brief: tcp:// or ssl://"},
-		{"websocket scheme", func(c *mqtt.Config) { c.Broker = "ws://127.0.0.1:80" }, "brief: tcp:// or ssl:// only"},
-		{"no port", func(c *mqtt.Config) { c.Broker = "tcp://gw:" + testPass + "@127.0.0.1" }, "brief: host:port"},
+		{"empty broker", func(c *mqtt.Config) { c.Broker = "" }, "README, MQTT topics and payloads: tcp:// or ssl://"},
+		{"websocket scheme", func(c *mqtt.Config) { c.Broker = "ws://127.0.0.1:80" }, "README, MQTT topics and payloads: tcp:// or ssl:// only"},
+		{"no port", func(c *mqtt.Config) { c.Broker = "tcp://gw:" + testPass + "@127.0.0.1" }, "README, MQTT topics and payloads: host:port"},
 		{"unparsable with password", func(c *mqtt.Config) { c.Broker = "tcp://gw:" + testPass + "@[::1" }, "RFC 3986 §3.2.2: unclosed IP literal"},
 		{"no client id", func(c *mqtt.Config) { c.ClientID = "" }, "MQTT 3.1.1 §3.1.3.1: needed with a clean session? our rule: required"},
 		{"wildcard base", func(c *mqtt.Config) { c.Base = "gridloupe/#" }, "MQTT 3.1.1 §4.7.1: no wildcards in a topic name"},
 		{"empty level", func(c *mqtt.Config) { c.Base = "gridloupe//dc2-gw1" }, "DESIGN.md: no empty levels"},
 		{"dollar base", func(c *mqtt.Config) { c.Base = "$SYS/x" }, "MQTT 3.1.1 §4.7.2: $ topics are the broker's"},
-		{"no outbox", func(c *mqtt.Config) { c.Outbox = nil }, "brief: the outbox is the only queue"},
+		{"no outbox", func(c *mqtt.Config) { c.Outbox = nil }, "README, MQTT topics and payloads: the outbox is the only queue"},
 		{"negative window", func(c *mqtt.Config) { c.InFlight = -1 }, "common practice, no source"},
 		{"huge window", func(c *mqtt.Config) { c.InFlight = 70000 }, "MQTT 3.1.1 §2.3.1: 65535 packet identifiers"},
 		{"negative timeout", func(c *mqtt.Config) { c.AckTimeout = -time.Second }, "common practice, no source"},

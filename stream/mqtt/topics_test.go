@@ -3,7 +3,10 @@ package mqtt_test
 import (
 	"bytes"
 	"encoding/json"
+	"os"
+	"path/filepath"
 	"strconv"
+	"strings"
 	"testing"
 
 	"github.com/gridloupe/gridloupe/stream/mqtt"
@@ -16,6 +19,7 @@ func TestTopics(t *testing.T) {
 		{"status", mqtt.StatusTopic(base), base + "/status", "DESIGN.md, Daemon keys, MQTT and store: topic layout"},
 		{"telemetry", mqtt.TelemetryTopic(base, "10min"), base + "/telemetry/10min", "DESIGN.md: .../telemetry/<interval>"},
 		{"alarm", mqtt.AlarmTopic(base), base + "/alarm", "DESIGN.md: .../alarm"},
+		{"health", mqtt.HealthTopic(base), base + "/health", "README, MQTT topics and payloads: …/health"},
 		{"event", mqtt.EventTopic(base), base + "/event", "DESIGN.md: .../event"},
 	}
 	for _, tc := range tests {
@@ -33,23 +37,23 @@ func TestWithSeq(t *testing.T) {
 		want     string
 		src      string
 	}{
-		{"object", `{"a":1}`, 12, `{"seq":12,"a":1}`, "brief: seq inserted as the first key"},
+		{"object", `{"a":1}`, 12, `{"seq":12,"a":1}`, "README, MQTT topics and payloads: seq inserted as the first key"},
 		{"empty object", `{}`, 3, `{"seq":3}`, "RFC 8259 §4: an object with one member has no comma"},
 		{"empty object with space", "{ \n}", 3, "{\"seq\":3 \n}", "RFC 8259 §2: whitespace around structural characters is insignificant"},
 		{"leading and trailing space", " \t{\"a\":\"b\"}\n", 7, " \t{\"seq\":7,\"a\":\"b\"}\n", "RFC 8259 §2: insignificant whitespace kept as is"},
-		{"nested", `{"a":{"b":[1,2]}}`, 1, `{"seq":1,"a":{"b":[1,2]}}`, "brief: only the outer object gets seq"},
+		{"nested", `{"a":{"b":[1,2]}}`, 1, `{"seq":1,"a":{"b":[1,2]}}`, "README, MQTT topics and payloads: only the outer object gets seq"},
 		{"largest seq", `{"x":0}`, ^uint64(0), `{"seq":18446744073709551615,"x":0}`, "uint64 maximum, 2^64-1"},
 		{"zero seq", `{"x":0}`, 0, `{"seq":0,"x":0}`, "common practice, no source: 0 is printed, not omitted"},
 		{"already first", `{"seq":5,"a":1}`, 9, `{"seq":5,"a":1}`, "doc of WithSeq: a payload whose first key is seq is left unchanged"},
 		{"already first spaced", `{ "seq" : 5}`, 9, `{ "seq" : 5}`, "doc of WithSeq, RFC 8259 §2 whitespace"},
 		{"seq-like key", `{"seqs":[1]}`, 2, `{"seq":2,"seqs":[1]}`, "doc of WithSeq: only the key seq itself counts"},
-		{"array", `[1,2]`, 4, `[1,2]`, "brief: payloads that are not objects stay unchanged"},
-		{"string", `"{x}"`, 4, `"{x}"`, "brief: not an object"},
-		{"number", `42`, 4, `42`, "brief: not an object"},
-		{"empty", ``, 4, ``, "brief: not an object"},
+		{"array", `[1,2]`, 4, `[1,2]`, "README, MQTT topics and payloads: payloads that are not objects stay unchanged"},
+		{"string", `"{x}"`, 4, `"{x}"`, "README, MQTT topics and payloads: not an object"},
+		{"number", `42`, 4, `42`, "README, MQTT topics and payloads: not an object"},
+		{"empty", ``, 4, ``, "README, MQTT topics and payloads: not an object"},
 		{"lone brace", `{`, 4, `{`, "doc of WithSeq: needs a closing brace"},
-		{"binary", "\x00\x01{}", 4, "\x00\x01{}", "brief: not an object (first byte not '{')"},
-		{"text", `online`, 4, `online`, "brief: not an object"},
+		{"binary", "\x00\x01{}", 4, "\x00\x01{}", "README, MQTT topics and payloads: not an object (first byte not '{')"},
+		{"text", `online`, 4, `online`, "README, MQTT topics and payloads: not an object"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -120,4 +124,20 @@ func firstKey(t testing.TB, b []byte) string {
 	}
 	k, _ := tok.(string)
 	return k
+}
+
+// TestStatusTopicAsDocumented: the status topic the publisher uses is the
+// README's, with QoS 1 and retained.
+func TestStatusTopicAsDocumented(t *testing.T) {
+	t.Parallel()
+	b, err := os.ReadFile(filepath.Join("..", "..", "README.md"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	const base = "gridloupe/north-weir-dc2/dc2-gw1"
+	suffix := strings.TrimPrefix(mqtt.StatusTopic(base), base)
+	// src: README, MQTT topics and payloads, the table's status row
+	if row := "| `…" + suffix + "` | 1, retained |"; !strings.Contains(string(b), row) {
+		t.Errorf("README has no row %q for the status topic %q", row, mqtt.StatusTopic(base))
+	}
 }

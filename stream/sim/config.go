@@ -30,6 +30,7 @@ type Chan struct {
 	Name   string       // unique, non-empty
 	Kind   metrics.Kind // metrics.Voltage or metrics.Current
 	Phase  byte         // 'a', 'b', 'c'; 'n' (neutral) for currents only
+	To     byte         // voltages: 0 for phase-to-neutral, else the second phase of a line-to-line voltage (v_Phase − v_To)
 	Scale  float64      // engineering = raw·Scale + Offset; 0 = 1
 	Offset float64      // engineering units
 }
@@ -185,6 +186,9 @@ func normalize(cfg Config) (Config, error) {
 		case metrics.Voltage:
 			if c.Phase != 'a' && c.Phase != 'b' && c.Phase != 'c' {
 				return cfg, bad(field+".Phase", fmt.Sprintf("%q", c.Phase), "a voltage wants a, b or c")
+			}
+			if c.To != 0 && (c.To < 'a' || c.To > 'c' || c.To == c.Phase) {
+				return cfg, bad(field+".To", fmt.Sprintf("%q", c.To), "a line-to-line voltage wants a second phase a, b or c other than Phase")
 			}
 		case metrics.Current:
 			if c.Phase != 'a' && c.Phase != 'b' && c.Phase != 'c' && c.Phase != 'n' {

@@ -48,7 +48,7 @@ func TestLoadProfile(t *testing.T) {
 		prev, prevD = l, d
 	}
 	if loadAtHour(3) >= loadAtHour(11) {
-		t.Error("night load not below the pumping hours (brief)")
+		t.Error("night load not below the pumping hours (invented scenario, DESIGN, Scenario)")
 	}
 	// Start's location sets the hour.
 	cet := time.FixedZone("UTC+1", 3600)
@@ -94,7 +94,7 @@ func TestConditionProfile(t *testing.T) {
 func TestHarmonicRatioLaw(t *testing.T) {
 	t.Parallel()
 	// Non-characteristic orders are absent: six-pulse characteristic
-	// orders are 6k ± 1 (REFERENCE 5, closed form).
+	// orders are 6k ± 1 (closed form).
 	for h := 1; h <= MaxOrder; h++ {
 		char := h >= 5 && (h%6 == 1 || h%6 == 5)
 		if r := harmonicRatio(h, 0.7, 0.5); (r > 0) != char {
@@ -116,9 +116,9 @@ func TestHarmonicRatioLaw(t *testing.T) {
 		src                    string
 	}{
 		{"healthy reactor, full load", 1, 1, 0.30, 0.35, 0.30, 0.45,
-			"brief: I5/I1 ≈ 30–35 %; REFERENCE 5: chokes bring THD_I toward 30–45 % (from memory, not a test value)"},
+			"invented scenario, DESIGN, Scenario for demo data and examples: I5/I1 ≈ 30–35 %; closed form: chokes bring THD_I toward 30–45 % (from memory, not a test value)"},
 		{"no reactor effect, full load", 1, 0, 0.60, 0.80, 0.80, 1.20,
-			"brief: I5/I1 ≈ 60–80 %; REFERENCE 5: no chokes, THD_I 80–120 % (from memory, not a test value)"},
+			"invented scenario, DESIGN, Scenario for demo data and examples: I5/I1 ≈ 60–80 %; closed form: no chokes, THD_I 80–120 % (from memory, not a test value)"},
 	}
 	for _, b := range bands {
 		i5, th := harmonicRatio(5, b.load, b.cond), thd(b.load, b.cond)
@@ -143,13 +143,13 @@ func TestHarmonicRatioLaw(t *testing.T) {
 			}
 		}
 	}
-	// The base shape is 1/h (REFERENCE 5): in the small-ratio limit and with
+	// The base shape is 1/h (closed form): in the small-ratio limit and with
 	// β = 0 the model would give exactly I7/I5 = 5/7. With β = 1 (healthy)
 	// the unsaturated ratio is (5/7)² — check through the inverse of s.
 	unsat := func(y float64) float64 { return y / math.Sqrt(1-y*y) }
 	got := unsat(harmonicRatio(7, 1, 1)) / unsat(harmonicRatio(5, 1, 1))
 	if want := math.Pow(5.0/7, 2); math.Abs(got-want) > modelTol {
-		t.Errorf("unsaturated I7/I5 %v, want (5/7)^(1+β) = %v (1/h law, REFERENCE 5, times (5/h)^β)", got, want)
+		t.Errorf("unsaturated I7/I5 %v, want (5/7)^(1+β) = %v (1/h law, closed form, times (5/h)^β)", got, want)
 	}
 }
 

@@ -15,7 +15,7 @@ import (
 
 // Tolerances.
 const (
-	// ratioTol is the brief's acceptance figure for generated Ih/I1 versus
+	// ratioTol is the acceptance figure (common practice, no source) for generated Ih/I1 versus
 	// Truth (relative); the exact DFT of exact-bin tones should do far better.
 	ratioTol = 0.005
 	// exactTol bounds relative round-off of the phasor-rotation recurrence
@@ -48,15 +48,15 @@ func TestIdealHarmonicsMatchTruth(t *testing.T) {
 		wantI5Range [2]float64 // plausibility band of I5/I1, %
 	}{
 		{name: "north-weir healthy full load", cfg: idealConfig(), cycles: 10, n: window10, load: 1, cond: 1,
-			wantI5Range: [2]float64{30, 35}, src: "brief: healthy 3 % reactor, I5/I1 ≈ 30–35 % at full load (from memory)"},
+			wantI5Range: [2]float64{30, 35}, src: "invented scenario, DESIGN, Scenario for demo data and examples: healthy 3 % reactor, I5/I1 ≈ 30–35 % at full load (from memory)"},
 		{name: "north-weir healthy light load", cfg: idealConfig(), cycles: 10, n: window10, load: 0.3, cond: 1,
-			wantI5Range: [2]float64{35, 60}, src: "brief: ratios rise at light load (from memory)"},
+			wantI5Range: [2]float64{35, 60}, src: "invented scenario, DESIGN, Scenario for demo data and examples: ratios rise at light load (from memory)"},
 		{name: "north-weir no reactor effect", cfg: idealConfig(), cycles: 10, n: window10, load: 1, cond: 0,
-			wantI5Range: [2]float64{60, 80}, src: "brief: no-reactor levels I5/I1 ≈ 60–80 % (from memory)"},
+			wantI5Range: [2]float64{60, 80}, src: "invented scenario, DESIGN, Scenario for demo data and examples: no-reactor levels I5/I1 ≈ 60–80 % (from memory)"},
 		{name: "north-weir half degraded", cfg: idealConfig(), cycles: 10, n: window10, load: 0.6, cond: 0.5,
-			wantI5Range: [2]float64{30, 80}, src: "between the two brief bands"},
+			wantI5Range: [2]float64{30, 80}, src: "between the two bands above"},
 		{name: "larkfield 60 Hz healthy", cfg: larkfield, cycles: 12, n: 2560, load: 0.8, cond: 1,
-			wantI5Range: [2]float64{30, 40}, src: "brief bands, 60 Hz"},
+			wantI5Range: [2]float64{30, 40}, src: "the bands above, 60 Hz"},
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
@@ -106,10 +106,10 @@ func TestIdealHarmonicsMatchTruth(t *testing.T) {
 				t.Errorf("DPF %.9f, truth %.9f", dpf, tr.DPF)
 			}
 			if cmplx.Phase(i1) >= cmplx.Phase(v1) {
-				t.Errorf("current leads voltage: %v vs %v rad; want lagging (brief)", cmplx.Phase(i1), cmplx.Phase(v1))
+				t.Errorf("current leads voltage: %v vs %v rad; want lagging (invented scenario, DESIGN, Scenario)", cmplx.Phase(i1), cmplx.Phase(v1))
 			}
 			if tr.DPF < 0.97 || tr.DPF > 0.99 {
-				t.Errorf("DPF %v outside 0.97..0.99 (brief)", tr.DPF)
+				t.Errorf("DPF %v outside 0.97..0.99 (invented scenario, DESIGN, Scenario)", tr.DPF)
 			}
 		})
 	}
@@ -177,12 +177,12 @@ func TestSequenceOfHarmonics(t *testing.T) {
 		want string
 		src  string
 	}{
-		{1, "pos", "REFERENCE 5: h ≡ 1 (mod 3) positive sequence (closed form)"},
-		{5, "neg", "REFERENCE 5: h ≡ 2 (mod 3) negative sequence, 5th negative (closed form)"},
-		{7, "pos", "REFERENCE 5: 7th positive (closed form)"},
-		{11, "neg", "REFERENCE 5: h ≡ 2 (mod 3) negative (closed form)"},
-		{13, "pos", "REFERENCE 5: h ≡ 1 (mod 3) positive (closed form)"},
-		{3, "zero", "REFERENCE 5: triplens zero sequence (closed form)"},
+		{1, "pos", "closed form: h ≡ 1 (mod 3) positive sequence"},
+		{5, "neg", "closed form: h ≡ 2 (mod 3) negative sequence, 5th negative"},
+		{7, "pos", "closed form: 7th positive"},
+		{11, "neg", "closed form: h ≡ 2 (mod 3) negative"},
+		{13, "pos", "closed form: h ≡ 1 (mod 3) positive"},
+		{3, "zero", "closed form: triplens zero sequence"},
 	}
 	for _, base := range []struct {
 		name    string
@@ -216,13 +216,13 @@ func TestNeutralIsSumOfPhases(t *testing.T) {
 		}
 	}
 	m := spectrum(column(buf, nDefault, chIN), 10)
-	// 2 A of 3rd from single-phase loads (brief, invented); every
-	// non-triplen order cancels in a balanced set (REFERENCE 5).
+	// 2 A of 3rd from single-phase loads (invented scenario); every
+	// non-triplen order cancels in a balanced set (closed form).
 	if math.Abs(m[3]-2) > exactTol*2 {
-		t.Errorf("neutral 3rd %.9g A, want 2 A (brief)", m[3])
+		t.Errorf("neutral 3rd %.9g A, want 2 A (invented scenario, DESIGN, Scenario)", m[3])
 	}
 	if m[1] > exactTol*160 || m[5] > exactTol*160 {
-		t.Errorf("neutral h1 %.3g A h5 %.3g A, want 0 (balanced non-triplens cancel, REFERENCE 5)", m[1], m[5])
+		t.Errorf("neutral h1 %.3g A h5 %.3g A, want 0 (balanced non-triplens cancel)", m[1], m[5])
 	}
 }
 
@@ -373,14 +373,14 @@ func TestNoiseLevel(t *testing.T) {
 	for _, c := range []struct {
 		idx  int
 		want float64
-	}{{chVA, 0.0005 * 230}, {chIC, 0.0005 * 160}} { // brief: 0.05 % of nominal
+	}{{chVA, 0.0005 * 230}, {chIC, 0.0005 * 160}} { // sim package doc: 0.05 % of nominal
 		var ss float64
 		for i := 0; i < n; i++ {
 			d := noisy[i*nDefault+c.idx] - clean[i*nDefault+c.idx]
 			ss += d * d
 		}
 		if got := math.Sqrt(ss / n); math.Abs(got-c.want) > noiseRMSTol*c.want {
-			t.Errorf("channel %d noise σ %.5g, want %.5g (brief: 0.05 %% of nominal)", c.idx, got, c.want)
+			t.Errorf("channel %d noise σ %.5g, want %.5g (sim package doc: 0.05 %% of nominal)", c.idx, got, c.want)
 		}
 	}
 }
@@ -420,7 +420,7 @@ func TestPacing(t *testing.T) {
 		}
 		got += k
 	}
-	// 60 s at Speed 60 take 1 s of wall time (brief).
+	// 60 s at Speed 60 take 1 s of wall time (invented scenario, DESIGN, Scenario).
 	if el := clk.Now().Sub(start); el != time.Second {
 		t.Errorf("60 s of samples took %v of injected wall time, want 1s", el)
 	}
@@ -556,7 +556,7 @@ func TestFrequencyFollowsTruth(t *testing.T) {
 		t.Errorf("measured %.5f Hz, truth mean %.5f Hz", meas, meanTruth)
 	}
 	if math.Abs(meanTruth-50) < 0.002 || math.Abs(meanTruth-50) > 0.05 {
-		t.Errorf("truth mean %.5f Hz: want a visible wander within ±0.05 Hz (brief)", meanTruth)
+		t.Errorf("truth mean %.5f Hz: want a visible wander within ±0.05 Hz (invented scenario, DESIGN, Scenario)", meanTruth)
 	}
 }
 

@@ -59,6 +59,7 @@ type Truth struct {
 type chanState struct {
 	isV   bool
 	phase int       // 0, 1, 2 for a, b, c; 3 for the neutral
+	to    int       // line-to-line voltages: the second phase; −1 otherwise
 	off   float64   // −Offset/Scale
 	noise float64   // noise σ in raw units
 	cr    []float64 // per order: real part of the peak phasor / Scale
@@ -144,6 +145,10 @@ func New(cfg Config) (*Source, error) {
 			cs.phase = 3
 		} else {
 			cs.phase = int(c.Phase - 'a')
+		}
+		cs.to = -1
+		if cs.isV && c.To != 0 {
+			cs.to = int(c.To - 'a')
 		}
 		nominal := cfg.ILA
 		if cs.isV {
@@ -367,6 +372,8 @@ func (s *Source) startBlock() {
 				for ph := range 3 {
 					p += ih * phaseShift(h, ph)
 				}
+			} else if ch.isV && ch.to >= 0 {
+				p = vh * (phaseShift(h, ch.phase) - phaseShift(h, ch.to))
 			} else if ch.isV {
 				p = vh * phaseShift(h, ch.phase)
 			} else {

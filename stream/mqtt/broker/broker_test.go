@@ -117,7 +117,7 @@ func TestCredentials(t *testing.T) {
 		{"right", "bms", "larkfield-ah4", rcAccepted, "MQTT 3.1.1 §3.2.2.3: 0 accepted"},
 		{"wrong password", "bms", "larkfield-ah5", rcBadUserPwd, "MQTT 3.1.1 §3.2.2.3: 4 bad user name or password, or 5 not authorized"},
 		{"wrong user", "bmx", "larkfield-ah4", rcBadUserPwd, "MQTT 3.1.1 §3.2.2.3"},
-		{"none", "", "", rcBadUserPwd, "MQTT 3.1.1 §3.2.2.3; credentials enforced when set (brief)"},
+		{"none", "", "", rcBadUserPwd, "MQTT 3.1.1 §3.2.2.3; credentials enforced when set (README, MQTT topics and payloads)"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -144,9 +144,9 @@ func TestRefusals(t *testing.T) {
 		want error
 		src  string
 	}{
-		{"all interfaces, nothing", broker.Config{Addr: ":0"}, broker.ErrExposed, "brief: loopback only unless TLS and credentials"},
-		{"wildcard v4, creds only", broker.Config{Addr: "0.0.0.0:0", Username: "u", Password: "p"}, broker.ErrExposed, "brief: TLS needed too"},
-		{"documentation address, TLS only", broker.Config{Addr: "192.0.2.10:1883", TLS: srvTLS}, broker.ErrExposed, "brief: credentials needed too (RFC 5737 address, never bound)"},
+		{"all interfaces, nothing", broker.Config{Addr: ":0"}, broker.ErrExposed, "README, MQTT topics and payloads: loopback only unless TLS and credentials"},
+		{"wildcard v4, creds only", broker.Config{Addr: "0.0.0.0:0", Username: "u", Password: "p"}, broker.ErrExposed, "README, MQTT topics and payloads: TLS needed too"},
+		{"documentation address, TLS only", broker.Config{Addr: "192.0.2.10:1883", TLS: srvTLS}, broker.ErrExposed, "README, MQTT topics and payloads: credentials needed too (RFC 5737 address, never bound)"},
 		{"host name", broker.Config{Addr: "gateway.invalid:1883"}, broker.ErrExposed, "our rule: names other than localhost are not trusted as loopback"},
 		{"user without password", broker.Config{Addr: "127.0.0.1:0", Username: "u"}, broker.ErrConfig, "common practice, no source"},
 		{"TLS without certificate", broker.Config{Addr: "127.0.0.1:0", TLS: &tls.Config{}}, broker.ErrConfig, "crypto/tls: a server needs a certificate"},

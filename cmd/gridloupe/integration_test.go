@@ -1,0 +1,299 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/csv"
+	"fmt"
+	"io"
+	"math"
+	"net"
+	"net/http"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"regexp"
+	"strconv"
+	"strings"
+	"syscall"
+	"testing"
+	"time"
+
+	"github.com/prometheus/common/expfmt"
+	"github.com/prometheus/common/model"
+	mb "github.com/simonvetter/modbus"
+)
+
+// freePort returns a loopback host:port that was free a moment ago.
+func freePort(t *testing.T) string {
+	t.Helper()
+	l, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer l.Close()
+	return l.Addr().String()
+}
+
+// needTool finds a Debian tool the test drives; under CI (which installs
+// it) a missing tool fails the test, elsewhere it skips.
+func needTool(t *testing.T, name string) string {
+	t.Helper()
+	p, err := exec.LookPath(name)
+	if err != nil {
+		if os.Getenv("CI") != "" {
+			t.Fatalf("%s is not installed (.ci/run installs it): %v", name, err)
+		}
+		t.Skipf("%s is not installed", name)
+	}
+	return p
+}
+
+// integrationConfig is a three-phase simulated North Weir cabinet (DESIGN.md
+// scenario, invented) at 60× real time with the Modbus and HTTP servers on.
+func integrationConfig(t *testing.T, dir, modbusAddr, httpAddr string) string {
+	t.Helper()
+	cfg := fmt.Sprintf(`site: north-weir-dc2
+gateway: dc2-gw1
+nominal: {frequency_hz: 50, voltage_v: 230, current_a: 160}
+wiring: wye
+sample_rate_hz: 6400
+harmonics: all
+il_a: 160
+isc_a: 6100
+channels:
+  - {name: va, kind: voltage, phase: a}
+  - {name: vb, kind: voltage, phase: b}
+  - {name: vc, kind: voltage, phase: c}
+  - {name: ia, kind: current, phase: a}
+  - {name: ib, kind: current, phase: b}
+  - {name: ic, kind: current, phase: c}
+source: {kind: sim, speed: 60}
+store: {path: %s, commit_every: 1s}
+modbus: {listen: %q}
+http: {listen: %q}
+alarms:
+  - {name: tdd-ia, metric: tdd_h50_pct, channel: ia, level: 3s, above: 0.5, severity: warning}
+`, filepath.Join(dir, "gl.db"), modbusAddr, httpAddr)
+	return writeFile(t, dir, "gw.yaml", cfg)
+}
+
+// mapAddress reads the address of quantity at level from the CSV that
+// gridloupe modbus-map prints, as an integrator would.
+func mapAddress(t *testing.T, mapCSV []byte, quantity, level string) int {
+	t.Helper()
+	rows, err := csv.NewReader(bytes.NewReader(mapCSV)).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, r := range rows[1:] {
+		if r[1] == quantity && r[3] == level {
+			a, _ := strconv.Atoi(r[0])
+			return a
+		}
+	}
+	t.Fatalf("%s (%s) not in the map", quantity, level)
+	return 0
+}
+
+func TestModbusAgainstRunningGateway(t *testing.T) {
+	if testing.Short() && os.Getenv("CI") == "" {
+		t.Skip("starts the daemon; runs in CI and without -short")
+	}
+	mbpoll := needTool(t, "mbpoll")
+	dir := t.TempDir()
+	maddr := freePort(t)
+	cfgPath := integrationConfig(t, dir, maddr, freePort(t))
+	var mapCSV, errb bytes.Buffer
+	if err := run(context.Background(), []string{"modbus-map", "--config", cfgPath}, nil, &mapCSV, &errb); err != nil {
+		t.Fatalf("modbus-map: %v %s", err, errb.String())
+	}
+	p := startDaemon(t, "run", "--config", cfgPath)
+
+	c, err := mb.NewClient(&mb.ClientConfiguration{URL: "tcp://" + maddr, Timeout: time.Second})
+	if err != nil {
+		t.Fatal(err)
+	}
+	freqAddr := uint16(mapAddress(t, mapCSV.Bytes(), "freq_hz", "3s"))
+	var freq float32
+	deadline := time.Now().Add(20 * time.Second)
+	for {
+		if c.Open() == nil {
+			freq, err = c.ReadFloat32(freqAddr, mb.INPUT_REGISTER)
+			if err == nil && !math.IsNaN(float64(freq)) {
+				break
+			}
+			c.Close()
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("no 3 s frequency over Modbus within 20 s (last err %v); stderr:\n%s", err, p.stderr)
+		}
+		time.Sleep(100 * time.Millisecond)
+	}
+	defer c.Close()
+	// The simulator runs the DESIGN.md scenario: 50 Hz, 230 V phase to
+	// neutral. Sensible values lie within EN 50160's ±1 % frequency band
+	// and ±10 % voltage band (common practice for a healthy supply).
+	if freq < 49.5 || freq > 50.5 {
+		t.Errorf("freq_hz = %v, want 50 Hz ± 1 %%", freq)
+	}
+	read := func(q string) float64 {
+		v, err := c.ReadFloat32(uint16(mapAddress(t, mapCSV.Bytes(), q, "3s")), mb.INPUT_REGISTER)
+		if err != nil {
+			t.Fatalf("%s: %v", q, err)
+		}
+		return float64(v)
+	}
+	if v := read("vb.rms"); v < 207 || v > 253 {
+		t.Errorf("vb.rms = %v, want 230 V ± 10 %%", v)
+	}
+	if v := read("total.p_w"); v <= 0 {
+		t.Errorf("total.p_w = %v, want positive: the pumps draw power", v)
+	}
+	if v := read("age_s"); v < 0 || v > 10 {
+		t.Errorf("age_s = %v, want a few seconds at most while the gateway runs", v)
+	}
+
+	// The same register with Debian's mbpoll: 0-based reference, input
+	// register float, high word first (REFERENCE.md §8).
+	out, err := exec.Command(mbpoll, "-m", "tcp", "-p", maddr[strings.LastIndexByte(maddr, ':')+1:], "-a", "1",
+		"-t", "3:float", "-B", "-0", "-r", strconv.Itoa(int(freqAddr)), "-c", "1", "-1", "-o", "2", "127.0.0.1").CombinedOutput()
+	if err != nil {
+		t.Fatalf("mbpoll: %v\n%s", err, out)
+	}
+	var got float64
+	for _, line := range strings.Split(string(out), "\n") {
+		if f := strings.Fields(line); len(f) == 2 && strings.HasPrefix(f[0], "["+strconv.Itoa(int(freqAddr))+"]") {
+			got, err = strconv.ParseFloat(f[1], 64)
+		}
+	}
+	if err != nil || got < 49.5 || got > 50.5 {
+		t.Errorf("mbpoll read %v (%v), want 50 Hz ± 1 %%:\n%s", got, err, out)
+	}
+	if err := p.cmd.Process.Signal(syscall.SIGTERM); err != nil {
+		t.Fatal(err)
+	}
+	if code, _ := p.wait(t, 20*time.Second); code != 0 {
+		t.Errorf("exit %d after SIGTERM, want 0; stderr:\n%s", code, p.stderr)
+	}
+}
+
+// TestReadmeRegisterExcerpt checks that every row of the README's register
+// map excerpt is a row that modbus-map prints for the example config.
+func TestReadmeRegisterExcerpt(t *testing.T) {
+	readme, err := os.ReadFile("../../README.md")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var out, errb bytes.Buffer
+	if err := run(context.Background(), []string{"modbus-map", "--config", "../../testdata/north-weir-dc2.yaml"}, nil, &out, &errb); err != nil {
+		t.Fatalf("modbus-map: %v %s", err, errb.String())
+	}
+	rows := map[string]bool{}
+	for _, l := range strings.Split(out.String(), "\n") {
+		rows[l] = true
+	}
+	_, after, ok := strings.Cut(string(readme), "```\naddress,quantity,unit,level,type\n")
+	if !ok {
+		t.Fatal("README has no register map excerpt")
+	}
+	excerpt, _, _ := strings.Cut(after, "```")
+	for _, l := range strings.Split(strings.TrimSpace(excerpt), "\n") {
+		if !rows[l] {
+			t.Errorf("README excerpt row %q is not in modbus-map's output", l)
+		}
+	}
+}
+
+// headless runs Debian's chromium headless with a fresh profile and the
+// flags that keep it off the network, and returns its stdout.
+func headless(t *testing.T, args ...string) []byte {
+	t.Helper()
+	bin := needTool(t, "chromium")
+	base := []string{"--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+		"--disable-component-update", "--disable-sync", "--no-first-run", "--user-data-dir=" + t.TempDir(),
+		"--virtual-time-budget=5000"}
+	ctx, cancel := context.WithTimeout(context.Background(), 90*time.Second)
+	defer cancel()
+	cmd := exec.CommandContext(ctx, bin, append(base, args...)...)
+	var out, errb bytes.Buffer
+	cmd.Stdout, cmd.Stderr = &out, &errb
+	if err := cmd.Run(); err != nil {
+		t.Fatalf("chromium %v: %v\n%s", args, err, errb.String())
+	}
+	return out.Bytes()
+}
+
+// shotDir is where screenshot tests also leave their PNGs when
+// GRIDLOUPE_SHOTS names a folder (how the README's pictures are made).
+func shotDir(t *testing.T) string {
+	if d := os.Getenv("GRIDLOUPE_SHOTS"); d != "" {
+		return d
+	}
+	return t.TempDir()
+}
+
+func TestHTTPAgainstRunningGateway(t *testing.T) {
+	if testing.Short() && os.Getenv("CI") == "" {
+		t.Skip("starts the daemon and a browser; runs in CI and without -short")
+	}
+	needTool(t, "chromium")
+	dir := t.TempDir()
+	haddr := freePort(t)
+	cfgPath := integrationConfig(t, dir, freePort(t), haddr)
+	p := startDaemon(t, "run", "--config", cfgPath)
+	base := "http://" + haddr
+	var body []byte
+	deadline := time.Now().Add(30 * time.Second)
+	for {
+		resp, err := http.Get(base + "/metrics")
+		if err == nil {
+			body, _ = io.ReadAll(resp.Body)
+			resp.Body.Close()
+			if bytes.Contains(body, []byte("gridloupe_frequency_hertz{")) && bytes.Contains(body, []byte(`level="10min"`)) {
+				break
+			}
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("no 3 s and 10 min values on /metrics within 30 s; stderr:\n%s", p.stderr)
+		}
+		time.Sleep(200 * time.Millisecond)
+	}
+	tp := expfmt.NewTextParser(model.UTF8Validation)
+	fams, err := tp.TextToMetricFamilies(bytes.NewReader(body))
+	if err != nil {
+		t.Fatalf("/metrics is not valid Prometheus text: %v", err)
+	}
+	for _, name := range []string{"gridloupe_frequency_hertz", "gridloupe_rms_volts", "gridloupe_power_factor_ratio", "gridloupe_tdd_h50_ratio",
+		"gridloupe_alarm_active", "gridloupe_records_stored_total", "gridloupe_outbox_messages", "gridloupe_store_bytes"} {
+		if fams[name] == nil {
+			t.Errorf("/metrics lacks %s", name)
+		}
+	}
+	// The page, rendered in a real browser: it fetches /api/latest and
+	// draws the per-phase table (3 phases), six phasors and the bars of
+	// six spectra (49 orders each, fewer where a value is null).
+	dom := headless(t, "--window-size=1200,1400", "--dump-dom", base+"/")
+	m := regexp.MustCompile(`data-drawn="(\d+),(\d+),(\d+)"`).FindSubmatch(dom)
+	if m == nil {
+		t.Fatalf("the page drew nothing (no data-drawn attribute):\n%.2000s", dom)
+	}
+	if string(m[1]) != "3" || string(m[2]) != "6" {
+		t.Errorf("drew %s phases and %s phasors, want 3 and 6", m[1], m[2])
+	}
+	if bars, _ := strconv.Atoi(string(m[3])); bars < 6*40 {
+		t.Errorf("drew %d spectrum bars, want about 6 × 49", bars)
+	}
+	shots := shotDir(t)
+	png := filepath.Join(shots, "status-page.png")
+	headless(t, "--window-size=1200,1150", "--screenshot="+png, base+"/")
+	if fi, err := os.Stat(png); err != nil || fi.Size() < 20000 {
+		t.Errorf("screenshot %s: %v (size %d), want a drawn page", png, err, fi.Size())
+	}
+	if err := p.cmd.Process.Signal(syscall.SIGTERM); err != nil {
+		t.Fatal(err)
+	}
+	if code, _ := p.wait(t, 20*time.Second); code != 0 {
+		t.Errorf("exit %d after SIGTERM, want 0; stderr:\n%s", code, p.stderr)
+	}
+}

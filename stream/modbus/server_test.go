@@ -1,0 +1,291 @@
+package modbus
+
+import (
+	"bytes"
+	"context"
+	"encoding/csv"
+	"errors"
+	"math"
+	"strconv"
+	"testing"
+	"time"
+
+	mb "github.com/simonvetter/modbus"
+
+	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/stream/live"
+)
+
+// f32Rel is the relative rounding step of IEEE-754 binary32 (24-bit
+// significand: half an ulp is 2^-24 of the value; IEEE 754-2008 §3.6).
+const f32Rel = 1.0 / (1 << 23)
+
+func wyeSetup(t testing.TB) *metrics.Setup {
+	t.Helper()
+	orders := make([]int, 50)
+	for i := range orders {
+		orders[i] = i + 1
+	}
+	s, err := metrics.NewSetup(metrics.Setup{
+		Channels: []metrics.Channel{
+			{Name: "va", Kind: metrics.Voltage, Phase: 'a'}, {Name: "vb", Kind: metrics.Voltage, Phase: 'b'}, {Name: "vc", Kind: metrics.Voltage, Phase: 'c'},
+			{Name: "ia", Kind: metrics.Current, Phase: 'a'}, {Name: "ib", Kind: metrics.Current, Phase: 'b'}, {Name: "ic", Kind: metrics.Current, Phase: 'c'}},
+		Orders: orders, AllOrders: true, Wiring: metrics.Wye, NominalV: 230, ILA: 160})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return s
+}
+
+// northWeir is an invented 3 s record of the North Weir DC-2 cabinet
+// (DESIGN.md scenario) at awkward values.
+func northWeir(s *metrics.Setup) *metrics.Record {
+	r := metrics.NewRecord(s)
+	r.Interval, r.Start, r.DurationS = metrics.Int3s, time.Date(2026, 3, 1, 10, 0, 3, 0, time.UTC), 3
+	r.FreqHz = 50.02
+	r.Flags = metrics.FlagPartial
+	for i := range r.Channels {
+		r.Channels[i].RMS = 229.87 + float64(i)
+		r.Channels[i].THDPct = 2.085
+		r.Channels[i].THDH50Pct = 2.07
+		r.Channels[i].TDDPct = metrics.Null()
+		r.Channels[i].TDDH50Pct = 8.56
+	}
+	for i := range r.Phases {
+		r.Phases[i].P, r.Phases[i].Q1, r.Phases[i].S, r.Phases[i].PF, r.Phases[i].DPF = 10330, -2190, 11020, 0.937, 0.978
+	}
+	r.Total = metrics.TotalValues{P: 30990, Q1: 6570, S: 33060, Se: 33100, Ve: 230.05, Ie: 47.9, PF: 0.936, DPF: 0.978}
+	r.UnbV, r.UnbI = 0.39, 0.87
+	return r
+}
+
+type rig struct {
+	board *live.Board
+	m     *Map
+	addr  string
+	now   time.Time
+}
+
+func startServer(t *testing.T, lowFirst bool, alarms []string) *rig {
+	t.Helper()
+	s := wyeSetup(t)
+	rg := &rig{now: time.Date(2026, 3, 1, 10, 0, 10, 0, time.UTC)}
+	rg.board = live.New(s, func() time.Time { return rg.now }, nil)
+	m, err := NewMap(s, alarms, lowFirst)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rg.m = m
+	srv, err := New(Config{Addr: "127.0.0.1:0", UnitID: 7, LowFirst: lowFirst, Board: rg.board, Map: m})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := srv.Listen(); err != nil {
+		t.Fatal(err)
+	}
+	rg.addr = srv.Addr()
+	ctx, cancel := context.WithCancel(context.Background())
+	done := make(chan error, 1)
+	go func() { done <- srv.Run(ctx) }()
+	t.Cleanup(func() {
+		cancel()
+		if err := <-done; err != nil {
+			t.Error(err)
+		}
+	})
+	return rg
+}
+
+func client(t *testing.T, addr string, lowFirst bool, unit uint8) *mb.ModbusClient {
+	t.Helper()
+	c, err := mb.NewClient(&mb.ClientConfiguration{URL: "tcp://" + addr, Timeout: 2 * time.Second})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := c.Open(); err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { c.Close() })
+	wo := mb.HIGH_WORD_FIRST
+	if lowFirst {
+		wo = mb.LOW_WORD_FIRST
+	}
+	if err := c.SetEncoding(mb.BIG_ENDIAN, wo); err != nil {
+		t.Fatal(err)
+	}
+	if err := c.SetUnitId(unit); err != nil {
+		t.Fatal(err)
+	}
+	return c
+}
+
+// addressOf finds a quantity's address in the CSV the map prints, as an
+// integrator would.
+func addressOf(t *testing.T, m *Map, quantity, level string) uint16 {
+	t.Helper()
+	var buf bytes.Buffer
+	if err := m.WriteCSV(&buf); err != nil {
+		t.Fatal(err)
+	}
+	rows, err := csv.NewReader(&buf).ReadAll()
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, row := range rows[1:] {
+		if row[1] == quantity && row[3] == level {
+			a, err := strconv.Atoi(row[0])
+			if err != nil {
+				t.Fatal(err)
+			}
+			return uint16(a)
+		}
+	}
+	t.Fatalf("%s at %s not in the map", quantity, level)
+	return 0
+}
+
+func TestReadValues(t *testing.T) {
+	for _, lowFirst := range []bool{false, true} {
+		t.Run("low_first="+strconv.FormatBool(lowFirst), func(t *testing.T) {
+			rg := startServer(t, lowFirst, []string{"current-distortion", "pf-low"})
+			c := client(t, rg.addr, lowFirst, 7)
+			r := northWeir(rg.board.Setup())
+			rg.board.Put(r, []string{"pf-low"})
+			rg.now = rg.now.Add(2500 * time.Millisecond)
+			cases := []struct {
+				q    string
+				want float64
+				src  string
+			}{
+				{"freq_hz", 50.02, "the record put on the board (invented, DESIGN.md scenario)"},
+				{"total.pf", 0.936, "same record"},
+				{"total.q_var", 6570, "same record"},
+				{"phase.b.q_var", -2190, "same record: a leading (capacitive) phase is negative (DESIGN.md q_var sign)"},
+				{"phase.c.dpf", 0.978, "same record"},
+				{"vc.rms", 231.87, "same record: channel 2"},
+				{"ia.tdd_h50_pct", 8.56, "same record"},
+				{"unbalance.current_pct", 0.87, "same record"},
+				{"age_s", 2.5, "the board's clock moved 2.5 s after the record arrived"},
+			}
+			for _, tc := range cases {
+				got, err := c.ReadFloat32(addressOf(t, rg.m, tc.q, "3s"), mb.INPUT_REGISTER)
+				if err != nil {
+					t.Fatalf("%s: %v", tc.q, err)
+				}
+				if math.Abs(float64(got)-tc.want) > f32Rel*math.Abs(tc.want) {
+					t.Errorf("%s = %v, want %v within binary32 rounding (src: %s)", tc.q, got, tc.want, tc.src)
+				}
+			}
+			// A null value reads as NaN; the 10 min block before its first record too.
+			if v, err := c.ReadFloat32(addressOf(t, rg.m, "ia.tdd_pct", "3s"), mb.INPUT_REGISTER); err != nil || !math.IsNaN(float64(v)) {
+				t.Errorf("null ia.tdd_pct = %v, %v; want NaN (src: README BMS integration: null is NaN)", v, err)
+			}
+			if v, err := c.ReadFloat32(addressOf(t, rg.m, "freq_hz", "10min"), mb.INPUT_REGISTER); err != nil || !math.IsNaN(float64(v)) {
+				t.Errorf("10 min freq before any record = %v, %v; want NaN", v, err)
+			}
+			regs, err := c.ReadRegisters(0, 6, mb.INPUT_REGISTER)
+			if err == nil {
+				t.Errorf("read 0..5 across the unmapped register 3 = %v, want illegal data address", regs)
+			}
+			hdr, err := c.ReadRegisters(0, 3, mb.INPUT_REGISTER)
+			if err != nil {
+				t.Fatal(err)
+			}
+			wo := uint16(0)
+			if lowFirst {
+				wo = 1
+			}
+			if hdr[0] != LayoutVersion || hdr[1] != wo || hdr[2] != 1 {
+				t.Errorf("header = %v, want [%d %d 1] (layout version, word order, one active alarm)", hdr, LayoutVersion, wo)
+			}
+			if v, err := c.ReadFloat32(4, mb.INPUT_REGISTER); err != nil || v != 1234.5 {
+				t.Errorf("word-order check = %v, %v; want 1234.5 exactly (binary32 holds it exactly: 2469/2)", v, err)
+			}
+			bits, err := c.ReadRegisters(addressOf(t, rg.m, "alarm.current-distortion", ""), 2, mb.INPUT_REGISTER)
+			if err != nil || bits[0] != 0 || bits[1] != 1 {
+				t.Errorf("alarm registers = %v, %v; want [0 1] (pf-low raised)", bits, err)
+			}
+			flags, err := c.ReadRegister(addressOf(t, rg.m, "flags", "3s"), mb.INPUT_REGISTER)
+			if err != nil || metrics.Flags(flags) != metrics.FlagPartial {
+				t.Errorf("flags = %#x, %v; want the partial bit %#x", flags, err, metrics.FlagPartial)
+			}
+		})
+	}
+}
+
+func TestExceptions(t *testing.T) {
+	rg := startServer(t, false, nil)
+	c := client(t, rg.addr, false, 7)
+	freq := addressOf(t, rg.m, "freq_hz", "3s")
+	cases := []struct {
+		name string
+		call func() error
+		want error
+		src  string
+	}{
+		{"holding registers", func() error { _, err := c.ReadRegisters(freq, 2, mb.HOLDING_REGISTER); return err }, mb.ErrIllegalFunction,
+			"Modbus application protocol: exception 01 for an unsupported function (REFERENCE.md §8)"},
+		{"write", func() error { return c.WriteRegister(freq, 1) }, mb.ErrIllegalFunction, "same: the map is read-only"},
+		{"coils", func() error { _, err := c.ReadCoils(0, 1); return err }, mb.ErrIllegalFunction, "same"},
+		{"discrete inputs", func() error { _, err := c.ReadDiscreteInputs(0, 1); return err }, mb.ErrIllegalFunction, "same"},
+		{"unmapped", func() error { _, err := c.ReadRegisters(3, 1, mb.INPUT_REGISTER); return err }, mb.ErrIllegalDataAddress,
+			"exception 02 for an address outside the map (REFERENCE.md §8)"},
+		{"second half of a float", func() error { _, err := c.ReadRegisters(freq+1, 2, mb.INPUT_REGISTER); return err }, mb.ErrIllegalDataAddress,
+			"the map's rule: a read never splits a float32"},
+		{"first half of a float", func() error { _, err := c.ReadRegisters(freq, 1, mb.INPUT_REGISTER); return err }, mb.ErrIllegalDataAddress, "same"},
+		{"top of the address space", func() error { _, err := c.ReadRegisters(65534, 2, mb.INPUT_REGISTER); return err }, mb.ErrIllegalDataAddress, "same as unmapped"},
+	}
+	for _, tc := range cases {
+		if err := tc.call(); !errors.Is(err, tc.want) {
+			t.Errorf("%s: err = %v, want %v (src: %s)", tc.name, err, tc.want, tc.src)
+		}
+	}
+	other := client(t, rg.addr, false, 9)
+	if _, err := other.ReadRegisters(0, 1, mb.INPUT_REGISTER); !errors.Is(err, mb.ErrGWTargetFailedToRespond) {
+		t.Errorf("unit 9: err = %v, want gateway target failed to respond (exception 0B; common practice, no source)", err)
+	}
+	any := client(t, rg.addr, false, 255)
+	if v, err := any.ReadRegister(0, mb.INPUT_REGISTER); err != nil || v != LayoutVersion {
+		t.Errorf("unit 255: %v, %v; want the layout version (255 and 0 address any unit over TCP; common practice, no source)", v, err)
+	}
+}
+
+func TestMapCSV(t *testing.T) {
+	m, err := NewMap(wyeSetup(t), []string{"pf,low"}, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if err := m.WriteCSV(&buf); err != nil {
+		t.Fatal(err)
+	}
+	rows, err := csv.NewReader(&buf).ReadAll()
+	if err != nil {
+		t.Fatalf("not RFC 4180 CSV: %v", err)
+	}
+	if h := rows[0]; len(h) != 5 || h[0] != "address" || h[1] != "quantity" || h[2] != "unit" || h[3] != "level" || h[4] != "type" {
+		t.Fatalf("header %v, want address,quantity,unit,level,type (src: DESIGN.md Building and plant integration)", h)
+	}
+	want := map[string]bool{"freq_hz": true, "total.pf": true, "phase.a.dpf": true, "va.rms": true, "ia.tdd_h50_pct": true, "pf,low": false}
+	next := -1
+	for _, row := range rows[1:] {
+		a, _ := strconv.Atoi(row[0])
+		if a < next {
+			t.Fatalf("address %d overlaps the value before it", a)
+		}
+		n := 1
+		if row[4] == "float32" {
+			n = 2
+		}
+		next = a + n
+		if row[3] == "3s" {
+			delete(want, row[1])
+		}
+		if row[1] == "alarm.pf,low" {
+			delete(want, "pf,low")
+		}
+	}
+	if len(want) != 0 {
+		t.Errorf("missing from the map: %v (src: DESIGN.md key paths)", want)
+	}
+}

@@ -1,0 +1,9 @@
+// Package web is the gateway's HTTP listener: Prometheus text exposition
+// on /metrics, the latest values as JSON on /api/latest, and a live status
+// page on / (figures per phase, a phasor diagram, each channel's harmonic
+// spectrum against the IEEE 519 limits, active alarms, recent events),
+// built from one embedded HTML file with no external assets.
+//
+// Only this package imports the Prometheus client. It reads a live.Board
+// and holds no electrical rules beyond looking up the limit tables.
+package web
