@@ -151,6 +151,7 @@ type Detector struct {
 	dropped int
 
 	lastB   uint64 // index at the latest half-cycle edge
+	prevB   uint64 // and at the one before
 	lastEnd uint64 // latest End of a closed event, for Overlaps
 	hasEnd  bool
 }
@@ -319,7 +320,7 @@ func (d *Detector) capture(buf [][]float64, off, n int) {
 // 204 or 205 whole samples of a 204.7-sample cycle, which would move a
 // steady Urms(1/2) by up to ~0.1 %.
 func (d *Detector) boundary() {
-	d.lastB = d.idx
+	d.prevB, d.lastB = d.lastB, d.idx
 	stamp := d.idx - uint64(d.curN)
 	frac := 0.0
 	if d.edgeR > 0 {
@@ -333,7 +334,7 @@ func (d *Detector) boundary() {
 		for i := range d.u {
 			d.u[i] = math.Sqrt(max(d.prev[i]+d.cur[i], 0) / n)
 		}
-		d.evaluate(stamp)
+		d.evaluate(stamp, stamp-uint64(d.prevN))
 	}
 	d.prev, d.cur = d.cur, d.prev
 	d.prevN, d.curN, d.prevL = d.curN, 0, d.curL
@@ -344,22 +345,43 @@ func (d *Detector) boundary() {
 	d.advanceEdge()
 }
 
-// evaluate applies the start and end rules to the latest values; stamp is
-// the first sample of the half cycle that just arrived.
-func (d *Detector) evaluate(stamp uint64) {
+// evaluate applies the start and end rules to the latest values. stamp is
+// the first sample of the half cycle that just arrived, early that of the
+// one before it.
+//
+// Detection uses Urms(1/2), the one-cycle value. The time stamp uses the
+// two half cycles inside that cycle: when the earlier half on its own is
+// already past the threshold (its mean square, exact for a half cycle of a
+// sine), the change happened in or before it and the event is stamped at
+// its start; otherwise at the start of the later half. For a step change
+// this places start and end within half a cycle of the step, where the
+// start of the later half alone could be off by up to one cycle for a
+// shallow dip. The same rule stamps the end.
+func (d *Detector) evaluate(stamp, early uint64) {
+	pl := d.prevL
+	if pl <= 0 {
+		pl = 1
+	}
+	dipSq, endSq := d.dipThr*d.dipThr, d.dipEnd*d.dipEnd
 	// dips and interruptions
 	dm := &d.m[0]
 	anyBelow, allBelowInt, allBack := false, true, true
-	for _, v := range d.u {
-		anyBelow = anyBelow || v < d.dipThr
+	earlyStart, earlyEnd := false, true
+	for i, v := range d.u {
+		ms := d.prev[i] / pl
+		if v < d.dipThr {
+			anyBelow = true
+			earlyStart = earlyStart || ms < dipSq
+		}
 		allBelowInt = allBelowInt && v < d.intThr
 		allBack = allBack && v >= d.dipEnd // NaN is not back
+		earlyEnd = earlyEnd && ms >= endSq
 	}
 	if !dm.active && anyBelow {
-		d.open(dm, Dip, stamp)
+		d.open(dm, Dip, pick(earlyStart, early, stamp))
 	} else if dm.active {
 		if allBack {
-			d.close(dm, stamp, false)
+			d.close(dm, max(pick(earlyEnd, early, stamp), dm.ev.Start), false)
 		}
 	}
 	if dm.active {
@@ -379,16 +401,23 @@ func (d *Detector) evaluate(stamp uint64) {
 		}
 	}
 	// swells
+	swSq, downSq := d.swellThr*d.swellThr, d.swellEnd*d.swellEnd
 	sm := &d.m[1]
 	anyAbove, allDown := false, true
-	for _, v := range d.u {
-		anyAbove = anyAbove || v > d.swellThr
+	earlyStart, earlyEnd = false, true
+	for i, v := range d.u {
+		ms := d.prev[i] / pl
+		if v > d.swellThr {
+			anyAbove = true
+			earlyStart = earlyStart || ms > swSq
+		}
 		allDown = allDown && v <= d.swellEnd
+		earlyEnd = earlyEnd && ms <= downSq
 	}
 	if !sm.active && anyAbove {
-		d.open(sm, Swell, stamp)
+		d.open(sm, Swell, pick(earlyStart, early, stamp))
 	} else if sm.active && allDown {
-		d.close(sm, stamp, false)
+		d.close(sm, max(pick(earlyEnd, early, stamp), sm.ev.Start), false)
 	}
 	if sm.active {
 		for i, v := range d.u {
@@ -400,6 +429,13 @@ func (d *Detector) evaluate(stamp uint64) {
 			}
 		}
 	}
+}
+
+func pick(c bool, a, b uint64) uint64 {
+	if c {
+		return a
+	}
+	return b
 }
 
 func (d *Detector) open(mc *machine, k Kind, stamp uint64) {
@@ -501,9 +537,11 @@ func (d *Detector) Close() {
 	d.captures()
 }
 
-// Settled reports whether every event starting before sample idx is known:
-// a half-cycle edge at or after idx has been evaluated.
-func (d *Detector) Settled(idx uint64) bool { return d.lastB >= idx }
+// Settled reports whether every event starting before sample idx is known.
+// An evaluation stamps no earlier than the start of the half cycle before
+// the one that just arrived, so once that start is at or after idx, no
+// later evaluation can stamp before idx.
+func (d *Detector) Settled(idx uint64) bool { return d.prevB >= idx }
 
 // Skip advances over k missing samples (a gap in the input; k ≤ MaxBlock):
 // the capture ring holds NaN for them, and Urms(1/2) restarts on a fresh
@@ -527,7 +565,7 @@ func (d *Detector) Skip(k int) {
 	}
 	d.curN, d.prevN, d.halves = 0, 0, 0
 	d.edgeI, d.edgeR = d.idx, 0
-	d.lastB = d.idx
+	d.prevB, d.lastB = d.idx, d.idx
 	d.advanceEdge()
 	d.captures()
 }
