@@ -111,6 +111,7 @@ type MQTT struct {
 	TopicPrefix  string         // one or more topic levels separated by '/'; default "gridloupe"
 	Telemetry    []string       // interval labels published; default ["10min"]; from 3s, 10min, 2h
 	TelemetryQoS map[string]int // MQTT QoS per interval label, 0..2; default 1 for every level
+	Summary      []string       // interval labels whose slim summary is published retained on …/summary/<interval>; default ["10min"]
 	Base         string         // added: "<prefix>/<site level>/<gateway level>", sanitized; topics are Base+"/status" and so on
 }
 

@@ -29,7 +29,7 @@ var sections = map[string][]string{
 	"store":           {"path", "commit_every", "max_size_mb", "retention", "on_damage"},
 	"store.retention": {"3s", "10min", "2h"},
 	"mqtt": {"broker", "listen", "client_id", "username", "password_file", "password_env", "tls",
-		"topic_prefix", "telemetry", "telemetry_qos"},
+		"topic_prefix", "telemetry", "telemetry_qos", "summary"},
 	"mqtt.tls":           {"ca", "cert", "key"},
 	"mqtt.telemetry_qos": {"3s", "10min", "2h"},
 	"modbus":             {"listen", "unit_id", "word_order"},
@@ -610,20 +610,28 @@ func (d *decoder) mqtt(n *yaml.Node, path string, m *MQTT) *Error {
 				return nil
 			})
 		case "telemetry":
-			m.Telemetry = []string{}
-			return d.sequence(v, p, "interval labels (3s, 10min, 2h), such as [10min]", len(telemetryLevels), func(_ int, v *yaml.Node, ip string) *Error {
-				var l string
-				if e := d.enum(v, ip, &l, telemetryLevels...); e != nil {
-					return e
-				}
-				if slices.Contains(m.Telemetry, l) {
-					return d.errf(v, ip, "%s is listed twice", l)
-				}
-				m.Telemetry = append(m.Telemetry, l)
-				return nil
-			})
+			return d.levels(v, p, &m.Telemetry)
+		case "summary":
+			return d.levels(v, p, &m.Summary)
 		}
 		return d.errf(v, p, "internal: key has no decoder")
+	})
+}
+
+// levels decodes a list of published interval labels (mqtt.telemetry,
+// mqtt.summary) into *dst.
+func (d *decoder) levels(v *yaml.Node, p string, dst *[]string) *Error {
+	*dst = []string{}
+	return d.sequence(v, p, "interval labels (3s, 10min, 2h), such as [10min]", len(telemetryLevels), func(_ int, v *yaml.Node, ip string) *Error {
+		var l string
+		if e := d.enum(v, ip, &l, telemetryLevels...); e != nil {
+			return e
+		}
+		if slices.Contains(*dst, l) {
+			return d.errf(v, ip, "%s is listed twice", l)
+		}
+		*dst = append(*dst, l)
+		return nil
 	})
 }
 

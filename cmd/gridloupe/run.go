@@ -309,6 +309,12 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			tele = append(tele, iv)
 		}
 	}
+	var summ []metrics.Interval
+	for _, l := range cfg.MQTT.Summary {
+		if iv, ok := metrics.ParseInterval(l); ok {
+			summ = append(summ, iv)
+		}
+	}
 	teleQoS := map[metrics.Interval]byte{}
 	for l, q := range cfg.MQTT.TelemetryQoS {
 		if iv, ok := metrics.ParseInterval(l); ok {
@@ -348,7 +354,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	}
 	defer integ.Close()
 	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError,
-		Store: db, Alarms: ev, Telemetry: tele, TelemetryQoS: teleQoS, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
+		Store: db, Alarms: ev, Telemetry: tele, TelemetryQoS: teleQoS, Summary: summ, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
 		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("component", "gateway"),
 		OnRecord: integ.onRecord(onRecord), OnTransition: o.onTransition, OnStoreError: onStoreErr, Notice: storeNotice})
 	if err != nil {

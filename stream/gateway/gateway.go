@@ -33,6 +33,7 @@ type Config struct {
 	Alarms    *alarm.Evaluator // nil = no alarm rules
 	Channels  []string         // channel names, for alarm payloads; nil = from the setup
 	Telemetry []metrics.Interval
+	Summary   []metrics.Interval // levels whose slim summary is published, retained (stream/summary)
 	// TelemetryQoS is the MQTT QoS per telemetry level; a level absent
 	// here is published at QoS 1 (deleted from the outbox on PUBACK).
 	TelemetryQoS map[metrics.Interval]byte
@@ -126,6 +127,7 @@ type Gateway struct {
 	lastErr  string
 	alarmQ   []pendingAlarm // transitions whose commit failed, retried in order
 	telem    [5]bool
+	summ     [5]bool
 	persistS map[string]alarm.State
 }
 
@@ -156,6 +158,11 @@ func New(cfg Config) (*Gateway, error) {
 	for _, iv := range cfg.Telemetry {
 		if int(iv) < len(g.telem) {
 			g.telem[iv] = true
+		}
+	}
+	for _, iv := range cfg.Summary {
+		if int(iv) < len(g.summ) {
+			g.summ[iv] = true
 		}
 	}
 	g.done2h = -1 << 62
@@ -280,6 +287,9 @@ func (g *Gateway) handle(r *metrics.Record) {
 		g.msgs = append(g.msgs, store.Message{Class: store.ClassTelemetry, QoS: g.telemetryQoS(r.Interval),
 			Topic:   topic.Telemetry(g.cfg.Base, r.Interval.String()),
 			Payload: telemetryPayload(nil, g.cfg.Site, g.cfg.Gateway, g.setup, r)})
+	}
+	if g.cfg.Base != "" && int(r.Interval) < len(g.summ) && g.summ[r.Interval] {
+		g.msgs = append(g.msgs, summaryMessage(g.cfg.Base, g.cfg.Site, g.cfg.Gateway, g.setup, r))
 	}
 	if g.cfg.OnRecord != nil {
 		var active []string
