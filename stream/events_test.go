@@ -28,16 +28,6 @@ func (s *eventSink) Event(e *VoltageEvent) error {
 	return nil
 }
 
-// rect returns a gain of v inside [t0, t1) and 1 elsewhere.
-func rect(t0, t1, v float64) func(float64) float64 {
-	return func(t float64) float64 {
-		if t >= t0 && t < t1 {
-			return v
-		}
-		return 1
-	}
-}
-
 // TestPipelineEvents runs dips, a swell and an interruption through the
 // whole pipeline: the real tracker (which loses lock in the interruption),
 // event records in wall time, and the event flag on exactly the windows,

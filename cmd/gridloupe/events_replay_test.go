@@ -108,13 +108,11 @@ func TestReplayEvents(t *testing.T) {
 		ExtremePct float64  `json:"extreme_pct"`
 		Samples    int      `json:"waveform_samples"`
 	}
-	var evs []evJSON
 	for i, l := range lines {
 		var e evJSON
 		if err := json.Unmarshal([]byte(l), &e); err != nil {
 			t.Fatalf("line %d: %v: %s", i+1, err, l)
 		}
-		evs = append(evs, e)
 		w := wants[i]
 		st, err := time.Parse(time.RFC3339Nano, e.Start)
 		if err != nil {
