@@ -492,12 +492,11 @@ func writeHeapProfile(log *slog.Logger) {
 // retentionBytes estimates the store size the retention periods need:
 // records per level × the encoded record size.
 func retentionBytes(s *metrics.Setup, ret map[metrics.Interval]time.Duration) int64 {
-	per := int64(store.RecordBytes(s))
 	var n int64
 	for iv, d := range map[metrics.Interval]time.Duration{metrics.Int3s: 3 * time.Second,
 		metrics.Int10min: 10 * time.Minute, metrics.Int2h: 2 * time.Hour} {
 		if r := ret[iv]; r > 0 {
-			n += int64(r/d) * per
+			n += int64(r/d) * int64(store.RecordBytesAt(s, iv)) // the 3 s level is stored slim
 		}
 	}
 	return n
