@@ -181,10 +181,7 @@ func ieeeReference(cfg *config.Config) *encode.Reference {
 	if !(cfg.Nominal.VoltageV > 0) {
 		return nil
 	}
-	bus := cfg.Nominal.VoltageV
-	if cfg.Wiring != config.WiringSinglePhase {
-		bus *= math.Sqrt(3) // wye: the row goes by the line-to-line bus voltage
-	}
+	bus := cfg.BusVoltageV()
 	_, vthd := limits.VoltageLimits(bus)
 	ref := &encode.Reference{Edition: limits.Edition, BusV: bus, VTHDPct: vthd}
 	if cfg.ILA > 0 {
