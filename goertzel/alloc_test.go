@@ -60,6 +60,7 @@ func TestLeakageAllocs(t *testing.T) {
 	b.Reset(w)
 	b.Write(x)
 	b.Phasors(raw)
+	l.Reset(w, len(x)) // the map below runs in random order: Fundamental needs n set first
 	var sink float64
 	// src: STYLE.md §5, zero allocations on per-window paths.
 	for name, f := range map[string]func(){
