@@ -26,7 +26,7 @@ var sections = map[string][]string{
 	"nominal":         {"frequency_hz", "voltage_v", "current_a"},
 	"channels[]":      {"name", "kind", "phase", "scale", "offset", "full_scale", "delay_us"},
 	"circuits[]":      {"name", "currents", "il_a"},
-	"source":          {"kind", "speed", "path"},
+	"source":          {"kind", "speed", "path", "connect", "format", "framing"},
 	"store":           {"path", "commit_every", "max_size_mb", "retention", "on_damage"},
 	"store.retention": {"3s", "10min", "2h"},
 	"mqtt": {"broker", "listen", "client_id", "username", "password_file", "password_env", "tls",
@@ -533,11 +533,17 @@ func (d *decoder) source(n *yaml.Node, path string, s *Source) *Error {
 	return d.mapping(n, path, "source", func(k string, v *yaml.Node, p string) *Error {
 		switch k {
 		case "kind":
-			return d.enum(v, p, &s.Kind, SourceSim, SourceCSV, SourceWAV)
+			return d.enum(v, p, &s.Kind, SourceKinds()...)
 		case "speed":
 			return d.float(v, p, &s.Speed)
 		case "path":
 			return d.str(v, p, &s.Path)
+		case "connect":
+			return d.str(v, p, &s.Connect)
+		case "format":
+			return d.enum(v, p, &s.Format, PCMFormats()...)
+		case "framing":
+			return d.enum(v, p, &s.Framing, FramingRaw, FramingGLF1)
 		}
 		return d.errf(v, p, "internal: key has no decoder")
 	})

@@ -39,7 +39,7 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 #     scale: 1.0           # engineering value = raw x scale + offset; never 0
 #     offset: 0.0
 #     full_scale: 0        # engineering units, enables the clipped flag; 0 = none
-#     delay_us: 0          # sampling skew or sensor lag to correct, microseconds (less than one cycle)
+#     delay_us: 0          # time the channel's sample lags the frame instant, microseconds (+ = sampled late; a sensor lagging by 40 µs is -40)
 # single-phase: one voltage on phase a, currents on a (and n).
 # wye: voltages on a, b, c; each phase with a current needs its voltage.
 # delta: line-to-line voltages; currents on two phases (the two-wattmeter hook-up:
@@ -51,9 +51,13 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 #     il_a: 480            # this circuit's IL for TDD and pct_il; 0 = the top-level il_a
 
 # source:                  # daemon input; default: none (replay names its input on the command line)
-#   kind: sim              # required in a source: sim | csv | wav
+#   kind: sim              # required in a source: sim | csv | wav | pcm
 #   speed: 1               # sim only: 1 = real time, 60 = a minute per second, 0 = as fast as possible
-#   path: rec.csv          # csv and wav only, required: the recording
+#   path: rec.csv          # csv, wav: the recording (required); pcm: a file, a FIFO or "-" for standard input
+#   connect: ""            # pcm only, instead of path: host:port of a TCP sender, redialled with backoff
+#   format: s16le          # pcm only, required: s16le | s24le | s32le | f32le, interleaved in channel order
+#   framing: raw           # pcm only: raw (bare samples) | glf1 (frames with index and CRC, see README)
+#                          # pcm needs sample_rate_hz: a raw stream carries none
 
 store:
   path: ""                 # bbolt file; "" = not configured
