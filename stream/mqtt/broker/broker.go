@@ -22,10 +22,10 @@ const DefaultAddr = "127.0.0.1:1883"
 
 // Config configures Start.
 type Config struct {
-	Addr     string       // host:port; "" = 127.0.0.1:1883; port 0 picks a free port
-	Username string       // with Password: the login of every client but the gateway; "" = other clients anonymous and read-only (loopback only)
-	Password string       // never logged
-	TLS      *tls.Config  // server TLS with a certificate; nil = plain TCP (loopback only)
+	Addr     string      // host:port; "" = 127.0.0.1:1883; port 0 picks a free port
+	Username string      // with Password: the login of every client but the gateway; "" = other clients anonymous and read-only (loopback only)
+	Password string      // never logged
+	TLS      *tls.Config // server TLS with a certificate; nil = plain TCP (loopback only)
 	// Prefix is the topic base only the gateway may publish under (and
 	// below); other clients may subscribe to anything and, when logged in,
 	// publish elsewhere. "" = only the gateway publishes at all.
