@@ -21,10 +21,11 @@ import (
 // sets every key and against Defaults.
 var sections = map[string][]string{
 	"": {"site", "gateway", "nominal", "wiring", "sample_rate_hz", "reference", "harmonics",
-		"il_a", "isc_a", "lock_min_pct", "channels", "source", "store", "mqtt", "alarms",
-		"modbus", "http", "demand"},
+		"il_a", "isc_a", "lock_min_pct", "channels", "circuits", "source", "store", "mqtt", "alarms",
+		"modbus", "http", "demand", "events"},
 	"nominal":         {"frequency_hz", "voltage_v", "current_a"},
 	"channels[]":      {"name", "kind", "phase", "scale", "offset", "full_scale", "delay_us"},
+	"circuits[]":      {"name", "currents", "il_a"},
 	"source":          {"kind", "speed", "path", "connect", "format", "framing"},
 	"store":           {"path", "commit_every", "max_size_mb", "retention", "on_damage"},
 	"store.retention": {"3s", "10min", "2h"},
@@ -35,8 +36,9 @@ var sections = map[string][]string{
 	"modbus":             {"listen", "unit_id", "word_order"},
 	"http":               {"listen"},
 	"demand":             {"interval", "method"},
+	"events":             {"dip_pct", "swell_pct", "interruption_pct", "hysteresis_pct", "pre_cycles", "post_cycles", "max_capture_s"},
 	"alarms[]": {"name", "metric", "channel", "phase", "level", "above", "below", "deadband",
-		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic"},
+		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic", "circuit"},
 }
 
 // Bounds on list lengths keep a hostile file from costing much.
@@ -411,12 +413,16 @@ func (d *decoder) decode(c *Config) *Error {
 			return d.store(v, p, &c.Store)
 		case "mqtt":
 			return d.mqtt(v, p, &c.MQTT)
+		case "events":
+			return d.events(v, p, &c.Events)
 		case "modbus":
 			return d.modbus(v, p, &c.Modbus)
 		case "http":
 			return d.http(v, p, &c.HTTP)
 		case "demand":
 			return d.demand(v, p, &c.Demand)
+		case "circuits":
+			return d.circuits(v, p, &c.Circuits)
 		case "alarms":
 			return d.sequence(v, p, "alarm rules", maxAlarms, func(_ int, v *yaml.Node, ip string) *Error {
 				a := Alarm{Line: v.Line}
@@ -643,6 +649,8 @@ func (d *decoder) alarm(n *yaml.Node, path string, a *Alarm) *Error {
 		switch k {
 		case "name":
 			return d.str(v, p, &a.Name)
+		case "circuit":
+			return d.str(v, p, &a.Circuit)
 		case "metric":
 			return d.enum(v, p, &a.Metric, metricNames...)
 		case "channel":

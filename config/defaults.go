@@ -45,6 +45,11 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 # delta: line-to-line voltages; currents on two phases (the two-wattmeter hook-up:
 #   ab and cb with CTs on a and c, the third current computed) or on all three; no n.
 
+# circuits:                # several circuits on one bus; default: none (the currents form one circuit)
+#   - name: incomer        # required, unique; records carry circuits.<name>.phases and .total
+#     currents: [ia, ib, ic]  # required: its current channels; with circuits every current is in one
+#     il_a: 480            # this circuit's IL for TDD and pct_il; 0 = the top-level il_a
+
 # source:                  # daemon input; default: none (replay names its input on the command line)
 #   kind: sim              # required in a source: sim | csv | wav | pcm
 #   speed: 1               # sim only: 1 = real time, 60 = a minute per second, 0 = as fast as possible
@@ -57,7 +62,7 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 store:
   path: ""                 # bbolt file; "" = not configured
   commit_every: 60s        # aggregates are batched; alarm transitions commit at once; more than 0
-  max_size_mb: 512         # hard cap in MiB, 1..2047 (the whole file is memory-mapped)
+  max_size_mb: 1024        # hard cap in MiB, 1..2047 (the whole file is memory-mapped); 1024 holds the default retention with all orders on 8 channels
   on_damage: set_aside     # a damaged file at start: set_aside (rename it, start fresh, keep measuring) | fail
   retention:               # how long each level is kept; more than 0
     3s: 168h
@@ -80,6 +85,15 @@ mqtt:
   telemetry_qos: {3s: 1, 10min: 1, 2h: 1}  # MQTT QoS per level, 0..2; 1 = kept until the broker acknowledges
   summary: [10min]         # levels whose slim summary (< 1 KB, for a BMS) is published retained, QoS 1; [] = none
 
+events:                    # voltage dips, swells and interruptions (IEC 61000-4-30 style, on Urms(1/2))
+  dip_pct: 90              # % of nominal.voltage_v: an event opens when a voltage falls below this
+  swell_pct: 110           # or rises above this; swell_pct - hysteresis_pct must stay above 100
+  interruption_pct: 5      # every voltage below this: the event is an interruption; more than 0, less than dip_pct
+  hysteresis_pct: 2        # a dip ends at dip_pct + this, a swell at swell_pct - this; 0 to less than 10
+  pre_cycles: 10           # waveform captured before the start, nominal cycles, 0..600
+  post_cycles: 20          # and after the end, 0..600
+  max_capture_s: 4         # a capture is cut at this length, seconds; more than 0, at most 60
+
 alarms: []
 # alarms:                          # alarm rules; raised and cleared over MQTT with hysteresis
 #   - name: current-distortion     # required, unique
@@ -88,6 +102,7 @@ alarms: []
 #                                  # (h50: needs harmonics: all; tdd and pct_il: need il_a)
 #     channel: ia                  # per-channel metrics: a configured channel
 #     phase: total                 # pf and dpf: a | b | c | total (default total)
+#     circuit: drive1              # pf and dpf with circuits: required, the circuit watched
 #     harmonic: 5                  # pct and pct_il only: the order, 2..50, among those computed
 #     level: 10min                 # 200ms | 3s | 10min | 2h (default 10min)
 #     above: 8.0                   # exactly one of above or below, in the metric's units

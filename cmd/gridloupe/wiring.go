@@ -47,6 +47,13 @@ func setupFromConfig(cfg *config.Config) (*metrics.Setup, []stream.Cal, error) {
 			s.Reference = i
 		}
 	}
+	for _, c := range cfg.Circuits {
+		mc := metrics.Circuit{Name: c.Name, ILA: c.ILA}
+		for _, n := range c.Currents {
+			mc.Currents = append(mc.Currents, cfg.ChannelIndex(n))
+		}
+		s.Circuits = append(s.Circuits, mc)
+	}
 	if s.Reference < 0 {
 		for i, ch := range s.Channels {
 			if ch.Kind == metrics.Voltage {
@@ -70,6 +77,7 @@ func pipelineConfig(cfg *config.Config, setup *metrics.Setup, cal []stream.Cal, 
 		SampleRate: fs,
 		NominalHz:  cfg.Nominal.FrequencyHz,
 		LockMinRMS: cfg.LockMinPct / 100 * cfg.Nominal.VoltageV,
+		Events:     eventsConfig(cfg),
 	}
 }
 
