@@ -231,7 +231,7 @@ func (p *Pipeline) startWindow() {
 	for c := range p.nch {
 		p.banks[c].Reset(w)
 		ch := &p.in.Ch[c]
-		ch.N, ch.Sum, ch.SumSq, ch.Clipped, ch.Bad = 0, 0, 0, false, false
+		ch.N, ch.Sum, ch.SumSq, ch.Peak, ch.Clipped, ch.Bad = 0, 0, 0, 0, false, false
 	}
 	p.half.Reset(w)
 	for i := range p.in.SumVI {
@@ -317,17 +317,18 @@ func (p *Pipeline) segment(off, k int) {
 		seg := p.buf[c][off : off+k]
 		p.banks[c].Write(seg)
 		ch := &p.in.Ch[c]
-		s, ss := ch.Sum, ch.SumSq
+		s, ss, pk := ch.Sum, ch.SumSq, ch.Peak
 		lim := p.fsc[c]
 		clip := false
 		for _, x := range seg {
 			s += x
 			ss += x * x
+			pk = max(pk, math.Abs(x))
 			if x >= lim || -x >= lim {
 				clip = true
 			}
 		}
-		ch.Sum, ch.SumSq, ch.N = s, ss, ch.N+k
+		ch.Sum, ch.SumSq, ch.Peak, ch.N = s, ss, pk, ch.N+k
 		if clip {
 			ch.Clipped = true
 		}
