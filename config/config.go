@@ -77,11 +77,20 @@ type Channel struct {
 
 // Source is the daemon's input.
 type Source struct {
-	Kind  string  // "" (none), SourceSim, SourceCSV or SourceWAV
-	Speed float64 // sim only: 1 = real time, 60 = one minute per second, 0 = as fast as possible; default 1 (0 for other kinds)
-	Path  string  // csv and wav only: the recording (resolved against the config's folder)
-	Line  int     // line of the source key; 0 when absent
+	Kind    string  // "" (none), or one of SourceKinds()
+	Speed   float64 // sim only: 1 = real time, 60 = one minute per second, 0 = as fast as possible; default 1 (0 for other kinds)
+	Path    string  // csv, wav, pcm: the recording, FIFO or device (resolved against the config's folder); pcm: "-" = standard input
+	Connect string  // pcm only, instead of path: host:port of a TCP sender, redialled with backoff
+	Format  string  // pcm only, required: one of PCMFormats()
+	Framing string  // pcm only: FramingRaw (default) or FramingGLF1
+	Line    int     // line of the source key; 0 when absent
 }
+
+// SourceKinds lists the source.kind spellings.
+func SourceKinds() []string { return []string{SourceSim, SourceCSV, SourceWAV, SourcePCM} }
+
+// PCMFormats lists the source.format spellings of a pcm source.
+func PCMFormats() []string { return []string{"s16le", "s24le", "s32le", "f32le"} }
 
 // Store configures the bbolt store.
 type Store struct {
@@ -110,6 +119,7 @@ type MQTT struct {
 	TopicPrefix  string         // one or more topic levels separated by '/'; default "gridloupe"
 	Telemetry    []string       // interval labels published; default ["10min"]; from 3s, 10min, 2h
 	TelemetryQoS map[string]int // MQTT QoS per interval label, 0..2; default 1 for every level
+	Summary      []string       // interval labels whose slim summary is published retained on …/summary/<interval>; default ["10min"]
 	Base         string         // added: "<prefix>/<site level>/<gateway level>", sanitized; topics are Base+"/status" and so on
 }
 
@@ -147,6 +157,9 @@ const (
 	SourceSim         = "sim"
 	SourceCSV         = "csv"
 	SourceWAV         = "wav"
+	SourcePCM         = "pcm"
+	FramingRaw        = "raw"
+	FramingGLF1       = "glf1"
 	BrokerEmbedded    = "embedded"
 )
 

@@ -25,11 +25,11 @@ var sections = map[string][]string{
 		"modbus", "http", "demand"},
 	"nominal":         {"frequency_hz", "voltage_v", "current_a"},
 	"channels[]":      {"name", "kind", "phase", "scale", "offset", "full_scale", "delay_us"},
-	"source":          {"kind", "speed", "path"},
+	"source":          {"kind", "speed", "path", "connect", "format", "framing"},
 	"store":           {"path", "commit_every", "max_size_mb", "retention", "on_damage"},
 	"store.retention": {"3s", "10min", "2h"},
 	"mqtt": {"broker", "listen", "client_id", "username", "password_file", "password_env", "tls",
-		"topic_prefix", "telemetry", "telemetry_qos"},
+		"topic_prefix", "telemetry", "telemetry_qos", "summary"},
 	"mqtt.tls":           {"ca", "cert", "key"},
 	"mqtt.telemetry_qos": {"3s", "10min", "2h"},
 	"modbus":             {"listen", "unit_id", "word_order"},
@@ -530,11 +530,17 @@ func (d *decoder) source(n *yaml.Node, path string, s *Source) *Error {
 	return d.mapping(n, path, "source", func(k string, v *yaml.Node, p string) *Error {
 		switch k {
 		case "kind":
-			return d.enum(v, p, &s.Kind, SourceSim, SourceCSV, SourceWAV)
+			return d.enum(v, p, &s.Kind, SourceKinds()...)
 		case "speed":
 			return d.float(v, p, &s.Speed)
 		case "path":
 			return d.str(v, p, &s.Path)
+		case "connect":
+			return d.str(v, p, &s.Connect)
+		case "format":
+			return d.enum(v, p, &s.Format, PCMFormats()...)
+		case "framing":
+			return d.enum(v, p, &s.Framing, FramingRaw, FramingGLF1)
 		}
 		return d.errf(v, p, "internal: key has no decoder")
 	})
@@ -607,20 +613,28 @@ func (d *decoder) mqtt(n *yaml.Node, path string, m *MQTT) *Error {
 				return nil
 			})
 		case "telemetry":
-			m.Telemetry = []string{}
-			return d.sequence(v, p, "interval labels (3s, 10min, 2h), such as [10min]", len(telemetryLevels), func(_ int, v *yaml.Node, ip string) *Error {
-				var l string
-				if e := d.enum(v, ip, &l, telemetryLevels...); e != nil {
-					return e
-				}
-				if slices.Contains(m.Telemetry, l) {
-					return d.errf(v, ip, "%s is listed twice", l)
-				}
-				m.Telemetry = append(m.Telemetry, l)
-				return nil
-			})
+			return d.levels(v, p, &m.Telemetry)
+		case "summary":
+			return d.levels(v, p, &m.Summary)
 		}
 		return d.errf(v, p, "internal: key has no decoder")
+	})
+}
+
+// levels decodes a list of published interval labels (mqtt.telemetry,
+// mqtt.summary) into *dst.
+func (d *decoder) levels(v *yaml.Node, p string, dst *[]string) *Error {
+	*dst = []string{}
+	return d.sequence(v, p, "interval labels (3s, 10min, 2h), such as [10min]", len(telemetryLevels), func(_ int, v *yaml.Node, ip string) *Error {
+		var l string
+		if e := d.enum(v, ip, &l, telemetryLevels...); e != nil {
+			return e
+		}
+		if slices.Contains(*dst, l) {
+			return d.errf(v, ip, "%s is listed twice", l)
+		}
+		*dst = append(*dst, l)
+		return nil
 	})
 }
 

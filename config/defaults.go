@@ -67,16 +67,20 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 #     scale: 1.0           # engineering value = raw x scale + offset; never 0
 #     offset: 0.0
 #     full_scale: 0        # engineering units, enables the clipped flag; 0 = none
-#     delay_us: 0          # sampling skew or sensor lag to correct, microseconds (less than one cycle)
+#     delay_us: 0          # time the channel's sample lags the frame instant, microseconds (+ = sampled late; a sensor lagging by 40 µs is -40)
 # single-phase: one voltage on phase a, currents on a (and n).
 # wye: voltages on a, b, c; each phase with a current needs its voltage.
 # delta: line-to-line voltages; currents on two phases (the two-wattmeter hook-up:
 #   ab and cb with CTs on a and c, the third current computed) or on all three; no n.
 
 # source:                  # daemon input; default: none (replay names its input on the command line)
-#   kind: sim              # required in a source: sim | csv | wav
+#   kind: sim              # required in a source: sim | csv | wav | pcm
 #   speed: 1               # sim only: 1 = real time, 60 = a minute per second, 0 = as fast as possible
-#   path: rec.csv          # csv and wav only, required: the recording
+#   path: rec.csv          # csv, wav: the recording (required); pcm: a file, a FIFO or "-" for standard input
+#   connect: ""            # pcm only, instead of path: host:port of a TCP sender, redialled with backoff
+#   format: s16le          # pcm only, required: s16le | s24le | s32le | f32le, interleaved in channel order
+#   framing: raw           # pcm only: raw (bare samples) | glf1 (frames with index and CRC, see README)
+#                          # pcm needs sample_rate_hz: a raw stream carries none
 
 store:
   path: ""                 # bbolt file; "" = not configured
@@ -102,6 +106,7 @@ mqtt:
   topic_prefix: gridloupe  # one or more topic levels separated by /; no +, # or leading $
   telemetry: [10min]       # levels published, from 3s, 10min, 2h; [] = none
   telemetry_qos: {3s: 1, 10min: 1, 2h: 1}  # MQTT QoS per level, 0..2; 1 = kept until the broker acknowledges
+  summary: [10min]         # levels whose slim summary (< 1 KB, for a BMS) is published retained, QoS 1; [] = none
 
 alarms: []
 # alarms:                          # alarm rules; raised and cleared over MQTT with hysteresis

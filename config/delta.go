@@ -2,6 +2,7 @@ package config
 
 import (
 	"fmt"
+	"math"
 	"strings"
 )
 
@@ -107,4 +108,15 @@ func (v *validator) deltaUnbalance(p, metric, kind string) *Error {
 		return v.fail(p+".metric", "%s needs two or three %s channels on delta", metric, kind)
 	}
 	return nil
+}
+
+// BusVoltageV returns the line-to-line bus voltage that selects the IEEE
+// 519 Table 1 row: √3 times the declared phase-to-neutral voltage for wye,
+// the declared line-to-line voltage for delta, the declared voltage for
+// single-phase.
+func (c *Config) BusVoltageV() float64 {
+	if c.Wiring == WiringWye {
+		return math.Sqrt(3) * c.Nominal.VoltageV
+	}
+	return c.Nominal.VoltageV
 }

@@ -37,6 +37,7 @@ const (
 	srcBrief   = "DESIGN, Config (YAML): validation list (file:line:col, key path, what is allowed)"
 	srcDesign  = "DESIGN.md, Interface contract / Config (YAML)"
 	srcDaemon  = "DESIGN.md, Daemon keys, MQTT and store"
+	srcSources = "DESIGN.md, Field contract / Sources"
 	srcMeasure = "DESIGN.md, Conventions of measurement"
 	srcRate    = "DESIGN.md, Performance notes: orders to 50 at up to 69 Hz need fs above 6.9 kHz; rule fs > 2·order·1.15·f"
 	srcMQTT    = "MQTT 3.1.1 §4.7 (topic wildcards +, #; $-topics) and §1.5.3 (UTF-8, control characters)"
@@ -146,11 +147,19 @@ var badCases = []badCase{
 	{name: "gateway empty", doc: hdr1 + "gateway: ''\n", line: 4, key: "gateway", phrase: "must not be empty", src: srcMQTT},
 
 	// source.
-	{name: "source kind missing", doc: hdr1 + "source: {speed: 2}\n", line: 4, key: "source.kind", phrase: "required: sim, csv or wav", src: srcDaemon},
+	{name: "source kind missing", doc: hdr1 + "source: {speed: 2}\n", line: 4, key: "source.kind", phrase: "required: sim, csv, wav, pcm", src: srcDaemon},
 	{name: "source kind live", doc: hdr1 + "source: {kind: live}\n", line: 4, key: "source.kind", phrase: "use one of: sim, csv, wav", src: srcDaemon},
 	{name: "csv without path", doc: hdr1 + "source: {kind: csv}\n", line: 4, key: "source.path", phrase: "required for kind csv", src: srcBrief},
 	{name: "speed with wav", doc: hdr1 + "source: {kind: wav, path: a.wav, speed: 2}\n", line: 4, key: "source.speed", phrase: "applies to kind sim only", src: srcBrief},
-	{name: "path with sim", doc: hdr1 + "source: {kind: sim, path: a.csv}\n", line: 4, key: "source.path", phrase: "applies to kinds csv and wav", src: srcBrief},
+	{name: "path with sim", doc: hdr1 + "source: {kind: sim, path: a.csv}\n", line: 4, key: "source.path", phrase: "applies to kinds csv, wav and pcm", src: srcBrief},
+	{name: "pcm without rate", doc: hdr1 + "source: {kind: pcm, path: '-', format: s16le}\n", line: 4, key: "source", phrase: "kind pcm needs sample_rate_hz", src: srcSources},
+	{name: "pcm without format", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: '-'}\n", line: 5, key: "source.format", phrase: "required for kind pcm: one of s16le, s24le, s32le, f32le", src: srcSources},
+	{name: "pcm bad format", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: '-', format: s16be}\n", line: 5, key: "source.format", phrase: "use one of: s16le, s24le, s32le, f32le", src: srcSources},
+	{name: "pcm path and connect", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: a.raw, connect: '127.0.0.1:7001', format: s16le}\n", line: 5, key: "source.connect", phrase: "not both", src: srcSources},
+	{name: "pcm neither path nor connect", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, format: s16le}\n", line: 5, key: "source.path", phrase: "required for kind pcm", src: srcSources},
+	{name: "pcm connect not host:port", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, connect: localhost, format: s16le}\n", line: 5, key: "source.connect", phrase: "is not host:port", src: srcSources},
+	{name: "framing on csv", doc: hdr1 + "source: {kind: csv, path: a.csv, framing: glf1}\n", line: 4, key: "source.framing", phrase: "applies to kind pcm only", src: srcSources},
+	{name: "pcm bad framing", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: '-', format: s16le, framing: slip}\n", line: 5, key: "source.framing", phrase: "use one of: raw, glf1", src: srcSources},
 	{name: "speed negative", doc: hdr1 + "source: {kind: sim, speed: -1}\n", line: 4, key: "source.speed", phrase: "must not be negative", src: srcBrief},
 
 	// store.

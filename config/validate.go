@@ -64,7 +64,7 @@ func parse(path string, data []byte, hostname func() (string, error)) (*Config, 
 		Harmonics:  Harmonics{All: true},
 		LockMinPct: defaultLockMinPct,
 		Store:      Store{CommitEvery: defaultCommitEvery, MaxSizeMB: defaultMaxSizeMB, Retention: defaultRetention(), OnDamage: OnDamageSetAside},
-		MQTT:       MQTT{TopicPrefix: defaultPrefix, Telemetry: []string{defaultLevel}, TelemetryQoS: defaultTelemetryQoS()},
+		MQTT:       MQTT{TopicPrefix: defaultPrefix, Telemetry: []string{defaultLevel}, TelemetryQoS: defaultTelemetryQoS(), Summary: []string{defaultLevel}},
 		Modbus:     Modbus{Listen: defaultModbusListen, UnitID: 1, WordOrder: WordHighFirst},
 		HTTP:       HTTP{Listen: defaultHTTPListen},
 		Demand:     Demand{Interval: defaultDemand, Method: DemandFixed},
@@ -342,22 +342,64 @@ func (v *validator) source() *Error {
 	if !v.has("source") {
 		return nil
 	}
+	kinds := strings.Join(SourceKinds(), ", ")
 	switch {
 	case !v.has("source.kind"):
-		return v.fail("source.kind", "required: sim, csv or wav")
+		return v.fail("source.kind", "required: %s", kinds)
 	case s.Kind == SourceSim && v.has("source.path"):
-		return v.fail("source.path", "applies to kinds csv and wav, not sim")
+		return v.fail("source.path", "applies to kinds csv, wav and pcm, not sim")
 	case s.Kind != SourceSim && v.has("source.speed"):
 		return v.fail("source.speed", "applies to kind sim only")
-	case s.Kind != SourceSim && s.Path == "":
-		return v.fail("source.path", "required for kind %s: the recording to read", s.Kind)
 	case s.Speed < 0:
 		return v.fail("source.speed", "must not be negative (1 = real time, 0 = as fast as possible)")
+	}
+	if e := v.pcmSource(); e != nil {
+		return e
+	}
+	if s.Kind != SourceSim && s.Kind != SourcePCM && s.Path == "" {
+		return v.fail("source.path", "required for kind %s: the recording to read", s.Kind)
 	}
 	if s.Kind == SourceSim && !v.has("source.speed") {
 		s.Speed = 1
 	}
-	v.resolve(&s.Path)
+	if s.Path != "-" {
+		v.resolve(&s.Path)
+	}
+	return nil
+}
+
+// pcmSource checks the keys of a pcm source (DESIGN "Sources": raw PCM).
+func (v *validator) pcmSource() *Error {
+	s := &v.c.Source
+	if s.Kind != SourcePCM {
+		for _, k := range []string{"connect", "format", "framing"} {
+			if v.has("source." + k) {
+				return v.fail("source."+k, "applies to kind pcm only")
+			}
+		}
+		return nil
+	}
+	switch {
+	case s.Path != "" && s.Connect != "":
+		return v.fail("source.connect", "set path (a file, a FIFO or \"-\" for standard input) or connect (host:port), not both")
+	case s.Path == "" && s.Connect == "":
+		return v.fail("source.path", "required for kind pcm: a file, a FIFO or \"-\" for standard input (or connect: host:port)")
+	case s.Format == "":
+		return v.fail("source.format", "required for kind pcm: one of %s", strings.Join(PCMFormats(), ", "))
+	case v.c.SampleRateHz == 0:
+		return v.fail("source", "kind pcm needs sample_rate_hz: a raw stream carries no sample rate")
+	}
+	if s.Connect != "" {
+		if _, _, err := net.SplitHostPort(s.Connect); err != nil {
+			return v.fail("source.connect", "%q is not host:port (e.g. 127.0.0.1:7001): %v", s.Connect, err)
+		}
+	}
+	if s.Framing == "" {
+		s.Framing = FramingRaw
+	}
+	if s.Framing == FramingGLF1 && len(v.c.Channels) > 16 {
+		return v.fail("source.framing", "a GLF1 frame carries 1 to 16 channels, the configuration has %d", len(v.c.Channels))
+	}
 	return nil
 }
 

@@ -46,3 +46,32 @@ func TestSlidingAllocs(t *testing.T) {
 	}
 	_ = sink
 }
+
+func TestLeakageAllocs(t *testing.T) {
+	const w = 50.02 / 10240
+	b := mustBank(t, seq(1, 50))
+	l, err := NewLeakage(seq(1, 50))
+	if err != nil {
+		t.Fatal(err)
+	}
+	x := drive50(2047, w, 1)
+	ph := make([]complex128, b.Len())
+	raw := make([]complex128, b.Len())
+	b.Reset(w)
+	b.Write(x)
+	b.Phasors(raw)
+	l.Reset(w, len(x)) // the map below runs in random order: Fundamental needs n set first
+	var sink float64
+	// src: STYLE.md §5, zero allocations on per-window paths.
+	for name, f := range map[string]func(){
+		"Reset":       func() { l.Reset(w, len(x)) },
+		"Solve":       func() { copy(ph, raw); d, _ := l.Solve(ph, 0); sink += d },
+		"Fundamental": func() { a, _ := l.Fundamental(x, ph, 0); sink += real(a) },
+		"MeanProduct": func() { sink += MeanProduct(1, 0, 0, 0, ph, ph, raw) },
+	} {
+		if n := testing.AllocsPerRun(20, f); n != 0 {
+			t.Errorf("Leakage.%s: %v allocs per call, want 0", name, n)
+		}
+	}
+	_ = sink
+}

@@ -51,7 +51,7 @@ type Channel struct {
 	Phase     byte    // 'a', 'b', 'c' or 'n' (neutral current); a line-to-line voltage's first phase
 	To        byte    // Delta voltages: the second phase ('b' for a channel measuring v_ab); 0 otherwise
 	FullScale float64 // engineering units; 0 = none (no clipping check)
-	DelayS    float64 // sampling skew or sensor lag to correct, seconds; order h is rotated by h·ω·DelayS
+	DelayS    float64 // time by which the channel's sample lags the frame instant, seconds (positive: sampled late; a sensor lagging by τ is −τ); order h is rotated by −h·ω·DelayS
 }
 
 // Interval is an aggregation level. Its labels form a closed set.

@@ -72,15 +72,14 @@ type Pipeline struct {
 	nch    int
 	ref    int
 
-	raw   []float64
-	buf   [][]float64
-	scale []float64
-	off   []float64
-	fsc   []float64 // clip threshold per channel, +Inf when none
+	raw    []float64
+	buf    [][]float64
+	scale  []float64
+	off    []float64
+	clipHi []float64 // clipped at or above, per channel (engineering units), +Inf when none
+	clipLo []float64 // clipped at or below, −Inf when none
 
-	banks []*goertzel.Bank
-	half  *goertzel.Bank
-	halfX [1]complex128
+	ex *exact // window samples, banks and the leakage correction (exact.go)
 
 	in  metrics.Input
 	rec *metrics.Record
@@ -150,8 +149,8 @@ func New(cfg Config) (*Pipeline, error) {
 	p.buf = make([][]float64, p.nch)
 	p.scale = make([]float64, p.nch)
 	p.off = make([]float64, p.nch)
-	p.fsc = make([]float64, p.nch)
-	p.banks = make([]*goertzel.Bank, p.nch)
+	p.clipHi = make([]float64, p.nch)
+	p.clipLo = make([]float64, p.nch)
 	p.in.Ch = make([]metrics.ChannelSums, p.nch)
 	for c := range p.nch {
 		p.buf[c] = make([]float64, bf)
@@ -162,22 +161,17 @@ func New(cfg Config) (*Pipeline, error) {
 			}
 			p.off[c] = cfg.Cal[c].Offset
 		}
-		p.fsc[c] = math.Inf(1)
+		p.clipHi[c], p.clipLo[c] = math.Inf(1), math.Inf(-1)
 		if fs := s.Channels[c].FullScale; fs > 0 {
-			p.fsc[c] = fs
+			p.clipHi[c], p.clipLo[c] = fs, -fs
 		}
-		b, err := goertzel.NewBank(s.Orders)
-		if err != nil {
-			return nil, fmt.Errorf("%w: channel %q: %w", ErrConfig, s.Channels[c].Name, err)
-		}
-		p.banks[c] = b
 		p.in.Ch[c].Phasors = make([]complex128, len(s.Orders))
 	}
-	h, err := goertzel.NewBank([]int{1})
+	ex, err := newExact(cfg.SampleRate, p.cycles, p.nomHz*(1-trackRange), p.nch, s.Orders)
 	if err != nil {
 		return nil, fmt.Errorf("%w: %w", ErrConfig, err)
 	}
-	p.half = h
+	p.ex = ex
 	p.in.SumVI = make([]float64, len(s.Products))
 	p.rec = metrics.NewRecord(s)
 	p.trk = newTracker(cfg.SampleRate, cfg.NominalHz, p.lockV)
@@ -227,13 +221,10 @@ func (p *Pipeline) startWindow() {
 	p.winStart = p.idx // equals startCeil: windows are gapless by construction
 	p.winN = int(endCeil - startCeil)
 	p.filled = 0
-	w := f / p.fs
 	for c := range p.nch {
-		p.banks[c].Reset(w)
 		ch := &p.in.Ch[c]
 		ch.N, ch.Sum, ch.SumSq, ch.Peak, ch.Clipped, ch.Bad = 0, 0, 0, 0, false, false
 	}
-	p.half.Reset(w)
 	for i := range p.in.SumVI {
 		p.in.SumVI[i] = 0
 	}
@@ -258,6 +249,7 @@ func (p *Pipeline) Clock() Clock { return p.clock }
 // is wrapped with ErrSource after the frames that came with it are
 // processed, except a *Gap, which is a hole in the data and not an end; an error from emit stops the run and is returned as is.
 func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.Record) error) error {
+	p.useRails(src)
 	for {
 		if err := ctx.Err(); err != nil {
 			return nil
@@ -315,16 +307,16 @@ func (p *Pipeline) block(n int, emit func(*metrics.Record) error) error {
 func (p *Pipeline) segment(off, k int) {
 	for c := range p.nch {
 		seg := p.buf[c][off : off+k]
-		p.banks[c].Write(seg)
+		p.ex.write(c, p.filled, seg)
 		ch := &p.in.Ch[c]
 		s, ss, pk := ch.Sum, ch.SumSq, ch.Peak
-		lim := p.fsc[c]
+		hi, lo := p.clipHi[c], p.clipLo[c]
 		clip := false
 		for _, x := range seg {
 			s += x
 			ss += x * x
 			pk = max(pk, math.Abs(x))
-			if x >= lim || -x >= lim {
+			if x >= hi || x <= lo {
 				clip = true
 			}
 		}
@@ -334,9 +326,6 @@ func (p *Pipeline) segment(off, k int) {
 		}
 	}
 	ref := p.buf[p.ref][off : off+k]
-	if m := p.winN / 2; p.filled < m {
-		p.half.Write(ref[:min(k, m-p.filled)])
-	}
 	p.trk.zc.write(ref)
 	for i, pr := range p.setup.Products {
 		v, cur := p.buf[pr.V][off:off+k], p.buf[pr.I][off:off+k]
@@ -354,22 +343,14 @@ func (p *Pipeline) segment(off, k int) {
 func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
 	for c := range p.nch {
 		ch := &p.in.Ch[c]
-		p.banks[c].Phasors(ch.Phasors)
 		if math.IsNaN(ch.Sum) || math.IsInf(ch.Sum, 0) || math.IsNaN(ch.SumSq) || math.IsInf(ch.SumSq, 0) {
 			ch.Bad = true
 		}
 	}
 	realBad := p.gapNull()
-	used := p.trk.fUsed
-	p.half.Phasors(p.halfX[:])
-	ref := &p.in.Ch[p.ref]
-	fMeas, lock := p.trk.measure(ref.Phasors[0], p.halfX[0], p.winN, ref.Bad)
+	fMeas, lock := p.analyse()
 	p.in.FreqHz = fMeas
 	p.in.Lock = lock
-	p.in.OmegaHz = used
-	if lock {
-		p.in.OmegaHz = fMeas
-	}
 	rec := p.rec
 	metrics.Compute(p.setup, &p.in, rec)
 	rec.Interval = metrics.Int200ms
@@ -406,4 +387,56 @@ func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
 	}
 	p.startWindow()
 	return nil
+}
+
+// analyse measures the window's frequency on the reference channel, fills
+// the phasors and sums of a window of exactly 10 (12) cycles of it, and sets
+// the next cut. The window is synchronized (lock) when the frequency comes
+// from the fundamental's phase and the window's whole samples are within
+// maxMismatch of its cycles, so that the leakage correction holds. Without
+// lock the phasors are those of the window as cut, at the cut frequency.
+func (p *Pipeline) analyse() (fMeas float64, lock bool) {
+	n := p.winN
+	used := p.trk.fUsed
+	x := p.ex.win[p.ref][:n]
+	w0 := used / p.fs
+	f, fine := p.trk.measure(goertzel.Phasor(x, w0), goertzel.Phasor(x[:n/2], w0), n, p.in.Ch[p.ref].Bad)
+	fw := used
+	if fine {
+		f = p.ex.refine(p.ref, n, f)
+		fw = f
+	}
+	correct := fine && math.Abs(float64(n)-p.cycles*p.fs/fw) <= maxMismatch*float64(n)
+	lock = p.ex.analyse(&p.in, p.setup.Products, n, fw, correct) && correct
+	p.trk.commit(f, fine, lock)
+	p.in.OmegaHz = fw
+	return f, lock
+}
+
+// railer is the optional interface of a source of integer samples: the most
+// negative and most positive raw value a sample can hold (ok false when the
+// samples have no rail, e.g. float).
+type railer interface {
+	Rails() (lo, hi float64, ok bool)
+}
+
+// useRails sets each channel's clip thresholds to the lower of full_scale
+// and the source's integer rail in engineering units (a 16-bit recording
+// clamps at +32767, one step below a full_scale of 32768·scale).
+func (p *Pipeline) useRails(src FrameReader) {
+	r, ok := src.(railer)
+	if !ok {
+		return
+	}
+	lo, hi, ok := r.Rails()
+	if !ok {
+		return
+	}
+	for c := range p.nch {
+		a, b := lo*p.scale[c]+p.off[c], hi*p.scale[c]+p.off[c]
+		if a > b {
+			a, b = b, a
+		}
+		p.clipHi[c], p.clipLo[c] = min(p.clipHi[c], b), max(p.clipLo[c], a)
+	}
 }

@@ -10,9 +10,6 @@ const (
 	// trackRange bounds the tracked frequency to ±30 % of nominal, wider
 	// than the IEC 61000-4-30 range of 42.5–57.5 Hz / 51–69 Hz.
 	trackRange = 0.30
-	// syncTol is the relative frequency error of a window's cut above which
-	// the window is not synchronized and is flagged no_lock (0.1 %).
-	syncTol = 1e-3
 	// refineRange is the largest relative error the half-window phase method
 	// resolves without ambiguity (it wraps at 10 %); beyond 4 % the
 	// zero-crossing estimate is used instead.
@@ -62,9 +59,11 @@ func (t *tracker) CycleSamples() float64 { return t.fs / t.fUsed }
 func (t *tracker) Locked() bool { return t.locked }
 
 // measure takes the reference channel's fundamental over the window just
-// ended (x1, RMS phasor over n samples) and over its first half (xh, over
-// n/2 samples), measures the window's frequency, decides whether the window
-// was synchronized, and sets the cut of the next window.
+// ended (x1, RMS phasor over n samples at the cut frequency) and over its
+// first half (xh, over n/2 samples) and estimates the window's frequency.
+// fine reports that the estimate comes from the fundamental's phase (and can
+// be refined); otherwise it comes from the zero crossings (NaN when there is
+// no signal, and the tracker has forgotten the frequency). Call commit next.
 //
 // Within ±4 % of the cut frequency the phase method refines it: the
 // fundamental's DFT sum over the first half of the window (SA) and over the
@@ -74,7 +73,7 @@ func (t *tracker) Locked() bool { return t.locked }
 // Beyond that range, and when the fundamental bin is too small to carry a
 // phase, the zero-crossing count of the low-passed reference gives the value
 // for the next cut.
-func (t *tracker) measure(x1, xh complex128, n int, bad bool) (fMeas float64, lock bool) {
+func (t *tracker) measure(x1, xh complex128, n int, bad bool) (f float64, fine bool) {
 	zcF, zcN, level := t.zc.windowFreq()
 	a1 := cmplx.Abs(x1)
 	if bad || !(level >= t.lockV || a1 >= t.lockV) {
@@ -87,31 +86,38 @@ func (t *tracker) measure(x1, xh complex128, n int, bad bool) (fMeas float64, lo
 	sb := x1*complex(nn/math.Sqrt2, 0) - sa
 	dphi := cmplx.Phase(sb * cmplx.Conj(sa))
 	fRef := t.fUsed + dphi*t.fs/(math.Pi*nn)
-	fMeas = fRef
 	zcOK := zcN >= 3 && !math.IsNaN(zcF)
-	if zcOK && (math.Abs(zcF-t.fUsed) > refineRange*t.fUsed || !(a1 >= t.lockV)) {
+	switch {
+	case zcOK && (math.Abs(zcF-t.fUsed) > refineRange*t.fUsed || !(a1 >= t.lockV)):
 		// the cut is too far off for the phase method (or its bin holds no
 		// fundamental to take a phase from): take the crossings' value
-		fMeas = zcF
-	} else if !(a1 >= t.lockV) {
+		return zcF, false
+	case !(a1 >= t.lockV):
 		// a signal, but neither a usable bin nor enough crossings yet
 		t.lost()
 		return math.NaN(), false
 	}
-	lock = math.Abs(fMeas-t.fUsed) <= syncTol*t.fUsed
-	trusted := fMeas == fRef && math.Abs(fMeas-t.fUsed) <= trustTol*t.fUsed
-	next := fMeas
+	return fRef, true
+}
+
+// commit takes the window's final frequency f (fine: from the phase method)
+// and whether the window was synchronized, and sets the next cut.
+func (t *tracker) commit(f float64, fine, lock bool) {
+	if math.IsNaN(f) {
+		return // lost() has run
+	}
+	trusted := fine && math.Abs(f-t.fUsed) <= trustTol*t.fUsed
+	next := f
 	if trusted && t.prevOK && !math.IsNaN(t.fPrev) {
 		// both windows measured near their cut: extrapolate the trend
-		step := max(-maxStepHz, min(maxStepHz, fMeas-t.fPrev))
-		next = fMeas + step
+		step := max(-maxStepHz, min(maxStepHz, f-t.fPrev))
+		next = f + step
 	}
 	t.prevOK = trusted
 	lo, hi := t.nomHz*(1-trackRange), t.nomHz*(1+trackRange)
-	t.fPrev = fMeas
+	t.fPrev = f
 	t.fUsed = max(lo, min(hi, next))
 	t.locked = lock
-	return fMeas, lock
 }
 
 // lost forgets the frequency after a loss of signal: the next window is cut

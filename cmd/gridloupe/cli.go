@@ -55,6 +55,8 @@ Commands:
   simulate  write a recording of the built-in drive-cabinet simulator (CSV)
   wiring    check a hook-up on site: rotation, reversed, swapped or misplaced
             CTs, dead channels, voltages off nominal; plain-language findings
+  calibrate compare a few seconds with a reference instrument's readings and
+            print corrected scale and delay_us lines for the config
   modbus-map  print the Modbus TCP register map of a config (CSV) for a BMS
   config    print the documented defaults of every config key, or check a file
   version   print the version and build information
@@ -96,13 +98,15 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 		err = cmdSimulate(ctx, rest, stdout, stderr)
 	case "wiring":
 		err = cmdWiring(ctx, rest, stdout, stderr)
+	case "calibrate":
+		err = cmdCalibrate(ctx, rest, stdout, stderr)
 	case "modbus-map":
 		err = cmdModbusMap(rest, stdout)
 	case "version", "--version", "-version":
 		err = cmdVersion(rest, stdout)
 	default:
 		fmt.Fprint(stderr, rootHelp)
-		return usagef("unknown command %q (commands: demo, run, export, evaluate, replay, simulate, modbus-map, wiring, config, version)", cmd)
+		return usagef("unknown command %q (commands: demo, run, export, evaluate, replay, simulate, modbus-map, wiring, calibrate, config, version)", cmd)
 	}
 	if errors.Is(err, errHelp) {
 		return nil

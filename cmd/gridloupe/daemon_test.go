@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"io"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -64,8 +65,15 @@ type proc struct {
 
 func startDaemon(t *testing.T, args ...string) *proc {
 	t.Helper()
+	return startDaemonStdin(t, nil, args...)
+}
+
+// startDaemonStdin is startDaemon with standard input read from stdin (nil: none).
+func startDaemonStdin(t *testing.T, stdin io.Reader, args ...string) *proc {
+	t.Helper()
 	cmd := exec.Command(os.Args[0], args...)
 	cmd.Env = append(os.Environ(), "GRIDLOUPE_AS_MAIN=1")
+	cmd.Stdin = stdin
 	p := &proc{cmd: cmd, stderr: new(bytes.Buffer), done: make(chan error, 1)}
 	cmd.Stderr = p.stderr
 	if err := cmd.Start(); err != nil {

@@ -138,6 +138,13 @@ func TestReplayDelta(t *testing.T) {
 			t.Errorf("no unbalance")
 		}
 	}
+	// IEEE 519-2014 Table 1 goes by the bus voltage, here the declared
+	// line-to-line 400 V (row V ≤ 1.0 kV: THD 8 %). src: REFERENCE §1.3;
+	// DESIGN Delta wiring (voltage_v is line-to-line).
+	res = runCmd("replay", "--config", cfg, "--interval", "3s", "--format", "table", rec)
+	if !strings.Contains(res.stdout, "bus 400 V") || !strings.Contains(res.stdout, "below 8 %") {
+		t.Errorf("table reference line: %s", res.stdout)
+	}
 	// CSV has the same columns rule: no s_va, no voltage zero.
 	res = runCmd("replay", "--config", cfg, "--interval", "200ms", "--format", "csv", rec)
 	if res.code != 0 || strings.Contains(res.stdout, "total.s_va") || strings.Contains(res.stdout, "sequence.voltage.1.zero") ||

@@ -133,10 +133,7 @@ func evaluateStore(db *store.DB, cfg *config.Config, from time.Time) (*complianc
 			return nil, err
 		}
 	}
-	busV := cfg.Nominal.VoltageV
-	if cfg.Wiring == config.WiringWye {
-		busV *= math.Sqrt(3) // wye: the table row goes by the line-to-line bus voltage; delta declares it
-	}
+	busV := cfg.BusVoltageV()
 	ev, err := compliance.New(compliance.Config{
 		Setup: setup, NominalV: cfg.Nominal.VoltageV, BusV: busV,
 		IL: cfg.ILA, Isc: cfg.IscA, Start: from,

@@ -22,6 +22,7 @@ import (
 	"github.com/gridloupe/gridloupe/stream"
 	"github.com/gridloupe/gridloupe/stream/encode"
 	"github.com/gridloupe/gridloupe/stream/input"
+	"github.com/gridloupe/gridloupe/stream/pcm"
 )
 
 const replayHelp = `Usage: gridloupe replay --config FILE [flags] INPUT
@@ -33,8 +34,11 @@ or their 3 s and 10 min aggregates (IEC 61000-4-30 aggregation).
 INPUT is a CSV file (a header row naming the config's channels, optional
 first column t in seconds, '#' comments) or a WAV file (16/24/32-bit PCM or
 32-bit float, channels in config order); - reads CSV from standard input.
-Values are raw; the config's
-scale and offset turn them into volts and amperes.
+With --pcm FORMAT, INPUT is a raw PCM stream (a file, a FIFO, or - for
+standard input): interleaved little-endian samples in config channel order,
+bare or in GLF1 frames (--framing glf1); sample_rate_hz is then required.
+Values are raw; the config's scale and offset turn them into volts and
+amperes. Samples a stream lost are flagged gap, never stitched.
 
 Flags:
 `
@@ -46,6 +50,8 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 	format := fs.String("format", "jsonl", "output format: jsonl (unrounded), csv, table (per-phase blocks for people, with the IEEE 519 reference) or wide (one row per record)")
 	startStr := fs.String("start", "", "wall time of the first sample, RFC 3339 (default 1970-01-01T00:00:00Z)")
 	progress := fs.Bool("progress", true, "show a progress bar on stderr when it is a terminal")
+	pcmFmt := fs.String("pcm", "", "INPUT is a raw PCM stream in `FORMAT`: "+strings.Join(pcm.FormatNames(), ", "))
+	framing := fs.String("framing", "raw", "with --pcm: raw (bare samples) or glf1 (frames with sample index and CRC)")
 	fs.Usage = func() {
 		fmt.Fprint(fs.Output(), replayHelp)
 		fs.PrintDefaults()
@@ -60,6 +66,16 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 		return usagef("replay: want exactly one INPUT file, got %d", fs.NArg())
 	}
 	inPath := fs.Arg(0)
+	if *pcmFmt != "" {
+		if _, ok := pcm.ParseFormat(*pcmFmt); !ok {
+			return usagef("replay: --pcm %q: allowed are %s", *pcmFmt, strings.Join(pcm.FormatNames(), ", "))
+		}
+		if *framing != config.FramingRaw && *framing != config.FramingGLF1 {
+			return usagef("replay: --framing %q: allowed are raw, glf1", *framing)
+		}
+	} else if *framing != config.FramingRaw {
+		return usagef("replay: --framing applies to --pcm input only")
+	}
 	iv, ok := metrics.ParseInterval(*ivName)
 	if !ok || iv == metrics.Int2h {
 		return usagef("replay: --interval %q: allowed are 200ms, 3s, 10min", *ivName)
@@ -86,6 +102,10 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 		return err
 	}
 
+	if *pcmFmt != "" {
+		return replayPCM(ctx, replayPCMArgs{cfg: cfg, setup: setup, cal: cal, base: base, iv: iv, format: fmtKind,
+			pcm: *pcmFmt, framing: *framing, input: inPath}, stdin, stdout, stderr)
+	}
 	r, closeIn, err := openReplayInput(inPath, stdin, stderr, *progress)
 	if err != nil {
 		return err
@@ -110,11 +130,33 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 	if err != nil {
 		return err
 	}
+	return replayAnalyse(ctx, replayJob{cfg: cfg, setup: setup, cal: cal, rate: rate, base: base, iv: iv, format: fmtKind,
+		src: src, input: inPath, where: where}, stdout, stderr)
+}
+
+// replayJob is one replay's analysis: an opened source and what to print.
+type replayJob struct {
+	cfg    *config.Config
+	setup  *metrics.Setup
+	cal    []stream.Cal
+	rate   float64
+	base   time.Time
+	iv     metrics.Interval
+	format encode.Format
+	src    stream.FrameReader
+	input  string
+	where  func() string // where reading stopped, for the cut-recording warning
+	losses func() string // what a stream lost, "" when nothing; nil = never
+}
+
+// replayAnalyse runs the pipeline over j.src and prints j.iv's records.
+func replayAnalyse(ctx context.Context, j replayJob, stdout, stderr io.Writer) error {
+	cfg, setup, rate, inPath, fmtKind, iv, src, where := j.cfg, j.setup, j.rate, j.input, j.format, j.iv, j.src, j.where
 	if err := checkRate(cfg, rate); err != nil {
 		return err
 	}
-	pc := pipelineConfig(cfg, setup, cal, rate)
-	pc.Base = base
+	pc := pipelineConfig(cfg, setup, j.cal, rate)
+	pc.Base = j.base
 	p, err := stream.New(pc)
 	if err != nil {
 		return err
@@ -149,6 +191,11 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 	if runErr != nil {
 		return runErr
 	}
+	if j.losses != nil {
+		if l := j.losses(); l != "" {
+			fmt.Fprintf(stderr, "gridloupe: warning: %s: %s\n", inPath, l)
+		}
+	}
 	switch {
 	case p.Leftover() > 0:
 		fmt.Fprintf(stderr, "gridloupe: warning: %s: input ends mid-window at %s; the last %d samples (%.3f s) are not in the output\n",
@@ -181,10 +228,7 @@ func ieeeReference(cfg *config.Config) *encode.Reference {
 	if !(cfg.Nominal.VoltageV > 0) {
 		return nil
 	}
-	bus := cfg.Nominal.VoltageV
-	if cfg.Wiring != config.WiringSinglePhase {
-		bus *= math.Sqrt(3) // wye: the row goes by the line-to-line bus voltage
-	}
+	bus := cfg.BusVoltageV()
 	_, vthd := limits.VoltageLimits(bus)
 	ref := &encode.Reference{Edition: limits.Edition, BusV: bus, VTHDPct: vthd}
 	if cfg.ILA > 0 {
@@ -252,4 +296,31 @@ func openInput(path string, r io.Reader, names []string) (stream.FrameReader, fl
 func isTerminal(w io.Writer) bool {
 	f, ok := w.(*os.File)
 	return ok && term.IsTerminal(int(f.Fd()))
+}
+
+// replayPCMArgs are a --pcm replay's settings.
+type replayPCMArgs struct {
+	cfg          *config.Config
+	setup        *metrics.Setup
+	cal          []stream.Cal
+	base         time.Time
+	iv           metrics.Interval
+	format       encode.Format
+	pcm, framing string
+	input        string
+}
+
+// replayPCM replays a raw or GLF1 stream from a file, a FIFO or stdin.
+func replayPCM(ctx context.Context, a replayPCMArgs, stdin io.Reader, stdout, stderr io.Writer) error {
+	rate, err := pcmRate(a.cfg, a.input)
+	if err != nil {
+		return err
+	}
+	in, _, err := openPCMPath(a.input, stdin, len(a.setup.Channels), a.pcm, a.framing)
+	if err != nil {
+		return err
+	}
+	defer in.close()
+	return replayAnalyse(ctx, replayJob{cfg: a.cfg, setup: a.setup, cal: a.cal, rate: rate, base: a.base, iv: a.iv,
+		format: a.format, src: in.src, input: a.input, where: in.where, losses: in.losses}, stdout, stderr)
 }

@@ -12,6 +12,7 @@ import (
 	"path/filepath"
 	"runtime"
 	"runtime/pprof"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -33,17 +34,27 @@ import (
 
 const runHelp = `Usage: gridloupe run --config FILE [flags]
 
-Runs the gateway until SIGINT or SIGTERM: reads the configured source
-(source.kind: sim, csv or wav), measures every 10/12-cycle window, keeps
-3 s, 10 min and 2 h aggregates in the bbolt store (store.path), raises and
-clears the configured alarms, and publishes status, telemetry and alarms over
-MQTT through the store's outbox (mqtt.broker; "embedded" starts a broker in
-the process on loopback). With a modbus or http section it also serves the
-latest values over Modbus TCP and HTTP (see the README). Exit status: 0
-after a signal, 0 when a csv or
-wav source reaches its end (and after --stop-after), 1 when the simulator
-stops otherwise, a source fails or the store cannot be opened, 2 for config
-errors.
+Runs the gateway until SIGINT or SIGTERM: reads the configured source,
+measures every 10/12-cycle window, keeps 3 s, 10 min and 2 h aggregates in
+the bbolt store (store.path), raises and clears the configured alarms, and
+publishes status, telemetry and alarms over MQTT through the store's outbox
+(mqtt.broker; "embedded" starts a broker in the process on loopback). With a
+modbus or http section it also serves the latest values over Modbus TCP and
+HTTP (see the README).
+
+Source kinds (source.kind):
+  sim   the built-in drive-cabinet simulator (speed: 1 = real time)
+  csv   a CSV recording (path)
+  wav   a WAV recording (path)
+  pcm   raw PCM, interleaved in channel order (format: s16le|s24le|s32le|f32le,
+        sample_rate_hz required): path (a file, a FIFO, "-" for standard
+        input) or connect: host:port (a TCP sender, redialled with backoff);
+        framing: glf1 for GLF1 frames. Lost samples are flagged gap.
+
+Exit status: 0 after a signal, 0 when a csv or wav source reaches its end
+(a pcm file too, and after --stop-after), 1 when the simulator stops
+otherwise, a pipe or standard input ends, a source fails or the store cannot
+be opened, 2 for config errors.
 
 Flags:
 `
@@ -130,7 +141,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		return usagef("%s: store.path is required for run", cfg.Path)
 	}
 	if cfg.Source.Kind == "" {
-		return usagef("%s: source is required for run (kind: sim, csv or wav)", cfg.Path)
+		return usagef("%s: source is required for run (kind: %s)", cfg.Path, strings.Join(config.SourceKinds(), ", "))
 	}
 
 	// Sinks first: store, publisher; then the source (STYLE.md §8).
@@ -152,7 +163,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	if err := db.SetLayout(setup); err != nil {
 		return fmt.Errorf("store: %w", err)
 	}
-	db.OutboxCaps(map[store.Class]int{store.ClassTelemetry: 20000, store.ClassEvent: 5000, store.ClassEventWaveform: 200})
+	// The outbox classes' caps are shares of store.max_size_mb (store package: classShare).
 	if need := retentionBytes(setup, ret); need > int64(cfg.Store.MaxSizeMB)<<20*8/10 {
 		log.Warn("retention needs more room than store.max_size_mb: the oldest 3 s values will be trimmed before their retention ends",
 			"needed_mb", need>>20, "max_size_mb", cfg.Store.MaxSizeMB)
@@ -181,6 +192,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	var rate float64
 	var closer io.Closer
 	endIsError := true
+	liveSrc := false // a live source never blocks: full sink queues drop (and flag gap)
 	switch cfg.Source.Kind {
 	case config.SourceSim:
 		rate = cfg.SampleRateHz
@@ -224,8 +236,20 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		}
 		d.source = src
 		endIsError = false
+	case config.SourcePCM:
+		in, isLive, err := openPCMSource(ctx, cfg, len(setup.Channels), log.With("component", "source"))
+		if err != nil {
+			return err
+		}
+		defer func() {
+			if l := in.losses(); l != "" {
+				log.Warn("pcm stream losses", "summary", l)
+			}
+			_ = in.close()
+		}()
+		d.source, rate, endIsError, liveSrc = in.src, cfg.SampleRateHz, isLive, isLive
 	default:
-		return usagef("%s: source.kind %q: allowed are sim, csv, wav", cfg.Path, cfg.Source.Kind)
+		return usagef("%s: source.kind %q: allowed are %s", cfg.Path, cfg.Source.Kind, strings.Join(config.SourceKinds(), ", "))
 	}
 	if closer != nil {
 		defer closer.Close()
@@ -309,6 +333,12 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			tele = append(tele, iv)
 		}
 	}
+	var summ []metrics.Interval
+	for _, l := range cfg.MQTT.Summary {
+		if iv, ok := metrics.ParseInterval(l); ok {
+			summ = append(summ, iv)
+		}
+	}
 	teleQoS := map[metrics.Interval]byte{}
 	for l, q := range cfg.MQTT.TelemetryQoS {
 		if iv, ok := metrics.ParseInterval(l); ok {
@@ -332,14 +362,16 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	}
 	kick := func() {}
 	onStoreErr := func(error) {}
+	var publishHealth func(topic string, payload []byte)
 	if d.pub != nil {
 		kick = d.pub.Kick
+		publishHealth = d.pub.Direct
 		onStoreErr = func(err error) {
 			if err == nil {
 				d.pub.SetProblem("")
 				return
 			}
-			d.pub.SetProblem("store: " + err.Error())
+			d.pub.SetProblem(gateway.ProblemText(err))
 		}
 	}
 	integ, err := startIntegration(cfg, setup, func() live.Health { return daemonHealth(d, db) }, log)
@@ -347,10 +379,10 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		return err
 	}
 	defer integ.Close()
-	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError,
-		Store: db, Alarms: ev, Telemetry: tele, TelemetryQoS: teleQoS, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
+	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError, Live: liveSrc,
+		Store: db, Alarms: ev, Telemetry: tele, TelemetryQoS: teleQoS, Summary: summ, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
 		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("component", "gateway"),
-		OnRecord: integ.onRecord(onRecord), OnTransition: o.onTransition, OnStoreError: onStoreErr, Notice: storeNotice})
+		OnRecord: integ.onRecord(onRecord), OnTransition: o.onTransition, OnStoreError: onStoreErr, Notice: storeNotice, PublishHealth: publishHealth})
 	if err != nil {
 		return err
 	}

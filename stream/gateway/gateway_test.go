@@ -67,7 +67,7 @@ func (r *rig) gateway(t *testing.T, ev *alarm.Evaluator, now func() time.Time, o
 	g, err := New(Config{
 		Pipeline: stream.Config{Setup: r.setup, SampleRate: 6400, NominalHz: 50, Base: t0},
 		Source:   r.src, EndIsError: true, Store: r.db, Alarms: ev,
-		Telemetry: []metrics.Interval{metrics.Int10min}, Base: "gridloupe/test-site/gw1", Site: "test-site", Gateway: "gw1",
+		Telemetry: []metrics.Interval{metrics.Int10min}, Summary: []metrics.Interval{metrics.Int10min}, Base: "gridloupe/test-site/gw1", Site: "test-site", Gateway: "gw1",
 		CommitEvery: 20 * time.Millisecond, Now: now, OnTransition: onT})
 	if err != nil {
 		t.Fatal(err)

@@ -52,13 +52,16 @@ func Fields(s *metrics.Setup) []Field {
 		{"pf", "1", "power_factor_ratio", "True power factor P/S, with the sign of P (total: P/Se).", func(p *metrics.PhaseValues) float64 { return p.PF }},
 		{"dpf", "1", "displacement_power_factor_ratio", "Displacement power factor, with the sign of P (total: P1+/S1+).", func(p *metrics.PhaseValues) float64 { return p.DPF }},
 	}
-	if len(s.Pairs) > 0 {
+	if s.HasTotal() {
 		tot := func(r *metrics.Record) *metrics.PhaseValues {
 			t := &r.Total
 			return &metrics.PhaseValues{P: t.P, Q1: t.Q1, S: t.S, PF: t.PF, DPF: t.DPF}
 		}
 		for _, p := range powers {
 			get := p.get
+			if p.key == "s_va" && s.Wiring == metrics.Delta {
+				continue // no arithmetic sum without phase-to-neutral voltages
+			}
 			add(Field{Key: "total." + p.key, Unit: p.unit, Metric: p.metric, Help: p.help, Phase: "total",
 				Get: func(r *metrics.Record) float64 { return get(tot(r)) }})
 		}

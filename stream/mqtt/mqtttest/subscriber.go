@@ -16,6 +16,7 @@ type Message struct {
 	Topic    string
 	Payload  []byte
 	Retained bool
+	QoS      byte // as delivered: the lower of the publish and the subscription QoS
 }
 
 // Subscriber is an independent MQTT client, as a building management
@@ -41,7 +42,7 @@ func Subscribe(t testing.TB, url, filter string) *Subscriber {
 	o.SetOnConnectHandler(func(c paho.Client) {
 		tok := c.Subscribe(filter, 1, func(_ paho.Client, m paho.Message) {
 			s.mu.Lock()
-			s.msgs = append(s.msgs, Message{m.Topic(), bytes.Clone(m.Payload()), m.Retained()})
+			s.msgs = append(s.msgs, Message{m.Topic(), bytes.Clone(m.Payload()), m.Retained(), m.Qos()})
 			s.mu.Unlock()
 		})
 		if tok.WaitTimeout(15*time.Second) && tok.Error() == nil {

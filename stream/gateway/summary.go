@@ -1,0 +1,20 @@
+package gateway
+
+import (
+	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/store"
+	"github.com/gridloupe/gridloupe/stream/summary"
+)
+
+// levelSummary is the topic level of the slim summaries (DESIGN "Field
+// contract": <base>/summary/<interval>).
+const levelSummary = "summary"
+
+// summaryMessage is the retained QoS 1 summary of record r. Its class is
+// telemetry: while the uplink is down, old summaries are the first to go,
+// and only the newest matters to a retained topic.
+func summaryMessage(base, site, gw string, s *metrics.Setup, r *metrics.Record) store.Message {
+	sm := summary.From(s, r)
+	return store.Message{Class: store.ClassSummary, QoS: 1, Retain: true,
+		Topic: base + "/" + levelSummary + "/" + r.Interval.String(), Payload: sm.AppendJSON(nil, site, gw)}
+}

@@ -1,0 +1,7 @@
+package pcm
+
+import "errors"
+
+// ErrFormat reports a sample format, channel count or frame field the
+// reader cannot use.
+var ErrFormat = errors.New("pcm: unusable format")

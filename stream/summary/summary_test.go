@@ -1,0 +1,137 @@
+package summary
+
+import (
+	"encoding/json"
+	"math"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/gridloupe/gridloupe/metrics"
+)
+
+// maxBytes is the Field contract's bound for a summary message (DESIGN
+// "Building and plant integration": under 1 KB), before the publisher adds
+// "seq" (at most 28 bytes: `"seq":18446744073709551615,`).
+const maxBytes = 1024 - 28
+
+func wye(t *testing.T, il float64) *metrics.Setup {
+	t.Helper()
+	ch := []metrics.Channel{
+		{Name: "va", Kind: metrics.Voltage, Phase: 'a'}, {Name: "vb", Kind: metrics.Voltage, Phase: 'b'}, {Name: "vc", Kind: metrics.Voltage, Phase: 'c'},
+		{Name: "ia", Kind: metrics.Current, Phase: 'a'}, {Name: "ib", Kind: metrics.Current, Phase: 'b'}, {Name: "ic", Kind: metrics.Current, Phase: 'c'},
+		{Name: "in", Kind: metrics.Current, Phase: 'n'},
+	}
+	orders := make([]int, 50)
+	for i := range orders {
+		orders[i] = i + 1
+	}
+	s, err := metrics.NewSetup(metrics.Setup{Channels: ch, Orders: orders, Wiring: metrics.Wye, NominalV: 230, ILA: il, Reference: 0})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return s
+}
+
+// fill sets every figure of r to v.
+func fill(r *metrics.Record, v float64) { fillEach(r, v, v, v, v, v, v) }
+
+// fillEach sets voltages vr, currents ir, powers pw, power factors pf,
+// percentages pct and the frequency f.
+func fillEach(r *metrics.Record, vr, ir, pw, pf, pct, f float64) {
+	for i := range r.Channels {
+		c := &r.Channels[i]
+		c.RMS = ir
+		if i < 3 {
+			c.RMS = vr
+		}
+		c.THDPct, c.THDH50Pct, c.TDDPct, c.TDDH50Pct = pct, pct, pct, pct
+	}
+	for k := range r.Phases {
+		p := &r.Phases[k]
+		p.P, p.Q1, p.PF, p.DPF = pw, pw, pf, pf
+	}
+	t := &r.Total
+	t.P, t.Q1, t.PF, t.DPF, t.Ve, t.Ie = pw, pw, pf, pf, vr, ir
+	r.FreqHz, r.UnbV, r.UnbI = f, pct, pct
+}
+
+// TestSummaryUnder1KB: with every figure at the widest a low-voltage
+// cabinet gives (voltages −9999.9 V, currents −9999.99 A, powers −99 MW,
+// power factors −0.9999, percentages −999.99 %, 69.999 Hz: far beyond
+// what the gateway measures; common practice, no source), every flag set
+// and the North Weir names, the summary of a three-phase four-wire record
+// stays under 1 KB.
+func TestSummaryUnder1KB(t *testing.T) {
+	s := wye(t, 160)
+	r := metrics.NewRecord(s)
+	r.Interval, r.Start, r.DurationS = metrics.Int10min, time.Date(2026, 3, 1, 10, 0, 0, 0, time.UTC), 600
+	fillEach(r, -9999.94321, -9999.994321, -98765432.1, -0.99994321, -999.994321, 69.99943)
+	r.Flags = ^metrics.Flags(0)
+	sm := From(s, r)
+	b := sm.AppendJSON(nil, "north-weir-dc2", "dc2-gw1")
+	if len(b) > maxBytes {
+		t.Errorf("widest summary %d bytes, want at most %d:\n%s", len(b), maxBytes, b)
+	}
+	var m map[string]any
+	if err := json.Unmarshal(b, &m); err != nil {
+		t.Fatalf("not JSON: %v\n%s", err, b)
+	}
+	t.Logf("widest summary: %d bytes", len(b))
+}
+
+// TestSummaryFigures: the figures are the record's, rounded to their
+// stated resolution; THD-V is thd_h50_pct and the current TDD
+// tdd_h50_pct, keyed so; lead/lag follows the sign of Q1 (DESIGN
+// "Conventions of measurement": Q1 positive for a lagging load); the
+// interval's end is start + duration.
+func TestSummaryFigures(t *testing.T) {
+	s := wye(t, 160)
+	r := metrics.NewRecord(s)
+	r.Interval, r.Start, r.DurationS = metrics.Int3s, time.Date(2026, 3, 1, 10, 0, 0, 0, time.UTC), 2.99912109375
+	r.Flags = metrics.FlagPartial
+	fill(r, 1)
+	r.FreqHz = 50.0165743
+	for i := range r.Channels {
+		r.Channels[i].THDPct, r.Channels[i].TDDPct = 99, 98 // must not be shown
+	}
+	r.Channels[0].RMS, r.Channels[0].THDH50Pct = 230.43199357923874, 6.105921021420005
+	r.Channels[3].RMS, r.Channels[3].TDDH50Pct = 138.64021442663415, 33.2873211770465
+	r.Phases[0].P, r.Phases[0].Q1, r.Phases[0].PF, r.Phases[0].DPF = 28675.2499494132, 6669.618067103456, 0.8975842342916237, 0.9740017374894773
+	r.Phases[1].Q1 = -12.5 // leading
+	r.Phases[2].Q1 = metrics.Null()
+	r.UnbV, r.UnbI = 0.02328298750685579, metrics.Null()
+	b := From(s, r).AppendJSON(nil, "north-weir-dc2", "dc2-gw1")
+	for _, want := range []string{
+		`"interval":"3s","end":"2026-03-01T10:00:02.999121Z","flags":["partial"],"freq_hz":50.017`,
+		`"a":{"v_v":230.4,"i_a":138.64,"p_w":28675,"q_var":6670,"pf":0.8976,"dpf":0.974,"v_thd_h50_pct":6.11,"i_tdd_h50_pct":33.29,"lead_lag":"lag"}`,
+		`"lead_lag":"lead"}`, `"lead_lag":null}`,
+		`"unbalance":{"voltage_pct":0.02,"current_pct":null}`,
+	} {
+		if !strings.Contains(string(b), want) {
+			t.Errorf("summary lacks %s:\n%s", want, b)
+		}
+	}
+	if strings.Contains(string(b), ":99") || strings.Contains(string(b), ":98") {
+		t.Errorf("thd_pct or tdd_pct shown instead of the orders 2-50 values:\n%s", b)
+	}
+	var m struct {
+		Total map[string]any `json:"total"`
+	}
+	if err := json.Unmarshal(b, &m); err != nil || m.Total["v_v"] != 1.0 || m.Total["lead_lag"] != "lag" {
+		t.Errorf("total %v (%v)", m.Total, err)
+	}
+	if _, ok := m.Total["v_thd_h50_pct"]; ok {
+		t.Errorf("the total carries a distortion figure: %v", m.Total)
+	}
+	// without il_a the current's figure is its THD, keyed so
+	s2 := wye(t, 0)
+	r2 := metrics.NewRecord(s2)
+	fill(r2, 2)
+	if b := From(s2, r2).AppendJSON(nil, "x", "y"); !strings.Contains(string(b), `"i_thd_h50_pct":2`) || strings.Contains(string(b), "tdd") {
+		t.Errorf("without il_a: %s", b)
+	}
+	if got := string(appendRound(nil, math.Copysign(0, -1), 2)); got != "0" {
+		t.Errorf("negative zero prints %q", got)
+	}
+}
