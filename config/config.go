@@ -96,7 +96,7 @@ func PCMFormats() []string { return []string{"s16le", "s24le", "s32le", "f32le"}
 type Store struct {
 	Path        string                   // database file (resolved against the config's folder); "" = not configured
 	CommitEvery time.Duration            // batch period for aggregates; default 60s
-	MaxSizeMB   int                      // hard cap of the file, MiB; default 512
+	MaxSizeMB   int                      // hard cap of the file, MiB; default 1024 (a week of slim 3 s values with all orders fits beside 400 days of 10 min and 10 years of 2 h values)
 	Retention   map[string]time.Duration // keyed by "3s", "10min", "2h"; defaults 168h, 9600h, 87600h
 	OnDamage    string                   // a damaged file at start: OnDamageSetAside (default) or OnDamageFail
 }

@@ -85,7 +85,7 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 store:
   path: ""                 # bbolt file; "" = not configured
   commit_every: 60s        # aggregates are batched; alarm transitions commit at once; more than 0
-  max_size_mb: 512         # hard cap in MiB, 1..2047 (the whole file is memory-mapped)
+  max_size_mb: 1024        # hard cap in MiB, 1..2047 (the whole file is memory-mapped); 1024 holds the default retention with all orders on 8 channels
   on_damage: set_aside     # a damaged file at start: set_aside (rename it, start fresh, keep measuring) | fail
   retention:               # how long each level is kept; more than 0
     3s: 168h

@@ -31,7 +31,7 @@ const (
 	defaultSite        = "site"
 	defaultLockMinPct  = 10
 	defaultCommitEvery = 60 * time.Second
-	defaultMaxSizeMB   = 512
+	defaultMaxSizeMB   = 1024
 	defaultPrefix      = "gridloupe"
 	defaultLevel       = "10min"
 	defaultSeverity    = "warning"

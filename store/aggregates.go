@@ -138,7 +138,7 @@ func (db *DB) PutBatch(recs []*metrics.Record, msgs []Message) ([]uint64, error)
 			return nil, fmt.Errorf("store: record %d: start %s before 1970: %w", i, r.Start.UTC().Format(time.RFC3339), ErrBadRecord)
 		}
 		var err error
-		if buf, err = encodeRecord(buf, r, lid, s); err != nil {
+		if buf, err = encodeRec(buf, r, lid, s, r.Interval == metrics.Int3s); err != nil {
 			return nil, fmt.Errorf("store: record %d (%s %s): %w", i, r.Interval, r.Start.UTC().Format(time.RFC3339Nano), err)
 		}
 		ends[i] = len(buf)

@@ -11,11 +11,12 @@ import (
 
 // recordVersion is the leading byte of every stored record. Version 2 adds
 // the total's positive-sequence P1⁺ and Q1⁺ (which the 2 h aggregation
-// needs for dpf); version 1 records decode them as null. Version 3 adds
-// crest_factor per channel. The per-channel and per-phase scalars are the
+// needs for dpf); version 1 records decode them as null. Version 3 is the
+// slim 3 s form (codec3s.go). Version 4 (full) and 5 (slim) add
+// crest_factor per channel; versions 1 to 3 decode it as null. The per-channel and per-phase scalars are the
 // stored quantities of metrics/quantity in table order; a quantity whose
 // Since is above a record's version decodes as null.
-const recordVersion = 3
+const recordVersion = 4
 
 // RecordBudget8Ch50 is the byte budget of one stored record with 8 channels,
 // all 50 orders, three phases and both sequence sets (see the package doc).
@@ -54,6 +55,12 @@ func appendPhase(b []byte, deg float64) []byte {
 
 // encodeRecord appends r's compact form (layout s, id lid) to dst.
 func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) ([]byte, error) {
+	return encodeRec(dst, r, lid, s, false)
+}
+
+// encodeRec appends r in the full form (recordVersion) or, with slim, in
+// the slim 3 s form (recordVersionSlim, codec3s.go).
+func encodeRec(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup, slim bool) ([]byte, error) {
 	no := len(s.Orders)
 	if len(r.Channels) != len(s.Channels) {
 		return dst, fmt.Errorf("%d channels, layout has %d: %w", len(r.Channels), len(s.Channels), ErrBadLayout)
@@ -90,7 +97,11 @@ func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) (
 	if deltaTotal {
 		pres |= hasTotal
 	}
-	b := append(dst, recordVersion)
+	ver := byte(recordVersion)
+	if slim {
+		ver = recordVersionSlim
+	}
+	b := append(dst, ver)
 	b = be.AppendUint16(b, lid)
 	b = be.AppendUint64(b, uint64(r.Start.UnixNano()))
 	b = be.AppendUint64(b, math.Float64bits(r.DurationS))
@@ -116,6 +127,10 @@ func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) (
 				b = appendF32(b, *c.Field(id))
 			}
 		}
+		if slim {
+			b = appendSlimHarmonics(b, c.H)
+			continue
+		}
 		for j := range c.H {
 			b = appendF32(b, c.H[j].RMS)
 			b = appendPhase(b, c.H[j].PhaseDeg)
@@ -138,6 +153,9 @@ func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) (
 		}
 	}
 	for _, sq := range [2][]metrics.Seq{r.SeqV, r.SeqI} {
+		if slim && len(sq) > 0 {
+			sq = sq[:1] // the fundamental's only
+		}
 		for j := range sq {
 			b = appendF32(b, sq[j].Pos)
 			b = appendF32(b, sq[j].Neg)
@@ -221,7 +239,7 @@ func recordLayoutID(b []byte) (uint16, error) {
 	if len(b) < 3 {
 		return 0, fmt.Errorf("record of %d bytes: %w", len(b), ErrCorrupt)
 	}
-	if b[0] < 1 || b[0] > recordVersion {
+	if b[0] < 1 || b[0] > recordVersionSlim {
 		return 0, fmt.Errorf("record version %d: %w", b[0], ErrCorrupt)
 	}
 	return be.Uint16(b[1:3]), nil
@@ -264,6 +282,11 @@ func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Rec
 				*c.Field(id) = storedF32(rd, q, b[0])
 			}
 		}
+		if slimForm(b[0]) {
+			rd.slimHarmonics(c.H, s.Orders)
+			fillPct(c, f, s.Channels[i].Kind, s.ILA)
+			continue
+		}
 		for j := range c.H {
 			c.H[j].H = s.Orders[j]
 			c.H[j].RMS = rd.f32()
@@ -302,6 +325,10 @@ func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Rec
 		}
 		sq := make([]metrics.Seq, len(s.Orders))
 		for j := range sq {
+			if slimForm(b[0]) && j > 0 {
+				sq[j] = metrics.Seq{H: s.Orders[j], Pos: nan(), Neg: nan(), Zero: nan()}
+				continue
+			}
 			sq[j] = metrics.Seq{H: s.Orders[j], Pos: rd.f32(), Neg: rd.f32(), Zero: rd.f32()}
 		}
 		*dst = sq

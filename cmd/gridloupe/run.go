@@ -374,7 +374,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			d.pub.SetProblem(gateway.ProblemText(err))
 		}
 	}
-	integ, err := startIntegration(cfg, setup, func() live.Health { return daemonHealth(d, db) }, log)
+	integ, err := startIntegration(cfg, setup, db, base, kick, func() live.Health { return daemonHealth(d, db) }, log)
 	if err != nil {
 		return err
 	}
@@ -382,7 +382,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError, Live: liveSrc,
 		Store: db, Alarms: ev, Telemetry: tele, TelemetryQoS: teleQoS, Summary: summ, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
 		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("component", "gateway"),
-		OnRecord: integ.onRecord(onRecord), OnTransition: o.onTransition, OnStoreError: onStoreErr, Notice: storeNotice, PublishHealth: publishHealth})
+		OnRecord: integ.onRecord(onRecord), OnWindow: integ.onWindow, OnTransition: o.onTransition, OnStoreError: onStoreErr, Notice: storeNotice, PublishHealth: publishHealth})
 	if err != nil {
 		return err
 	}
@@ -518,12 +518,11 @@ func writeHeapProfile(log *slog.Logger) {
 // retentionBytes estimates the store size the retention periods need:
 // records per level × the encoded record size.
 func retentionBytes(s *metrics.Setup, ret map[metrics.Interval]time.Duration) int64 {
-	per := int64(store.RecordBytes(s))
 	var n int64
 	for iv, d := range map[metrics.Interval]time.Duration{metrics.Int3s: 3 * time.Second,
 		metrics.Int10min: 10 * time.Minute, metrics.Int2h: 2 * time.Hour} {
 		if r := ret[iv]; r > 0 {
-			n += int64(r/d) * per
+			n += int64(r/d) * int64(store.RecordBytesAt(s, iv)) // the 3 s level is stored slim
 		}
 	}
 	return n

@@ -103,7 +103,7 @@ var channelTable = [NumChannel]Q{
 	THDH50:      {Name: "thd_h50_pct", Unit: "%", Doc: "THD over orders 2..50", Agg: Derived, Out: JSON | CSV | Store, Need: AllOrders, Alarm: true, Since: 1},
 	TDD:         {Name: "tdd_pct", Unit: "% of IL", Doc: "TDD, everything but DC and the fundamental", Agg: Derived, Out: JSON | CSV | Store, Need: Current | IL, Alarm: true, Since: 1},
 	TDDH50:      {Name: "tdd_h50_pct", Unit: "% of IL", Doc: "TDD over orders 2..50", Agg: Derived, Out: JSON | CSV | Store, Need: AllOrders | Current | IL, Alarm: true, Since: 1},
-	CrestFactor: {Name: "crest_factor", Unit: "ratio", Doc: "peak |x| over RMS in the window; intervals keep the largest", Agg: Max, Out: JSON | CSV | Wide | Store, Alarm: true, Since: 3, Short: "CF"},
+	CrestFactor: {Name: "crest_factor", Unit: "ratio", Doc: "peak |x| over RMS in the window; intervals keep the largest", Agg: Max, Out: JSON | CSV | Wide | Store, Alarm: true, Since: 4, Short: "CF"},
 }
 
 var phaseTable = [NumPhase]Q{

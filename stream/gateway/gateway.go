@@ -56,6 +56,10 @@ type Config struct {
 	// They must not keep the record.
 	OnRecord     func(r *metrics.Record, active []string)
 	OnTransition func(t alarm.Transition)
+	// OnWindow is called on the measurement goroutine with each window
+	// record (energy integration); it must not block, allocate or keep
+	// the record. nil = none.
+	OnWindow func(r *metrics.Record)
 	// OnStoreError is called when a store write fails (the daemon puts it
 	// in its MQTT status), and with nil when writes succeed again;
 	// measurement goes on either way.
@@ -223,6 +227,9 @@ func (g *Gateway) Run(ctx context.Context) error {
 	}
 	runErr := p.Run(ctx, g.cfg.Source, func(r *metrics.Record) error {
 		g.windows.Add(1)
+		if g.cfg.OnWindow != nil {
+			g.cfg.OnWindow(r)
+		}
 		return iv.Add(r, send)
 	})
 	if err := iv.Flush(send); err != nil && runErr == nil {
