@@ -64,10 +64,8 @@ func (c *CSV) Header() []string {
 	}
 	for _, pr := range s.Pairs {
 		p := "phase." + string(pr.Phase) + "."
-		for _, q := range quantity.Phases() {
-			if q.Out&quantity.CSV != 0 {
-				h = append(h, p+q.Name)
-			}
+		for _, k := range phaseKeys {
+			h = append(h, p+k)
 		}
 	}
 	if s.HasTotal() {
@@ -97,10 +95,12 @@ func (c *CSV) Header() []string {
 	if c.seqI {
 		h = append(h, "unbalance.current_pct")
 	}
-	return h
+	return csvCircuitHeader(h, s)
 }
 
 var (
+	// phaseKeys: the per-phase CSV keys, from metrics/quantity's table (read-only).
+	phaseKeys = phaseCSVKeys()
 	totalKeys = [...]string{"p_w", "q_var", "s_va", "se_va", "se1_va", "ve_v", "ie_a", "pf", "dpf"}
 	seqSides  = [2]string{"voltage", "current"}
 )
@@ -248,6 +248,7 @@ func (c *CSV) appendRow(b []byte, r *metrics.Record) []byte {
 	if c.seqI {
 		b = cell(b, r.UnbI)
 	}
+	b = appendCSVCircuits(b, s, r)
 	return append(b, '\n')
 }
 
@@ -265,4 +266,15 @@ func appendCSVField(b []byte, f string) []byte {
 		b = append(b, f[i])
 	}
 	return append(b, '"')
+}
+
+// phaseCSVKeys lists the per-phase quantities the CSV writer prints.
+func phaseCSVKeys() []string {
+	var out []string
+	for _, q := range quantity.Phases() {
+		if q.Out&quantity.CSV != 0 {
+			out = append(out, q.Name)
+		}
+	}
+	return out
 }
