@@ -50,7 +50,7 @@ func TestParseGood(t *testing.T) {
 					Nominal: Nominal{FrequencyHz: 50, VoltageV: 230}, Wiring: "wye", Reference: "va",
 					Harmonics: Harmonics{All: true, Orders: allOrders()}, LockMinPct: 10,
 					Channels: []Channel{{Name: "va", Kind: "voltage", Phase: "a", Scale: 1, Line: 3, Level: "va"}},
-					Store: Store{CommitEvery: 60 * time.Second, MaxSizeMB: 512, Retention: map[string]time.Duration{
+					Store: Store{CommitEvery: 60 * time.Second, MaxSizeMB: 1024, Retention: map[string]time.Duration{
 						"3s": 168 * time.Hour, "10min": 9600 * time.Hour, "2h": 87600 * time.Hour}, OnDamage: "set_aside"},
 					MQTT: MQTT{ClientID: "dc2-gw1", TopicPrefix: "gridloupe", Telemetry: []string{"10min"}, Summary: []string{"10min"},
 						TelemetryQoS: map[string]int{"3s": 1, "10min": 1, "2h": 1}, // README, MQTT: QoS 1 by default
@@ -96,7 +96,7 @@ func TestParseGood(t *testing.T) {
 			}},
 		{name: "empty values take defaults", doc: hdr1 + "site:\nwiring: ~\nstore:\nmqtt:\n  telemetry:\n", src: "Defaults(): an empty value is the same as a missing key",
 			check: func(t *testing.T, c *Config) {
-				if c.Site != "site" || c.Wiring != "wye" || !slices.Equal(c.MQTT.Telemetry, []string{"10min"}) || c.Store.MaxSizeMB != 512 {
+				if c.Site != "site" || c.Wiring != "wye" || !slices.Equal(c.MQTT.Telemetry, []string{"10min"}) || c.Store.MaxSizeMB != 1024 {
 					t.Errorf("defaults not applied: %+v", c)
 				}
 			}},
@@ -321,7 +321,7 @@ func TestSchemaCoverage(t *testing.T) {
 	t.Parallel()
 	index := regexp.MustCompile(`\[\d+\]`)
 	seen := map[string]bool{}
-	for _, f := range []string{"full.yaml", "larkfield.yaml", "pcm-tcp.yaml", "iio.yaml"} {
+	for _, f := range []string{"full.yaml", "larkfield.yaml", "pcm-tcp.yaml", "circuits.yaml", "iio.yaml"} {
 		data, err := os.ReadFile(filepath.Join("testdata", f))
 		if err != nil {
 			t.Fatal(err)

@@ -39,13 +39,18 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 #     scale: 1.0           # engineering value = raw x scale + offset; never 0
 #     offset: 0.0
 #     full_scale: 0        # engineering units, enables the clipped flag; 0 = none
-#     delay_us: 0          # sampling skew or sensor lag to correct, microseconds (less than one cycle)
+#     delay_us: 0          # time the channel's sample lags the frame instant, microseconds (+ = sampled late; a sensor lagging by 40 µs is -40)
 #     iio: ""              # iio source, required there: the scan element, e.g. voltage0
 #     comtrade: 0          # COMTRADE input: 1-based analog channel index; 0 = match name to the channel id (case-insensitive)
 # single-phase: one voltage on phase a, currents on a (and n).
 # wye: voltages on a, b, c; each phase with a current needs its voltage.
 # delta: line-to-line voltages; currents on two phases (the two-wattmeter hook-up:
 #   ab and cb with CTs on a and c, the third current computed) or on all three; no n.
+
+# circuits:                # several circuits on one bus; default: none (the currents form one circuit)
+#   - name: incomer        # required, unique; records carry circuits.<name>.phases and .total
+#     currents: [ia, ib, ic]  # required: its current channels; with circuits every current is in one
+#     il_a: 480            # this circuit's IL for TDD and pct_il; 0 = the top-level il_a
 
 # source:                  # daemon input; default: none (replay names its input on the command line)
 #   kind: sim              # required in a source: sim | csv | wav | pcm | comtrade | iio
@@ -64,7 +69,7 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 store:
   path: ""                 # bbolt file; "" = not configured
   commit_every: 60s        # aggregates are batched; alarm transitions commit at once; more than 0
-  max_size_mb: 512         # hard cap in MiB, 1..2047 (the whole file is memory-mapped)
+  max_size_mb: 1024        # hard cap in MiB, 1..2047 (the whole file is memory-mapped); 1024 holds the default retention with all orders on 8 channels
   on_damage: set_aside     # a damaged file at start: set_aside (rename it, start fresh, keep measuring) | fail
   retention:               # how long each level is kept; more than 0
     3s: 168h
@@ -95,6 +100,7 @@ alarms: []
 #                                  # (h50: needs harmonics: all; tdd and pct_il: need il_a)
 #     channel: ia                  # per-channel metrics: a configured channel
 #     phase: total                 # pf and dpf: a | b | c | total (default total)
+#     circuit: drive1              # pf and dpf with circuits: required, the circuit watched
 #     harmonic: 5                  # pct and pct_il only: the order, 2..50, among those computed
 #     level: 10min                 # 200ms | 3s | 10min | 2h (default 10min)
 #     above: 8.0                   # exactly one of above or below, in the metric's units

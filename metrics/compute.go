@@ -69,16 +69,18 @@ func (w *window) bad(ci int) bool {
 	return c.Bad || c.N <= 0 || len(c.Phasors) < len(w.s.Orders)
 }
 
-// ph returns channel ci's phasor of order index k after delay correction: a
-// channel that reads the signal late by τ (sampling skew, sensor lag) shows
-// order h at a phase h·ω·τ too low, so it is rotated by +h·ω·τ.
+// ph returns channel ci's phasor of order index k after delay correction.
+// DelayS is the time τ by which the channel's sample lags the frame instant
+// (positive: the sample is taken late). A late sample reads x(t + τ), which
+// shows order h at a phase h·ω·τ too high, so it is rotated by −h·ω·τ. A
+// sensor whose output lags its input by τ reads x(t − τ): its DelayS is −τ.
 func (w *window) ph(ci, k int) complex128 {
 	x := w.in.Ch[ci].Phasors[k]
 	d := w.s.Channels[ci].DelayS
 	if d == 0 || w.w == 0 {
 		return x
 	}
-	return x * cmplx.Rect(1, float64(w.s.Orders[k])*w.w*d)
+	return x * cmplx.Rect(1, -float64(w.s.Orders[k])*w.w*d)
 }
 
 // ms returns channel ci's mean square Σx²/N and mean Σx/N.
@@ -167,6 +169,9 @@ func Compute(s *Setup, in *Input, out *Record) {
 	w.total(out)
 	w.sequence(out)
 	out.Flags = w.flags
+	if len(s.Circuits) > 0 {
+		computeCircuits(s, in, out)
+	}
 }
 
 // channel fills one channel's values.
@@ -208,10 +213,7 @@ func (w *window) channel(ci int, cv *ChannelValues, refOK bool, thRef float64) {
 		}
 	}
 	// TDD (IEEE 519): the same distortion relative to IL.
-	il := 0.0
-	if s.Channels[ci].Kind == Current {
-		il = s.ILA
-	}
+	il := s.IL(ci)
 	cv.TDDPct, cv.TDDH50Pct = Null(), Null()
 	if il > 0 {
 		cv.TDDPct = w.def(100 * math.Sqrt(rest) / il)
@@ -566,4 +568,9 @@ func nullRecord(r *Record) {
 	nullSeq(r.SeqV)
 	nullSeq(r.SeqI)
 	r.UnbV, r.UnbI = Null(), Null()
+	for _, c := range r.Circuits {
+		if c.Rec != nil {
+			nullRecord(c.Rec)
+		}
+	}
 }

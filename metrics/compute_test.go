@@ -485,7 +485,8 @@ func TestDelayCorrection(t *testing.T) {
 		correct bool
 		src     string
 	}{
-		{"corrected", tau, 0.8, wantP, true, "closed form P = Σ Vh·Ih·cos φh (IEEE 1459-2010, from memory); DPF = cos 36.87°"},
+		{"corrected", -tau, 0.8, wantP, true, "closed form P = Σ Vh·Ih·cos φh (IEEE 1459-2010, from memory); DPF = cos 36.87° (a sensor lag is a negative delay: README delay_us)"},
+		{"wrong sign", tau, math.Cos(phi1 + 2*delta), 0, false, "closed form: the wrong sign doubles the 3.6° error"},
 		{"uncorrected", 0, math.Cos(phi1 + delta), 0, false, "closed form: lag adds ωτ = 3.6° to the angle"},
 	}
 	for _, c := range cases {

@@ -2,13 +2,11 @@ package store
 
 import (
 	"bytes"
-	"errors"
 	"fmt"
 	"math"
 	"time"
 
 	bolt "go.etcd.io/bbolt"
-	berrors "go.etcd.io/bbolt/errors"
 
 	"github.com/gridloupe/gridloupe/metrics"
 )
@@ -98,50 +96,58 @@ func (db *DB) layoutByID(id uint16) *metrics.Setup {
 	return db.layouts[id]
 }
 
-// PutAggregates stores a batch of records in one transaction. Each record
-// goes to its level's bucket under (start, new sequence number), so no
-// record ever replaces another. When the file's in-use space would pass
-// 90 % of what MaxSizeMB allows, the oldest records of the finest level are
-// deleted first (see Prune).
+// PutAggregates stores a batch of records in one transaction; it is
+// PutBatch without messages.
 func (db *DB) PutAggregates(recs []*metrics.Record) error {
-	if len(recs) == 0 {
-		return nil
+	_, err := db.PutBatch(recs, nil)
+	return err
+}
+
+// PutBatch stores a batch of records and queues msgs (their telemetry, for
+// one) in ONE transaction, so that after a crash the file holds both or
+// neither: no stored record lacks its queued message. Each record goes to
+// its level's bucket under (start, new sequence number), so no record ever
+// replaces another; messages get their sequence numbers as in Enqueue,
+// which are returned. When the file's in-use space would pass 90 % of what
+// MaxSizeMB allows, the oldest data goes first in the documented order
+// (see sacrifice).
+func (db *DB) PutBatch(recs []*metrics.Record, msgs []Message) ([]uint64, error) {
+	if len(recs) == 0 && len(msgs) == 0 {
+		return nil, nil
 	}
 	if err := db.beginWrite(); err != nil {
-		return err
+		return nil, err
 	}
 	defer db.wmu.Unlock()
 	db.mu.Lock()
 	lid, s := db.curID, db.layouts[db.curID]
 	db.mu.Unlock()
-	if s == nil {
-		return ErrNoLayout
+	if s == nil && len(recs) > 0 {
+		return nil, ErrNoLayout
 	}
 	ends := make([]int, len(recs))
 	buf := db.buf[:0]
 	for i, r := range recs {
 		if r == nil {
-			return fmt.Errorf("store: record %d is nil: %w", i, ErrBadRecord)
+			return nil, fmt.Errorf("store: record %d is nil: %w", i, ErrBadRecord)
 		}
 		if _, err := levelBucket(r.Interval); err != nil {
-			return fmt.Errorf("store: record %d: %w", i, err)
+			return nil, fmt.Errorf("store: record %d: %w", i, err)
 		}
 		if r.Start.UnixNano() < 0 {
-			return fmt.Errorf("store: record %d: start %s before 1970: %w", i, r.Start.UTC().Format(time.RFC3339), ErrBadRecord)
+			return nil, fmt.Errorf("store: record %d: start %s before 1970: %w", i, r.Start.UTC().Format(time.RFC3339), ErrBadRecord)
 		}
 		var err error
-		if buf, err = encodeRecord(buf, r, lid, s); err != nil {
-			return fmt.Errorf("store: record %d (%s %s): %w", i, r.Interval, r.Start.UTC().Format(time.RFC3339Nano), err)
+		if buf, err = encodeRec(buf, r, lid, s, r.Interval == metrics.Int3s); err != nil {
+			return nil, fmt.Errorf("store: record %d (%s %s): %w", i, r.Interval, r.Start.UTC().Format(time.RFC3339Nano), err)
 		}
 		ends[i] = len(buf)
 	}
 	db.buf = buf
-	add := int64(len(buf) + len(recs)*(16+leafElemOverhead))
-	if err := db.makeRoom(add); err != nil {
-		return err
-	}
+	add := int64(len(buf)+len(recs)*(16+leafElemOverhead)) + msgSize(msgs)
 	keys := make([]byte, 0, 16*len(recs))
-	put := func(tx *bolt.Tx) error {
+	seqs := make([]uint64, len(msgs))
+	err := db.updateOutbox(add, func(tx *bolt.Tx, ot *outboxTx) error {
 		keys = keys[:0]
 		meta := tx.Bucket(bktMeta)
 		var bk [len(levels) + 1]*bolt.Bucket
@@ -163,18 +169,21 @@ func (db *DB) PutAggregates(recs []*metrics.Record) error {
 			}
 			begin = ends[i]
 		}
-		return nil
-	}
-	err := db.update(put)
-	if errors.Is(err, berrors.ErrMaxSizeReached) {
-		db.log.Warn("size cap reached during write; trimming", "err", err)
-		if terr := db.trim(int64(trimLow*float64(db.usable)) - add); terr != nil {
-			return fmt.Errorf("store: put %d records: %w", len(recs), errors.Join(err, terr))
+		if db.hookMidBatch != nil {
+			db.hookMidBatch()
 		}
-		err = db.update(put)
-	}
+		for i := range msgs {
+			m := msgs[i]
+			seq, err := db.enqueueTx(tx, &m, ot)
+			if err != nil {
+				return fmt.Errorf("message %d: %w", i, err)
+			}
+			seqs[i] = seq
+		}
+		return nil
+	})
 	if err != nil {
-		return fmt.Errorf("store: put %d records: %w", len(recs), err)
+		return nil, fmt.Errorf("store: put %d records and %d messages: %w", len(recs), len(msgs), err)
 	}
 	if now := time.Now(); now.Sub(db.lastRelease) >= db.releaseEvery || now.Before(db.lastRelease) {
 		db.lastRelease = now
@@ -185,7 +194,7 @@ func (db *DB) PutAggregates(recs []*metrics.Record) error {
 		db.counts[r.Interval]++
 	}
 	db.mu.Unlock()
-	return nil
+	return seqs, nil
 }
 
 // maxNanoTime is the last instant UnixNano represents (year 2262); bounds
@@ -331,7 +340,7 @@ func (db *DB) Prune(now time.Time) (deleted int, err error) {
 		}
 		cutoff := now.Add(-d).UnixNano()
 		for {
-			n, err := db.deleteOldest(l, maxDeletesPerTx, func(k, _ []byte) bool { return keyStart(k) < cutoff })
+			n, err := db.deleteOldest(l, maxDeletesPerTx, func(k, _ []byte) bool { return keyStart(k) < cutoff }, false)
 			deleted += n
 			if err != nil {
 				return deleted, fmt.Errorf("store: prune %s: %w", l, err)
@@ -362,11 +371,13 @@ func (db *DB) totalCount() int {
 }
 
 // deleteOldest deletes up to limit records of level l from the oldest while
-// ok(k, v) holds, in one transaction.
-func (db *DB) deleteOldest(l metrics.Interval, limit int, ok func(k, v []byte) bool) (int, error) {
+// ok(k, v) holds, in one transaction. With lost (the size cap), they are
+// counted and persisted as lost records; retention's deletions are not.
+func (db *DB) deleteOldest(l metrics.Interval, limit int, ok func(k, v []byte) bool, lost bool) (int, error) {
 	n := 0
+	var ot outboxTx
 	err := db.update(func(tx *bolt.Tx) error {
-		n = 0
+		n, ot = 0, outboxTx{}
 		c := tx.Bucket([]byte(l.String())).Cursor()
 		for k, v := c.First(); k != nil && n < limit && ok(k, v); k, v = c.First() {
 			if err := c.Delete(); err != nil {
@@ -374,11 +385,16 @@ func (db *DB) deleteOldest(l metrics.Interval, limit int, ok func(k, v []byte) b
 			}
 			n++
 		}
-		return nil
+		if !lost {
+			return nil
+		}
+		ot.lostRecs[l-metrics.Int3s] = uint64(n)
+		return db.persistLosses(tx, &ot)
 	})
 	if err != nil {
 		return 0, err
 	}
+	db.commitOutbox(&ot)
 	db.mu.Lock()
 	db.counts[l] -= n
 	db.mu.Unlock()
@@ -402,9 +418,29 @@ func (db *DB) makeRoom(add int64) error {
 	return db.trim(int64(trimLow*float64(db.usable)) - add)
 }
 
-// trim deletes the oldest data in the drop order (3s, 10min, 2h records,
-// then outbox telemetry, event waveforms, events, alarms) until the in-use
-// space is at most target bytes. The caller holds wmu.
+// victim is one kind of data the size cap may delete: an outbox class's
+// messages, or a level's records.
+type victim struct {
+	class Class
+	level metrics.Interval // 0 = the class
+}
+
+// sacrifice is the order in which the size cap gives data up (README, The
+// store): queued 3 s telemetry (and superseded summaries), then queued
+// 10 min and 2 h telemetry and event waveforms, then the oldest 3 s records,
+// then events, and last the 10 min and 2 h history and the alarm messages.
+var sacrifice = [...]victim{
+	{class: ClassSummary}, {class: ClassTelemetry},
+	{class: ClassTelemetryCoarse}, {class: ClassEventWaveform},
+	{level: metrics.Int3s},
+	{class: ClassEvent},
+	{level: metrics.Int10min}, {level: metrics.Int2h},
+	{class: ClassAlarm},
+}
+
+// trim deletes the oldest data in the order of sacrifice until the in-use
+// space is at most target bytes; every record and message deleted is
+// counted and persisted as a loss. The caller holds wmu.
 func (db *DB) trim(target int64) error {
 	target = max(target, 0)
 	db.mu.Lock()
@@ -430,29 +466,21 @@ func (db *DB) trim(target int64) error {
 			freed += int64(float64(fp) / fillPercent)
 			return true
 		}
-		// Finest level first; a level that hit the per-transaction limit
-		// ends the round, so a coarser level is only touched once the finer
-		// ones are empty.
-		for _, l := range levels {
-			n, err := db.deleteOldest(l, maxDeletesPerTx, est)
+		// In order; a victim that hit the per-transaction limit ends the
+		// round, so a later one is only touched once the earlier ones are empty.
+		for _, v := range sacrifice {
+			var n int
+			var err error
+			if v.level != 0 {
+				n, err = db.deleteOldest(v.level, maxDeletesPerTx, est, true)
+			} else {
+				n, err = db.dropOldest(v.class, maxDeletesPerTx, est)
+			}
 			deleted += n
 			if err != nil {
-				return fmt.Errorf("store: trim %s: %w", l, err)
+				return fmt.Errorf("store: trim: %w", err)
 			}
 			if n == maxDeletesPerTx || freed >= need {
-				break
-			}
-		}
-		for _, c := range dropOrder {
-			if freed >= need || deleted >= maxDeletesPerTx {
-				break
-			}
-			n, err := db.dropOldest(c, maxDeletesPerTx, est)
-			deleted += n
-			if err != nil {
-				return fmt.Errorf("store: trim outbox: %w", err)
-			}
-			if n == maxDeletesPerTx {
 				break
 			}
 		}

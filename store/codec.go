@@ -50,6 +50,12 @@ func appendPhase(b []byte, deg float64) []byte {
 
 // encodeRecord appends r's compact form (layout s, id lid) to dst.
 func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) ([]byte, error) {
+	return encodeRec(dst, r, lid, s, false)
+}
+
+// encodeRec appends r in the full form (recordVersion) or, with slim, in
+// the slim 3 s form (recordVersionSlim, codec3s.go).
+func encodeRec(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup, slim bool) ([]byte, error) {
 	no := len(s.Orders)
 	if len(r.Channels) != len(s.Channels) {
 		return dst, fmt.Errorf("%d channels, layout has %d: %w", len(r.Channels), len(s.Channels), ErrBadLayout)
@@ -86,7 +92,11 @@ func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) (
 	if deltaTotal {
 		pres |= hasTotal
 	}
-	b := append(dst, recordVersion)
+	ver := byte(recordVersion)
+	if slim {
+		ver = recordVersionSlim
+	}
+	b := append(dst, ver)
 	b = be.AppendUint16(b, lid)
 	b = be.AppendUint64(b, uint64(r.Start.UnixNano()))
 	b = be.AppendUint64(b, math.Float64bits(r.DurationS))
@@ -113,6 +123,10 @@ func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) (
 		b = appendF32(b, c.THDH50Pct)
 		b = appendF32(b, c.TDDPct)
 		b = appendF32(b, c.TDDH50Pct)
+		if slim {
+			b = appendSlimHarmonics(b, c.H)
+			continue
+		}
 		for j := range c.H {
 			b = appendF32(b, c.H[j].RMS)
 			b = appendPhase(b, c.H[j].PhaseDeg)
@@ -133,6 +147,9 @@ func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) (
 		}
 	}
 	for _, sq := range [2][]metrics.Seq{r.SeqV, r.SeqI} {
+		if slim && len(sq) > 0 {
+			sq = sq[:1] // the fundamental's only
+		}
 		for j := range sq {
 			b = appendF32(b, sq[j].Pos)
 			b = appendF32(b, sq[j].Neg)
@@ -141,7 +158,7 @@ func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) (
 	}
 	b = appendF32(b, r.UnbV)
 	b = appendF32(b, r.UnbI)
-	return b, nil
+	return appendCircuits(b, r, s)
 }
 
 // reader consumes a byte slice; the first short read sets err and later reads return zero.
@@ -216,7 +233,7 @@ func recordLayoutID(b []byte) (uint16, error) {
 	if len(b) < 3 {
 		return 0, fmt.Errorf("record of %d bytes: %w", len(b), ErrCorrupt)
 	}
-	if b[0] != recordVersion && b[0] != 1 {
+	if b[0] != recordVersion && b[0] != 1 && b[0] != recordVersionSlim {
 		return 0, fmt.Errorf("record version %d: %w", b[0], ErrCorrupt)
 	}
 	return be.Uint16(b[1:3]), nil
@@ -255,12 +272,17 @@ func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Rec
 		c := &r.Channels[i]
 		f := rd.u8()
 		c.RMS, c.DC, c.THDPct, c.THDH50Pct, c.TDDPct, c.TDDH50Pct = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
+		if b[0] == recordVersionSlim {
+			rd.slimHarmonics(c.H, s.Orders)
+			fillPct(c, f, s.Channels[i].Kind, s.ILA)
+			continue
+		}
 		for j := range c.H {
 			c.H[j].H = s.Orders[j]
 			c.H[j].RMS = rd.f32()
 			c.H[j].PhaseDeg = rd.phase()
 		}
-		fillPct(c, f, s.Channels[i].Kind, s.ILA)
+		fillPct(c, f, s.Channels[i].Kind, s.IL(i))
 	}
 	np := int(rd.u8())
 	if np > 3 {
@@ -290,12 +312,19 @@ func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Rec
 		}
 		sq := make([]metrics.Seq, len(s.Orders))
 		for j := range sq {
+			if b[0] == recordVersionSlim && j > 0 {
+				sq[j] = metrics.Seq{H: s.Orders[j], Pos: nan(), Neg: nan(), Zero: nan()}
+				continue
+			}
 			sq[j] = metrics.Seq{H: s.Orders[j], Pos: rd.f32(), Neg: rd.f32(), Zero: rd.f32()}
 		}
 		*dst = sq
 	}
 	r.UnbV = rd.f32()
 	r.UnbI = rd.f32()
+	if err := readCircuits(rd, r, s); err != nil {
+		return nil, err
+	}
 	if rd.err != nil {
 		return nil, rd.err
 	}
@@ -342,5 +371,9 @@ func RecordBytes(s *metrics.Setup) int {
 			n += nord * 3 * 4
 		}
 	}
-	return n + 2*4 + 16 + leafElemOverhead
+	n += 2 * 4
+	for _, c := range s.Circuits {
+		n += circuitBytes(c.Sub)
+	}
+	return n + 16 + leafElemOverhead
 }

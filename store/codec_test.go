@@ -171,7 +171,7 @@ func FuzzDecode(f *testing.F) {
 	for i := range 4 {
 		r := newRecord(s)
 		fillRecord(r, s, rng, t0, i%2 == 0)
-		b, err := encodeRecord(nil, r, 1, s)
+		b, err := encodeRec(nil, r, 1, s, i >= 2) // two full, two slim (codec3s.go)
 		if err != nil {
 			f.Fatal(err)
 		}

@@ -9,25 +9,40 @@ import (
 
 	bolt "go.etcd.io/bbolt"
 	berrors "go.etcd.io/bbolt/errors"
+
+	"github.com/gridloupe/gridloupe/metrics"
 )
 
-// Class is an outbox message class; it decides what a cap drops first.
+// Class is an outbox message class; it decides what a cap drops first
+// (see sacrifice) and how much of the file its queue may fill (classShare).
 type Class uint8
 
-// Message classes. Under a cap, telemetry is dropped first, then event
-// waveforms, then the oldest events; alarms only when the whole store is full.
+// Message classes. The numbers are only in memory (buckets and counters are
+// stored under the names), so a class may be added anywhere before
+// numClasses.
 const (
-	ClassTelemetry Class = iota
-	ClassEventWaveform
-	ClassEvent
-	ClassAlarm
+	ClassTelemetry       Class = iota // 3 s telemetry (the finest level published)
+	ClassEventWaveform                // an event's waveform
+	ClassEvent                        // an event's summary
+	ClassAlarm                        // alarm transitions: given up last
+	ClassTelemetryCoarse              // 10 min and 2 h telemetry
+	ClassSummary                      // small retained summaries: each supersedes the one before
 	numClasses
 )
 
-// dropOrder is the order in which the size cap drops outbox messages.
-var dropOrder = [...]Class{ClassTelemetry, ClassEventWaveform, ClassEvent, ClassAlarm}
+var classNames = [...]string{"telemetry", "event_waveform", "event", "alarm", "telemetry_coarse", "summary"}
 
-var classNames = [...]string{"telemetry", "event_waveform", "event", "alarm"}
+// classShare is the most of the usable file (see usableBytes) each class's
+// queue may hold; the oldest messages beyond it are dropped and counted as
+// they are queued. The shares leave well over half the file to the records.
+// Alarms have none: they go only when the whole file is full (sacrifice).
+var classShare = [numClasses]float64{
+	ClassTelemetry:       0.10,
+	ClassEventWaveform:   0.10,
+	ClassEvent:           0.03,
+	ClassTelemetryCoarse: 0.05,
+	ClassSummary:         0.01,
+}
 
 // String returns the class name used in loss counters.
 func (c Class) String() string {
@@ -40,6 +55,8 @@ func (c Class) String() string {
 func classBucket(c Class) []byte { return []byte("outbox_" + c.String()) }
 
 func lossKey(c Class) []byte { return []byte("loss_" + c.String()) }
+
+func lostRecordsKey(l metrics.Interval) []byte { return []byte("lost_records_" + l.String()) }
 
 // maxTopicLen is MQTT's limit on a topic's UTF-8 length.
 const maxTopicLen = 65535
@@ -125,11 +142,18 @@ func decodeMessage(seq uint64, c Class, v []byte) (Message, error) {
 	return m, nil
 }
 
-// outboxTx collects one transaction's outbox changes, applied to memory on commit.
+// outboxTx collects one transaction's changes to the outbox and the loss
+// counters, applied to memory on commit.
 type outboxTx struct {
-	added  [numClasses]int
-	losses [numClasses]uint64
+	added      [numClasses]int
+	addedBytes [numClasses]int64
+	losses     [numClasses]uint64
+	lostRecs   [len(levels)]uint64
+	persisted  bool // persistLosses ran: the counters in memory are on disk with this commit
 }
+
+// entryBytes is what one key and value take in a leaf page, roughly.
+func entryBytes(k, v []byte) int64 { return int64(len(k) + len(v) + leafElemOverhead) }
 
 // enqueueTx stores m under a new sequence number.
 func (db *DB) enqueueTx(tx *bolt.Tx, m *Message, ot *outboxTx) (uint64, error) {
@@ -146,59 +170,99 @@ func (db *DB) enqueueTx(tx *bolt.Tx, m *Message, ot *outboxTx) (uint64, error) {
 	}
 	b := tx.Bucket(classBucket(m.Class))
 	b.FillPercent = fillPercent
-	if err := b.Put(be.AppendUint64(nil, seq), v); err != nil {
+	k := be.AppendUint64(nil, seq)
+	if err := b.Put(k, v); err != nil {
 		return 0, err
 	}
 	ot.added[m.Class]++
+	ot.addedBytes[m.Class] += entryBytes(k, v)
 	return seq, nil
 }
 
-// capTx applies the per-class caps inside tx. Alarms are not capped.
+// capTx applies the per-class caps inside tx: the byte share of the usable
+// file (classShare) and any message-count cap (OutboxCaps). Alarms are not
+// capped. It then persists the loss counters.
 func (db *DB) capTx(tx *bolt.Tx, ot *outboxTx) error {
 	db.mu.Lock()
-	caps, have := db.caps, db.outboxN
+	caps, have, haveBytes := db.caps, db.outboxN, db.outboxBytes
 	db.mu.Unlock()
-	for c := range ClassAlarm {
-		limit, ok := caps[c]
-		over := have[c] + ot.added[c] - limit
-		if !ok || limit <= 0 || over <= 0 {
+	for c := range numClasses {
+		if c == ClassAlarm {
 			continue
 		}
-		n, err := dropTx(tx, c, over, nil)
+		over := 0
+		if limit, ok := caps[c]; ok && limit > 0 {
+			over = max(over, have[c]+ot.added[c]-limit)
+		}
+		byteCap := int64(classShare[c] * float64(db.usable))
+		excess := haveBytes[c] + ot.addedBytes[c] - byteCap
+		if over <= 0 && (byteCap <= 0 || excess <= 0) {
+			continue
+		}
+		freed := int64(0)
+		n, err := dropTx(tx, c, maxInt32, func(k, v []byte) bool {
+			if over > 0 {
+				over--
+				freed += entryBytes(k, v)
+				return true
+			}
+			if byteCap > 0 && freed < excess {
+				freed += entryBytes(k, v)
+				return true
+			}
+			return false
+		}, ot)
 		if err != nil {
 			return err
 		}
-		ot.added[c] -= n
-		ot.losses[c] += uint64(n)
+		_ = n
 	}
-	return persistLosses(tx, db, ot)
+	return db.persistLosses(tx, ot)
 }
 
-// dropTx deletes up to limit of class c's oldest messages while ok holds (nil = always).
-func dropTx(tx *bolt.Tx, c Class, limit int, ok func(k, v []byte) bool) (int, error) {
+const maxInt32 = 1<<31 - 1
+
+// dropTx deletes up to limit of class c's oldest messages while ok holds
+// (nil = always), counting them in ot as losses.
+func dropTx(tx *bolt.Tx, c Class, limit int, ok func(k, v []byte) bool, ot *outboxTx) (int, error) {
 	cur := tx.Bucket(classBucket(c)).Cursor()
 	n := 0
 	for k, v := cur.First(); k != nil && n < limit && (ok == nil || ok(k, v)); k, v = cur.First() {
+		ot.addedBytes[c] -= entryBytes(k, v)
 		if err := cur.Delete(); err != nil {
 			return n, err
 		}
 		n++
 	}
+	ot.added[c] -= n
+	ot.losses[c] += uint64(n)
 	return n, nil
 }
 
-func persistLosses(tx *bolt.Tx, db *DB, ot *outboxTx) error {
+// persistLosses writes the loss counters when this transaction changes
+// them or earlier changes (NoteUnstored) wait to be written.
+func (db *DB) persistLosses(tx *bolt.Tx, ot *outboxTx) error {
 	db.mu.Lock()
-	cur := db.losses
+	cur, recs, dirty := db.losses, db.lostRecs, db.lossDirty
 	db.mu.Unlock()
+	meta := tx.Bucket(bktMeta)
 	for c := range numClasses {
-		if ot.losses[c] == 0 {
+		if ot.losses[c] == 0 && !dirty {
 			continue
 		}
-		if err := tx.Bucket(bktMeta).Put(lossKey(c), be.AppendUint64(nil, cur[c]+ot.losses[c])); err != nil {
+		if err := meta.Put(lossKey(c), be.AppendUint64(nil, cur[c]+ot.losses[c])); err != nil {
 			return err
 		}
 	}
+	for i, l := range levels {
+		if ot.lostRecs[i] == 0 && !dirty {
+			continue
+		}
+		if err := meta.Put(lostRecordsKey(l), be.AppendUint64(nil, recs[i]+ot.lostRecs[i])); err != nil {
+			return err
+		}
+	}
+	ot.persisted = true
 	return nil
 }
 
@@ -208,28 +272,68 @@ func (db *DB) commitOutbox(ot *outboxTx) {
 	defer db.mu.Unlock()
 	for c := range numClasses {
 		db.outboxN[c] += ot.added[c]
+		db.outboxBytes[c] = max(0, db.outboxBytes[c]+ot.addedBytes[c])
 		db.losses[c] += ot.losses[c]
+	}
+	for i := range levels {
+		db.lostRecs[i] += ot.lostRecs[i]
+	}
+	if ot.persisted {
+		db.lossDirty = false
 	}
 }
 
 // dropOldest drops class c's oldest messages (counted as losses) in one transaction.
 func (db *DB) dropOldest(c Class, limit int, ok func(k, v []byte) bool) (int, error) {
 	var ot outboxTx
+	n := 0
 	err := db.update(func(tx *bolt.Tx) error {
 		ot = outboxTx{}
-		n, err := dropTx(tx, c, limit, ok)
-		if err != nil {
+		var err error
+		if n, err = dropTx(tx, c, limit, ok, &ot); err != nil {
 			return err
 		}
-		ot.added[c] -= n
-		ot.losses[c] += uint64(n)
-		return persistLosses(tx, db, &ot)
+		return db.persistLosses(tx, &ot)
 	})
 	if err != nil {
 		return 0, err
 	}
 	db.commitOutbox(&ot)
-	return -ot.added[c], nil
+	return n, nil
+}
+
+// NoteUnstored counts records and messages that were given up because a
+// write failed (a full card, a damaged file): they are losses like those of
+// the cap, counted at once in Losses and LostRecords and persisted with the
+// next write that succeeds.
+func (db *DB) NoteUnstored(recs []*metrics.Record, msgs []Message) {
+	db.mu.Lock()
+	defer db.mu.Unlock()
+	for _, r := range recs {
+		if r != nil && r.Interval >= metrics.Int3s && int(r.Interval-metrics.Int3s) < len(levels) {
+			db.lostRecs[r.Interval-metrics.Int3s]++
+			db.lossDirty = true
+		}
+	}
+	for i := range msgs {
+		if msgs[i].Class < numClasses {
+			db.losses[msgs[i].Class]++
+			db.lossDirty = true
+		}
+	}
+}
+
+// LostRecords returns the persisted count of records given up per level:
+// deleted by the size cap before their retention ended, or never stored
+// because a write failed. Retention's deletions are not losses.
+func (db *DB) LostRecords() map[metrics.Interval]uint64 {
+	db.mu.Lock()
+	defer db.mu.Unlock()
+	out := make(map[metrics.Interval]uint64, len(levels))
+	for i, l := range levels {
+		out[l] = db.lostRecs[i]
+	}
+	return out
 }
 
 // updateOutbox runs fn in one write transaction, retrying once after a trim
@@ -439,9 +543,11 @@ func (db *DB) Ack(seqs ...uint64) error {
 			k := be.AppendUint64(nil, s)
 			for c := range numClasses {
 				b := tx.Bucket(classBucket(c))
-				if b.Get(k) == nil {
+				v := b.Get(k)
+				if v == nil {
 					continue
 				}
+				ot.addedBytes[c] -= entryBytes(k, v)
 				if err := b.Delete(k); err != nil {
 					return err
 				}
@@ -458,10 +564,11 @@ func (db *DB) Ack(seqs ...uint64) error {
 	return nil
 }
 
-// OutboxCaps sets the most messages kept per class (absent or ≤ 0 = no cap).
-// The next Enqueue drops the oldest messages of a class over its cap and
-// counts them as losses. Alarms are never dropped by a class cap, only when
-// the whole store reaches MaxSizeMB.
+// OutboxCaps sets the most messages kept per class (absent or ≤ 0 = no
+// count cap), on top of each class's byte share of the file (classShare),
+// which always applies. The next Enqueue drops the oldest messages of a
+// class over its cap and counts them as losses. Alarms are never dropped by
+// a class cap, only when the whole store reaches MaxSizeMB.
 func (db *DB) OutboxCaps(caps map[Class]int) {
 	c := make(map[Class]int, len(caps))
 	for k, v := range caps {

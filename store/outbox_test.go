@@ -7,6 +7,8 @@ import (
 	"path/filepath"
 	"testing"
 	"time"
+
+	"github.com/gridloupe/gridloupe/metrics"
 )
 
 const topicAlarm = "gridloupe/north-weir-dc2/dc2-gw1/alarm"
@@ -228,28 +230,165 @@ func equalLosses(a, b map[Class]uint64) bool {
 // order: telemetry, event waveforms, events, and alarms last.
 func TestTrimDropOrder(t *testing.T) {
 	t.Parallel()
-	db := openTest(t, Options{MaxSizeMB: 1})
+	// 16 MiB: the class shares (at least 3 % = 480 kB) stay far above the
+	// 100 kB queued per class, so only trim deletes here.
+	db := openTest(t, Options{MaxSizeMB: 16})
+	s := setup1([]int{1, 3, 5, 7, 9, 11, 13})
+	if err := db.SetLayout(s); err != nil {
+		t.Fatal(err)
+	}
 	payload := bytes.Repeat([]byte("w"), 900)
-	var batch []Message
-	for _, c := range []Class{ClassAlarm, ClassEvent, ClassEventWaveform, ClassTelemetry} {
+	// The order the README's "The store" section promises, written out
+	// here rather than read from the code.
+	order := []victim{
+		{class: ClassSummary}, {class: ClassTelemetry},
+		{class: ClassTelemetryCoarse}, {class: ClassEventWaveform},
+		{level: metrics.Int3s},
+		{class: ClassEvent},
+		{level: metrics.Int10min}, {level: metrics.Int2h},
+		{class: ClassAlarm},
+	}
+	// Victims in one group may go in either order among themselves.
+	group := []int{0, 0, 1, 1, 2, 3, 4, 4, 5}
+	for _, v := range order {
+		if v.level != 0 {
+			var recs []*metrics.Record
+			for i := range 300 {
+				recs = append(recs, smallRecord(s, v.level, t0.Add(time.Duration(i)*time.Hour), uint64(i)))
+			}
+			if err := db.PutAggregates(recs); err != nil {
+				t.Fatal(err)
+			}
+			continue
+		}
+		var batch []Message
 		for range 100 {
-			m := msg(c, "")
+			m := msg(v.class, "")
 			m.Payload = payload
 			batch = append(batch, m)
 		}
+		if _, err := db.Enqueue(batch...); err != nil {
+			t.Fatal(err)
+		}
 	}
-	if _, err := db.Enqueue(batch...); err != nil {
-		t.Fatal(err)
+	remaining := func(v victim) int {
+		st := db.Stats()
+		if v.level != 0 {
+			return st.Records[v.level]
+		}
+		return st.Outbox[v.class]
 	}
-	db.wmu.Lock()
-	err := db.trim(db.inUse() - 150*1000) // free about 150 messages' worth
-	db.wmu.Unlock()
-	if err != nil {
-		t.Fatal(err)
+	lost := func(v victim) uint64 {
+		if v.level != 0 {
+			return db.LostRecords()[v.level]
+		}
+		return db.Losses()[v.class]
 	}
-	l := db.Losses()
-	if l[ClassTelemetry] != 100 || l[ClassEventWaveform] == 0 || l[ClassEvent] != 0 || l[ClassAlarm] != 0 {
-		t.Errorf("losses %v: want all telemetry, some waveforms, no events or alarms", l)
+	// Trim in steps of about 50 kB; at every step the victims touched are a
+	// prefix of the order of sacrifice (README, The store): one given up
+	// only once all before it are gone.
+	for step := 0; ; step++ {
+		db.wmu.Lock()
+		err := db.trim(db.inUse() - 50_000)
+		db.wmu.Unlock()
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i, v := range order {
+			if lost(v) == 0 {
+				continue
+			}
+			for j, before := range order[:i] {
+				if n := remaining(before); n != 0 && group[j] < group[i] {
+					t.Fatalf("step %d: %+v lost data while %d of %+v remain", step, v, n, before)
+				}
+			}
+		}
+		if lost(order[len(order)-2]) > 0 || step > 200 {
+			break
+		}
+	}
+	for _, v := range order[:len(order)-2] {
+		if remaining(v) != 0 || lost(v) == 0 {
+			t.Errorf("%+v: %d remain, %d counted lost; want all given up and counted", v, remaining(v), lost(v))
+		}
 	}
 	checkBolt(t, db)
+}
+
+// TestOutboxByteShare: a class's queue never holds more than its share of
+// the usable file (classShare); what it gives up is counted and the count
+// survives a reopen.
+func TestOutboxByteShare(t *testing.T) {
+	t.Parallel()
+	path := filepath.Join(t.TempDir(), "share.db")
+	db := openTest(t, Options{Path: path, MaxSizeMB: 2})
+	payload := bytes.Repeat([]byte("t"), 2000)
+	sent := 0
+	for range 40 {
+		var batch []Message
+		for range 10 {
+			m := msg(ClassTelemetry, "")
+			m.Payload = payload
+			batch = append(batch, m)
+		}
+		if _, err := db.Enqueue(batch...); err != nil {
+			t.Fatal(err)
+		}
+		sent += len(batch)
+	}
+	share := int64(classShare[ClassTelemetry] * float64(db.usable))
+	db.mu.Lock()
+	held, n := db.outboxBytes[ClassTelemetry], db.outboxN[ClassTelemetry]
+	db.mu.Unlock()
+	if held > share {
+		t.Errorf("telemetry queue %d bytes, share %d", held, share)
+	}
+	lost := db.Losses()[ClassTelemetry]
+	if n == 0 || lost == 0 || int(lost)+n != sent {
+		t.Errorf("%d kept + %d lost, %d sent; want kept+lost = sent and both > 0", n, lost, sent)
+	}
+	if err := db.Close(); err != nil {
+		t.Fatal(err)
+	}
+	db2 := openTest(t, Options{Path: path, MaxSizeMB: 2})
+	if got := db2.Losses()[ClassTelemetry]; got != lost {
+		t.Errorf("after reopen %d lost, want %d", got, lost)
+	}
+	if got := db2.Stats().Outbox[ClassTelemetry]; got != n {
+		t.Errorf("after reopen %d queued, want %d", got, n)
+	}
+}
+
+// TestNoteUnstored: records and messages a failed write gave up are counted
+// at once and persisted by the next write that succeeds.
+func TestNoteUnstored(t *testing.T) {
+	t.Parallel()
+	path := filepath.Join(t.TempDir(), "unstored.db")
+	db := openTest(t, Options{Path: path})
+	s := setupV()
+	if err := db.SetLayout(s); err != nil {
+		t.Fatal(err)
+	}
+	recs := []*metrics.Record{smallRecord(s, metrics.Int3s, t0, 1), smallRecord(s, metrics.Int3s, t0.Add(3*time.Second), 2), smallRecord(s, metrics.Int10min, t0, 3)}
+	db.NoteUnstored(recs, []Message{msg(ClassTelemetry, "a"), msg(ClassAlarm, "b")})
+	if got := db.LostRecords(); got[metrics.Int3s] != 2 || got[metrics.Int10min] != 1 {
+		t.Errorf("lost records %v, want 2 of 3 s and 1 of 10 min", got)
+	}
+	if got := db.Losses(); got[ClassTelemetry] != 1 || got[ClassAlarm] != 1 {
+		t.Errorf("losses %v, want one telemetry and one alarm message", got)
+	}
+	if err := db.PutAggregates(recs[:1]); err != nil {
+		t.Fatal(err)
+	}
+	if err := db.Close(); err != nil {
+		t.Fatal(err)
+	}
+	db2 := openTest(t, Options{Path: path})
+	if got := db2.LostRecords(); got[metrics.Int3s] != 2 || got[metrics.Int10min] != 1 {
+		t.Errorf("after reopen lost records %v, want 2 and 1", got)
+	}
+	if got := db2.Losses(); got[ClassTelemetry] != 1 || got[ClassAlarm] != 1 {
+		t.Errorf("after reopen losses %v", got)
+	}
 }

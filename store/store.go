@@ -61,16 +61,21 @@ type DB struct {
 	lastRelease  time.Time     // last releaseMapped
 	releaseEvery time.Duration // defaultReleaseEvery; tests force a release per commit with 0
 	buf          []byte
+	hookMidBatch func() // tests: runs inside PutBatch's transaction between the records and the messages
 
-	mu       sync.Mutex // guards the fields below
-	closed   bool
-	layouts  map[uint16]*metrics.Setup
-	curID    uint16
-	counts   map[metrics.Interval]int
-	outboxN  [numClasses]int
-	caps     map[Class]int
-	losses   [numClasses]uint64
-	capTrims int
+	mu      sync.Mutex // guards the fields below
+	closed  bool
+	layouts map[uint16]*metrics.Setup
+	curID   uint16
+	counts  map[metrics.Interval]int
+	outboxN [numClasses]int
+	// outboxBytes is each class's queue size (entryBytes summed), for classShare.
+	outboxBytes [numClasses]int64
+	lostRecs    [len(levels)]uint64 // records given up per level (LostRecords)
+	lossDirty   bool                // NoteUnstored counted losses not yet persisted
+	caps        map[Class]int
+	losses      [numClasses]uint64
+	capTrims    int
 }
 
 // Bucket names.
@@ -246,6 +251,11 @@ func (db *DB) load(tx *bolt.Tx) error {
 				db.losses[c] = be.Uint64(v)
 			}
 		}
+		for i, l := range levels {
+			if v := mb.Get(lostRecordsKey(l)); len(v) == 8 {
+				db.lostRecs[i] = be.Uint64(v)
+			}
+		}
 	}
 	for _, l := range levels {
 		if b := tx.Bucket([]byte(l.String())); b != nil {
@@ -254,7 +264,14 @@ func (db *DB) load(tx *bolt.Tx) error {
 	}
 	for c := range numClasses {
 		if b := tx.Bucket(classBucket(Class(c))); b != nil {
-			db.outboxN[c] = b.Stats().KeyN
+			err := b.ForEach(func(k, v []byte) error {
+				db.outboxN[c]++
+				db.outboxBytes[c] += entryBytes(k, v)
+				return nil
+			})
+			if err != nil {
+				return err
+			}
 		}
 	}
 	return nil

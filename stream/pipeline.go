@@ -72,11 +72,12 @@ type Pipeline struct {
 	nch    int
 	ref    int
 
-	raw   []float64
-	buf   [][]float64
-	scale []float64
-	off   []float64
-	fsc   []float64 // clip threshold per channel, +Inf when none
+	raw    []float64
+	buf    [][]float64
+	scale  []float64
+	off    []float64
+	clipHi []float64 // clipped at or above, per channel (engineering units), +Inf when none
+	clipLo []float64 // clipped at or below, −Inf when none
 
 	ex *exact // window samples, banks and the leakage correction (exact.go)
 
@@ -148,7 +149,8 @@ func New(cfg Config) (*Pipeline, error) {
 	p.buf = make([][]float64, p.nch)
 	p.scale = make([]float64, p.nch)
 	p.off = make([]float64, p.nch)
-	p.fsc = make([]float64, p.nch)
+	p.clipHi = make([]float64, p.nch)
+	p.clipLo = make([]float64, p.nch)
 	p.in.Ch = make([]metrics.ChannelSums, p.nch)
 	for c := range p.nch {
 		p.buf[c] = make([]float64, bf)
@@ -159,9 +161,9 @@ func New(cfg Config) (*Pipeline, error) {
 			}
 			p.off[c] = cfg.Cal[c].Offset
 		}
-		p.fsc[c] = math.Inf(1)
+		p.clipHi[c], p.clipLo[c] = math.Inf(1), math.Inf(-1)
 		if fs := s.Channels[c].FullScale; fs > 0 {
-			p.fsc[c] = fs
+			p.clipHi[c], p.clipLo[c] = fs, -fs
 		}
 		p.in.Ch[c].Phasors = make([]complex128, len(s.Orders))
 	}
@@ -247,6 +249,7 @@ func (p *Pipeline) Clock() Clock { return p.clock }
 // is wrapped with ErrSource after the frames that came with it are
 // processed, except a *Gap, which is a hole in the data and not an end; an error from emit stops the run and is returned as is.
 func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.Record) error) error {
+	p.useRails(src)
 	for {
 		if err := ctx.Err(); err != nil {
 			return nil
@@ -307,12 +310,12 @@ func (p *Pipeline) segment(off, k int) {
 		p.ex.write(c, p.filled, seg)
 		ch := &p.in.Ch[c]
 		s, ss := ch.Sum, ch.SumSq
-		lim := p.fsc[c]
+		hi, lo := p.clipHi[c], p.clipLo[c]
 		clip := false
 		for _, x := range seg {
 			s += x
 			ss += x * x
-			if x >= lim || -x >= lim {
+			if x >= hi || x <= lo {
 				clip = true
 			}
 		}
@@ -407,4 +410,32 @@ func (p *Pipeline) analyse() (fMeas float64, lock bool) {
 	p.trk.commit(f, fine, lock)
 	p.in.OmegaHz = fw
 	return f, lock
+}
+
+// railer is the optional interface of a source of integer samples: the most
+// negative and most positive raw value a sample can hold (ok false when the
+// samples have no rail, e.g. float).
+type railer interface {
+	Rails() (lo, hi float64, ok bool)
+}
+
+// useRails sets each channel's clip thresholds to the lower of full_scale
+// and the source's integer rail in engineering units (a 16-bit recording
+// clamps at +32767, one step below a full_scale of 32768·scale).
+func (p *Pipeline) useRails(src FrameReader) {
+	r, ok := src.(railer)
+	if !ok {
+		return
+	}
+	lo, hi, ok := r.Rails()
+	if !ok {
+		return
+	}
+	for c := range p.nch {
+		a, b := lo*p.scale[c]+p.off[c], hi*p.scale[c]+p.off[c]
+		if a > b {
+			a, b = b, a
+		}
+		p.clipHi[c], p.clipLo[c] = min(p.clipHi[c], b), max(p.clipLo[c], a)
+	}
 }

@@ -128,7 +128,7 @@ func snapFreq(snap *snapshot, cfg *config.Config) float64 {
 }
 
 func earlier(d float64) string {
-	if d > 0 {
+	if d < 0 { // a negative delay_us: the sample is treated as taken early
 		return "earlier"
 	}
 	return "later"

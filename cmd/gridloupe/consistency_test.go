@@ -7,6 +7,11 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"time"
+
+	"github.com/gridloupe/gridloupe/config"
+	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/store"
 )
 
 // readme returns the README's text.
@@ -147,5 +152,35 @@ func TestReplayTableFits(t *testing.T) {
 	w := runCmd("replay", "--config", "../../testdata/north-weir-dc2.yaml", "--interval", "3s", "--format", "wide", "../../testdata/north-weir-dc2.csv")
 	if w.code != 0 || !strings.Contains(w.stdout, "start (UTC)") {
 		t.Errorf("--format wide: exit %d\n%s", w.code, w.stdout)
+	}
+}
+
+// TestShippedExampleHoldsAWeek: the shipped example's retention fits its
+// store cap with the room `run` asks for (80 %), so the start-up warning
+// never fires on it and a week of 3 s values is kept for `evaluate`
+// (README "The store"); the figures are logged for the README.
+func TestShippedExampleHoldsAWeek(t *testing.T) {
+	for _, path := range []string{"../../testdata/north-weir-dc2.yaml", "../../testdata/demo-dc2.yaml"} {
+		cfg, err := config.Load(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		s, _, err := setupFromConfig(cfg)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ret := map[metrics.Interval]time.Duration{}
+		for k, v := range cfg.Store.Retention {
+			iv, _ := metrics.ParseInterval(k)
+			ret[iv] = v
+		}
+		need, room := retentionBytes(s, ret), int64(cfg.Store.MaxSizeMB)<<20*8/10
+		if ret[metrics.Int3s] < 7*24*time.Hour || need > room {
+			t.Errorf("%s: 3 s retention %v, retention needs %d MB of the %d MB run allows (80 %% of max_size_mb %d)",
+				path, ret[metrics.Int3s], need>>20, room>>20, cfg.Store.MaxSizeMB)
+		}
+		t.Logf("%s: %d channels; 3 s record %d bytes (%.1f MB a day, %.0f MB a week); full record %d bytes; retention needs %d MB of %d MB",
+			path, len(s.Channels), store.RecordBytesAt(s, metrics.Int3s), float64(store.RecordBytesAt(s, metrics.Int3s))*28800/1e6,
+			float64(store.RecordBytesAt(s, metrics.Int3s))*28800*7/1e6, store.RecordBytes(s), need>>20, room>>20)
 	}
 }

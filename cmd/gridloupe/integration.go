@@ -65,7 +65,7 @@ func registerMap(cfg *config.Config, setup *metrics.Setup) (*modbus.Map, error) 
 	for i, a := range cfg.Alarms {
 		names[i] = a.Name
 	}
-	m, err := modbus.NewMap(setup, names, cfg.Modbus.WordOrder == config.WordLowFirst)
+	m, err := modbus.NewMap(setup, names, energyCircuits(cfg), cfg.Modbus.WordOrder == config.WordLowFirst)
 	if err != nil {
 		return nil, usagef("%s: modbus: %v", cfg.Path, err)
 	}
@@ -76,14 +76,21 @@ func registerMap(cfg *config.Config, setup *metrics.Setup) (*modbus.Map, error) 
 // on a board the gateway feeds with each aggregate.
 type integration struct {
 	board  *live.Board
+	energy *energyKeeper
 	cancel context.CancelFunc
 	wg     sync.WaitGroup
 }
 
 // startIntegration listens on the configured addresses (so a busy port is
 // a start-up error) and serves until Close.
-func startIntegration(cfg *config.Config, setup *metrics.Setup, health func() live.Health, log *slog.Logger) (*integration, error) {
+func startIntegration(cfg *config.Config, setup *metrics.Setup, db *store.DB, base string, kick func(),
+	health func() live.Health, log *slog.Logger) (*integration, error) {
 	in := &integration{board: live.New(setup, nil, health)}
+	ek, err := newEnergyKeeper(cfg, setup, db, in.board, base, kick, log.With("component", "energy"))
+	if err != nil {
+		return nil, err
+	}
+	in.energy = ek
 	ctx, cancel := context.WithCancel(context.Background())
 	in.cancel = cancel
 	if cfg.Modbus.Enabled {
@@ -158,16 +165,22 @@ func iscOverIL(cfg *config.Config) float64 {
 func (in *integration) onRecord(next func(r *metrics.Record, active []string)) func(r *metrics.Record, active []string) {
 	return func(r *metrics.Record, active []string) {
 		in.board.Put(r, active)
+		in.energy.record(r)
 		if next != nil {
 			next(r, active)
 		}
 	}
 }
 
-// Close stops the servers and waits for them.
+// onWindow is the gateway's per-window hook (energy).
+func (in *integration) onWindow(r *metrics.Record) { in.energy.window(r) }
+
+// Close stops the servers, waits for them and saves the energy counters
+// (the gateway has stopped by then, so this is the last write of them).
 func (in *integration) Close() {
 	in.cancel()
 	in.wg.Wait()
+	in.energy.save()
 }
 
 // daemonHealth reads the gateway's health for the servers.

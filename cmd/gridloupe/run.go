@@ -169,7 +169,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	if err := db.SetLayout(setup); err != nil {
 		return fmt.Errorf("store: %w", err)
 	}
-	db.OutboxCaps(map[store.Class]int{store.ClassTelemetry: 20000, store.ClassEvent: 5000, store.ClassEventWaveform: 200})
+	// The outbox classes' caps are shares of store.max_size_mb (store package: classShare).
 	if need := retentionBytes(setup, ret); need > int64(cfg.Store.MaxSizeMB)<<20*8/10 {
 		log.Warn("retention needs more room than store.max_size_mb: the oldest 3 s values will be trimmed before their retention ends",
 			"needed_mb", need>>20, "max_size_mb", cfg.Store.MaxSizeMB)
@@ -389,17 +389,19 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	}
 	kick := func() {}
 	onStoreErr := func(error) {}
+	var publishHealth func(topic string, payload []byte)
 	if d.pub != nil {
 		kick = d.pub.Kick
+		publishHealth = d.pub.Direct
 		onStoreErr = func(err error) {
 			if err == nil {
 				d.pub.SetProblem("")
 				return
 			}
-			d.pub.SetProblem("store: " + err.Error())
+			d.pub.SetProblem(gateway.ProblemText(err))
 		}
 	}
-	integ, err := startIntegration(cfg, setup, func() live.Health { return daemonHealth(d, db) }, log)
+	integ, err := startIntegration(cfg, setup, db, base, kick, func() live.Health { return daemonHealth(d, db) }, log)
 	if err != nil {
 		return err
 	}
@@ -407,7 +409,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError, Live: liveSrc,
 		Store: db, Alarms: ev, Telemetry: tele, TelemetryQoS: teleQoS, Summary: summ, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
 		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("component", "gateway"),
-		OnRecord: integ.onRecord(onRecord), OnTransition: o.onTransition, OnStoreError: onStoreErr, Notice: storeNotice})
+		OnRecord: integ.onRecord(onRecord), OnWindow: integ.onWindow, OnTransition: o.onTransition, OnStoreError: onStoreErr, Notice: storeNotice, PublishHealth: publishHealth})
 	if err != nil {
 		return err
 	}
@@ -543,12 +545,11 @@ func writeHeapProfile(log *slog.Logger) {
 // retentionBytes estimates the store size the retention periods need:
 // records per level × the encoded record size.
 func retentionBytes(s *metrics.Setup, ret map[metrics.Interval]time.Duration) int64 {
-	per := int64(store.RecordBytes(s))
 	var n int64
 	for iv, d := range map[metrics.Interval]time.Duration{metrics.Int3s: 3 * time.Second,
 		metrics.Int10min: 10 * time.Minute, metrics.Int2h: 2 * time.Hour} {
 		if r := ret[iv]; r > 0 {
-			n += int64(r/d) * per
+			n += int64(r/d) * int64(store.RecordBytesAt(s, iv)) // the 3 s level is stored slim
 		}
 	}
 	return n

@@ -180,12 +180,12 @@ func solveOne(s *metrics.Setup, r *metrics.Record, ref Reference, f float64) ([]
 		}
 		chans = []int{pv2I(s, k)}
 	}
-	d := thM - thR // the current lags this much too far: read it earlier
+	d := thM - thR // the current lags this much too far: read it earlier (a negative delay)
 	if math.Abs(d)*180/math.Pi > maxShiftDeg {
 		return nil, fmt.Errorf("a %.1f° correction is a wiring mistake, not a sensor's phase error (allowed ±%d°); run gridloupe wiring: %w",
 			d*180/math.Pi, maxShiftDeg, ErrReference)
 	}
-	tau := d / (2 * math.Pi * f)
+	tau := -d / (2 * math.Pi * f)
 	out := make([]Correction, len(chans))
 	for i, ci := range chans {
 		out[i] = Correction{Channel: ci, Factor: 1, DelayS: tau, Measured: meas, Ref: ref.Value, Key: ref.Key, Angle: true}

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"log/slog"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -55,10 +56,18 @@ type Config struct {
 	// They must not keep the record.
 	OnRecord     func(r *metrics.Record, active []string)
 	OnTransition func(t alarm.Transition)
+	// OnWindow is called on the measurement goroutine with each window
+	// record (energy integration); it must not block, allocate or keep
+	// the record. nil = none.
+	OnWindow func(r *metrics.Record)
 	// OnStoreError is called when a store write fails (the daemon puts it
 	// in its MQTT status), and with nil when writes succeed again;
 	// measurement goes on either way.
 	OnStoreError func(err error)
+	// PublishHealth publishes the health message directly, not through the
+	// outbox (which a full store cannot take): *mqtt.Publisher.Direct. nil =
+	// queue it in the outbox.
+	PublishHealth func(topic string, payload []byte)
 	// Notice is news from start-up (a damaged store set aside) that the
 	// first health message carries; "" = none.
 	Notice string
@@ -66,8 +75,9 @@ type Config struct {
 
 // Store is what the gateway needs of the bbolt store (*store.DB).
 type Store interface {
-	PutAggregates(recs []*metrics.Record) error
-	Enqueue(msgs ...store.Message) ([]uint64, error)
+	PutBatch(recs []*metrics.Record, msgs []store.Message) ([]uint64, error)
+	NoteUnstored(recs []*metrics.Record, msgs []store.Message)
+	LostRecords() map[metrics.Interval]uint64
 	CommitAlarm(st store.AlarmState, msg store.Message) (uint64, error)
 	SetAlarmState(st store.AlarmState) error
 	Prune(now time.Time) (int, error)
@@ -92,6 +102,7 @@ type Health struct {
 	StoreBytes      int64
 	Stored, Dropped uint64
 	Losses          []ClassCount
+	LostRecords     []ClassCount // per level: deleted by the size cap or never stored
 	StoreErr        string
 	Notice          string // Config.Notice, in the first health message only
 }
@@ -216,6 +227,9 @@ func (g *Gateway) Run(ctx context.Context) error {
 	}
 	runErr := p.Run(ctx, g.cfg.Source, func(r *metrics.Record) error {
 		g.windows.Add(1)
+		if g.cfg.OnWindow != nil {
+			g.cfg.OnWindow(r)
+		}
 		return iv.Add(r, send)
 	})
 	if err := iv.Flush(send); err != nil && runErr == nil {
@@ -284,7 +298,7 @@ func (g *Gateway) handle(r *metrics.Record) {
 	}()
 	g.evaluate(r)
 	if g.cfg.Base != "" && int(r.Interval) < len(g.telem) && g.telem[r.Interval] {
-		g.msgs = append(g.msgs, store.Message{Class: store.ClassTelemetry, QoS: g.telemetryQoS(r.Interval),
+		g.msgs = append(g.msgs, store.Message{Class: telemetryClass(r.Interval), QoS: g.telemetryQoS(r.Interval),
 			Topic:   topic.Telemetry(g.cfg.Base, r.Interval.String()),
 			Payload: telemetryPayload(nil, g.cfg.Site, g.cfg.Gateway, g.setup, r)})
 	}
@@ -300,7 +314,7 @@ func (g *Gateway) handle(r *metrics.Record) {
 	}
 	if r.Interval == metrics.Int10min {
 		if g.cfg.Base != "" {
-			g.msgs = append(g.msgs, g.healthMessage(r.Start.Add(time.Duration(r.DurationS*float64(time.Second)))))
+			g.health(r.Start.Add(time.Duration(r.DurationS * float64(time.Second))))
 		}
 		g.add2h(r)
 	}
@@ -402,23 +416,22 @@ func FromStore(m map[string]store.AlarmState) map[string]alarm.State {
 // persists pending-delay changes of the alarm states.
 func (g *Gateway) commit() {
 	g.retryAlarms()
-	if len(g.batch) > 0 {
-		if err := g.cfg.Store.PutAggregates(g.batch); err != nil {
+	if len(g.batch) > 0 || len(g.msgs) > 0 {
+		// One transaction: after a crash the file holds a record and its
+		// telemetry message both or neither.
+		if _, err := g.cfg.Store.PutBatch(g.batch, g.msgs); err != nil {
 			g.storeError(err)
+			g.cfg.Store.NoteUnstored(g.batch, g.msgs) // counted, persisted later, published in health
 		} else {
 			g.stored.Add(uint64(len(g.batch)))
+			if len(g.msgs) > 0 {
+				g.queued.Add(uint64(len(g.msgs)))
+				g.kick()
+			}
 			g.clearErr()
 		}
 		clear(g.batch) // drop the references so the records can be collected
 		g.batch = g.batch[:0]
-	}
-	if len(g.msgs) > 0 {
-		if _, err := g.cfg.Store.Enqueue(g.msgs...); err != nil {
-			g.storeError(err)
-		} else {
-			g.queued.Add(uint64(len(g.msgs)))
-			g.kick()
-		}
 		clear(g.msgs)
 		g.msgs = g.msgs[:0]
 	}
@@ -436,24 +449,53 @@ func (g *Gateway) commit() {
 	}
 }
 
-// healthMessage builds the health message (store size, losses, last store
-// error) queued on <base>/health with every 10 min record; its time is the
-// record's end on the sample clock, the clock of every queued message.
-func (g *Gateway) healthMessage(at time.Time) store.Message {
+// healthClasses are the outbox classes the health message counts, in order.
+var healthClasses = []store.Class{store.ClassTelemetry, store.ClassTelemetryCoarse, store.ClassSummary,
+	store.ClassEventWaveform, store.ClassEvent, store.ClassAlarm}
+
+// health builds the health message (store size, losses, last store error)
+// with every 10 min record, from counters in memory, and publishes it
+// directly (Config.PublishHealth), so a full store cannot hold it back; its
+// time is the record's end on the sample clock, the clock of every message.
+func (g *Gateway) health(at time.Time) {
 	st := g.cfg.Store.Stats()
 	h := Health{StoreBytes: st.FileBytes, Stored: g.stored.Load(), Dropped: g.dropped.Load(), StoreErr: g.lastErr, Notice: g.cfg.Notice}
 	g.cfg.Notice = ""
 	losses := g.cfg.Store.Losses()
-	for _, c := range []store.Class{store.ClassTelemetry, store.ClassEventWaveform, store.ClassEvent, store.ClassAlarm} {
+	for _, c := range healthClasses {
 		h.Losses = append(h.Losses, ClassCount{c.String(), losses[c]})
 	}
-	return store.Message{Class: store.ClassEvent, QoS: 1, Topic: topic.Health(g.cfg.Base),
-		Payload: healthPayload(g.cfg.Site, g.cfg.Gateway, at, h)}
+	lost := g.cfg.Store.LostRecords()
+	for _, l := range []metrics.Interval{metrics.Int3s, metrics.Int10min, metrics.Int2h} {
+		h.LostRecords = append(h.LostRecords, ClassCount{l.String(), lost[l]})
+	}
+	tp, payload := topic.Health(g.cfg.Base), healthPayload(g.cfg.Site, g.cfg.Gateway, at, h)
+	if g.cfg.PublishHealth != nil {
+		g.cfg.PublishHealth(tp, payload)
+		return
+	}
+	g.msgs = append(g.msgs, store.Message{Class: store.ClassEvent, QoS: 1, Topic: tp, Payload: payload})
+}
+
+// telemetryClass is the outbox class of a level's telemetry: the finest
+// level is given up first under the size cap.
+func telemetryClass(iv metrics.Interval) store.Class {
+	if iv <= metrics.Int3s {
+		return store.ClassTelemetry
+	}
+	return store.ClassTelemetryCoarse
+}
+
+// ProblemText is a store error as the status and health report it: with
+// one "store: " in front, however often the wrapped errors repeat it.
+func ProblemText(err error) string {
+	const p = "store: "
+	return p + strings.ReplaceAll(err.Error(), p, "")
 }
 
 func (g *Gateway) storeError(err error) {
 	g.storeErrs.Add(1)
-	msg := err.Error()
+	msg := ProblemText(err)
 	if msg != g.lastErr { // log each new error once, not every batch
 		g.log.Error("store write failed; measuring goes on", "err", err)
 	}

@@ -79,16 +79,11 @@ func healthPayload(site, gw string, now time.Time, h Health) []byte {
 	b = strconv.AppendUint(b, h.Stored, 10)
 	b = append(b, `,"records_dropped":`...)
 	b = strconv.AppendUint(b, h.Dropped, 10)
-	b = append(b, `,"outbox_dropped":{`...)
-	for i, c := range h.Losses {
-		if i > 0 {
-			b = append(b, ',')
-		}
-		b = encode.AppendString(b, c.Class)
-		b = append(b, ':')
-		b = strconv.AppendUint(b, c.N, 10)
-	}
-	b = append(b, `},"store_error":`...)
+	b = append(b, `,"outbox_dropped":`...)
+	b = appendCounts(b, h.Losses)
+	b = append(b, `,"records_lost":`...)
+	b = appendCounts(b, h.LostRecords)
+	b = append(b, `,"store_error":`...)
 	b = appendOptString(b, h.StoreErr)
 	b = append(b, `,"store_notice":`...)
 	b = appendOptString(b, h.Notice)
@@ -101,4 +96,18 @@ func appendOptString(b []byte, s string) []byte {
 		return append(b, "null"...)
 	}
 	return encode.AppendString(b, s)
+}
+
+// appendCounts appends counts as a JSON object of name: count.
+func appendCounts(b []byte, counts []ClassCount) []byte {
+	b = append(b, '{')
+	for i, c := range counts {
+		if i > 0 {
+			b = append(b, ',')
+		}
+		b = encode.AppendString(b, c.Class)
+		b = append(b, ':')
+		b = strconv.AppendUint(b, c.N, 10)
+	}
+	return append(b, '}')
 }

@@ -15,6 +15,6 @@ const levelSummary = "summary"
 // and only the newest matters to a retained topic.
 func summaryMessage(base, site, gw string, s *metrics.Setup, r *metrics.Record) store.Message {
 	sm := summary.From(s, r)
-	return store.Message{Class: store.ClassTelemetry, QoS: 1, Retain: true,
+	return store.Message{Class: store.ClassSummary, QoS: 1, Retain: true,
 		Topic: base + "/" + levelSummary + "/" + r.Interval.String(), Payload: sm.AppendJSON(nil, site, gw)}
 }

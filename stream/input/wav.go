@@ -95,6 +95,18 @@ func (w *WAV) SampleRate() float64 { return w.fs }
 // Channels returns the number of channels in a frame.
 func (w *WAV) Channels() int { return w.nch }
 
+// Rails returns the most negative and the most positive raw value an
+// integer sample can hold (−2^(b−1) and 2^(b−1) − 1 for b valid bits), so a
+// pipeline can flag samples that reached them as clipped. ok is false for
+// float samples, which have no rail.
+func (w *WAV) Rails() (lo, hi float64, ok bool) {
+	if w.kind == kindFloat32 {
+		return 0, 0, false
+	}
+	b := 32 - w.shift
+	return -math.Ldexp(1, int(b)-1), math.Ldexp(1, int(b)-1) - 1, true
+}
+
 // Offset returns the bytes consumed from the start of the file.
 func (w *WAV) Offset() int64 { return w.off }
 

@@ -6,6 +6,7 @@ import (
 	"time"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/energy"
 )
 
 // Levels are the aggregation levels the board keeps, in order.
@@ -48,6 +49,7 @@ type Board struct {
 	health func() Health
 	events []Event
 	why    string // why the event list is empty, when it is
+	energy Energy
 }
 
 // New returns an empty board for records of setup s. now is the wall clock
@@ -135,4 +137,31 @@ func (b *Board) Events() ([]Event, string) {
 	b.mu.RLock()
 	defer b.mu.RUnlock()
 	return slices.Clone(b.events), b.why
+}
+
+// Energy is the energy and demand state the servers expose.
+type Energy struct {
+	Readings []energy.Reading
+	Demand   energy.Demand
+	ILConfig float64   // il_a from the config, A; 0 = unset
+	Estimate energy.IL // IL estimated from the stored monthly maxima
+	Valid    bool      // set once the gateway has published energy state
+}
+
+// SetEnergy replaces the energy and demand state.
+func (b *Board) SetEnergy(e Energy) {
+	e.Readings = slices.Clone(e.Readings)
+	e.Valid = true
+	b.mu.Lock()
+	b.energy = e
+	b.mu.Unlock()
+}
+
+// Energy returns the energy and demand state (Valid false before the first).
+func (b *Board) Energy() Energy {
+	b.mu.RLock()
+	defer b.mu.RUnlock()
+	e := b.energy
+	e.Readings = slices.Clone(e.Readings)
+	return e
 }

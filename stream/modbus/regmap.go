@@ -6,6 +6,7 @@ import (
 	"strconv"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/energy"
 	"github.com/gridloupe/gridloupe/stream/live"
 )
 
@@ -22,6 +23,10 @@ const (
 	alarmMax   = 900  // alarm registers available
 	levelBase  = 1000 // the 3 s block; the 10 min block follows at levelBase+levelSize
 	levelSize  = 1000 // registers per level block
+	energyBase = 3000 // energy counters, 16 registers per circuit
+	energyStep = 16
+	energyMax  = 50   // circuits the energy block holds
+	demandBase = 3900 // demand and IL
 )
 
 // CheckValue is the float32 held at registers 4-5: an integrator reads it
@@ -76,9 +81,13 @@ type regRef struct {
 	word  uint8
 }
 
-// NewMap lays out the registers for records of setup s and the alarm rules
-// named alarms (config order). lowFirst is recorded in register 1.
-func NewMap(s *metrics.Setup, alarms []string, lowFirst bool) (*Map, error) {
+// NewMap lays out the registers for records of setup s, the alarm rules
+// named alarms (config order) and the energy circuits (nil = none).
+// lowFirst is recorded in register 1.
+func NewMap(s *metrics.Setup, alarms, circuits []string, lowFirst bool) (*Map, error) {
+	if len(circuits) > energyMax {
+		return nil, fmt.Errorf("%w: %d circuits, the energy block holds %d", ErrMap, len(circuits), energyMax)
+	}
 	if len(alarms) > alarmMax {
 		return nil, fmt.Errorf("%w: %d alarm rules, the alarm block holds %d", ErrMap, len(alarms), alarmMax)
 	}
@@ -133,7 +142,80 @@ func NewMap(s *metrics.Setup, alarms []string, lowFirst bool) (*Map, error) {
 			addr += 2
 		}
 	}
+	m.addEnergy(circuits)
 	return m, nil
+}
+
+// addEnergy lays out the energy block (per circuit, kWh and kvarh) and the
+// demand block. Values read NaN until the gateway has published them.
+func (m *Map) addEnergy(circuits []string) {
+	if len(circuits) == 0 {
+		return
+	}
+	reading := func(b *live.Board, ci int) (energy.Reading, bool) {
+		e := b.Energy()
+		if !e.Valid || ci >= len(e.Readings) {
+			return energy.Reading{}, false
+		}
+		return e.Readings[ci], true
+	}
+	for ci, name := range circuits {
+		base := uint16(energyBase + ci*energyStep)
+		regs := []struct {
+			q   string
+			get func(r energy.Reading) float64
+		}{
+			{"import_kwh", func(r energy.Reading) float64 { return r.ImportWh / 1000 }},
+			{"export_kwh", func(r energy.Reading) float64 { return r.ExportWh / 1000 }},
+			{"kvarh_q1", func(r energy.Reading) float64 { return r.VarhQ[energy.Q1] / 1000 }},
+			{"kvarh_q2", func(r energy.Reading) float64 { return r.VarhQ[energy.Q2] / 1000 }},
+			{"kvarh_q3", func(r energy.Reading) float64 { return r.VarhQ[energy.Q3] / 1000 }},
+			{"kvarh_q4", func(r energy.Reading) float64 { return r.VarhQ[energy.Q4] / 1000 }},
+		}
+		for k, rg := range regs {
+			unit := "kWh"
+			if k >= 2 {
+				unit = "kvarh"
+			}
+			m.add(Entry{Address: base + uint16(2*k), Quantity: "energy." + name + "." + rg.q, Unit: unit, Type: Float32,
+				value: func(b *live.Board, _ *metrics.Record, _ float64) (float64, uint16) {
+					r, ok := reading(b, ci)
+					if !ok {
+						return metrics.Null(), 0
+					}
+					return rg.get(r), 0
+				}})
+		}
+	}
+	dem := func(get func(e live.Energy) float64) func(*live.Board, *metrics.Record, float64) (float64, uint16) {
+		return func(b *live.Board, _ *metrics.Record, _ float64) (float64, uint16) {
+			e := b.Energy()
+			if !e.Valid {
+				return metrics.Null(), 0
+			}
+			return get(e), 0
+		}
+	}
+	addr := uint16(demandBase)
+	put := func(q, unit string, get func(e live.Energy) float64) {
+		m.add(Entry{Address: addr, Quantity: q, Unit: unit, Type: Float32, value: dem(get)})
+		addr += 2
+	}
+	for p, ph := range []string{"a", "b", "c"} {
+		put("demand.phase."+ph+".i_a", "A", func(e live.Energy) float64 { return e.Demand.A[p] })
+	}
+	put("demand.total.p_w", "W", func(e live.Energy) float64 { return e.Demand.W })
+	for p, ph := range []string{"a", "b", "c"} {
+		put("demand.month_max.phase."+ph+".i_a", "A", func(e live.Energy) float64 { return e.Demand.Month.MaxA[p] })
+	}
+	put("demand.month_max.total.p_w", "W", func(e live.Energy) float64 { return e.Demand.Month.MaxW })
+	put("il_a", "A", func(e live.Energy) float64 {
+		if e.ILConfig > 0 {
+			return e.ILConfig
+		}
+		return e.Estimate.A
+	})
+	put("il_estimate_a", "A", func(e live.Energy) float64 { return e.Estimate.A })
 }
 
 func (m *Map) add(e Entry) {

@@ -13,6 +13,7 @@ import (
 	mb "github.com/simonvetter/modbus"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/energy"
 	"github.com/gridloupe/gridloupe/stream/live"
 )
 
@@ -71,7 +72,7 @@ func startServer(t *testing.T, lowFirst bool, alarms []string) *rig {
 	s := wyeSetup(t)
 	rg := &rig{now: time.Date(2026, 3, 1, 10, 0, 10, 0, time.UTC)}
 	rg.board = live.New(s, func() time.Time { return rg.now }, nil)
-	m, err := NewMap(s, alarms, lowFirst)
+	m, err := NewMap(s, alarms, []string{"main"}, lowFirst)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -213,6 +214,40 @@ func TestReadValues(t *testing.T) {
 	}
 }
 
+func TestReadEnergy(t *testing.T) {
+	rg := startServer(t, false, nil)
+	c := client(t, rg.addr, false, 7)
+	imp := addressOf(t, rg.m, "energy.main.import_kwh", "")
+	if v, err := c.ReadFloat32(imp, mb.INPUT_REGISTER); err != nil || !math.IsNaN(float64(v)) {
+		t.Errorf("import before the gateway published energy = %v, %v; want NaN", v, err)
+	}
+	rg.board.SetEnergy(live.Energy{
+		Readings: []energy.Reading{{Circuit: "main", Counters: energy.Counters{ImportWh: 123456.7, ExportWh: 8.25, VarhQ: [4]float64{2.5e4, 0, 0, 750}}}},
+		Demand:   energy.Demand{A: [3]float64{120.4, 119.8, 121.1}, W: 71460, Month: energy.Month{MaxA: [3]float64{150.2, 149.9, 151.3}, MaxW: 98000}},
+		ILConfig: 160, Estimate: energy.IL{A: 151.3}})
+	cases := []struct {
+		q    string
+		want float64
+		src  string
+	}{
+		{"energy.main.import_kwh", 123.4567, "the board's 123456.7 Wh in kWh"},
+		{"energy.main.export_kwh", 0.00825, "8.25 Wh in kWh"},
+		{"energy.main.kvarh_q1", 25, "2.5e4 varh in kvarh"},
+		{"energy.main.kvarh_q4", 0.75, "750 varh in kvarh"},
+		{"demand.phase.c.i_a", 121.1, "the board's demand"},
+		{"demand.total.p_w", 71460, "same"},
+		{"demand.month_max.phase.c.i_a", 151.3, "same"},
+		{"il_a", 160, "il_a from the config wins over the estimate"},
+		{"il_estimate_a", 151.3, "the estimate"},
+	}
+	for _, tc := range cases {
+		got, err := c.ReadFloat32(addressOf(t, rg.m, tc.q, ""), mb.INPUT_REGISTER)
+		if err != nil || math.Abs(float64(got)-tc.want) > f32Rel*math.Abs(tc.want) {
+			t.Errorf("%s = %v, %v; want %v (src: %s)", tc.q, got, err, tc.want, tc.src)
+		}
+	}
+}
+
 func TestExceptions(t *testing.T) {
 	rg := startServer(t, false, nil)
 	c := client(t, rg.addr, false, 7)
@@ -251,7 +286,7 @@ func TestExceptions(t *testing.T) {
 }
 
 func TestMapCSV(t *testing.T) {
-	m, err := NewMap(wyeSetup(t), []string{"pf,low"}, false)
+	m, err := NewMap(wyeSetup(t), []string{"pf,low"}, nil, false)
 	if err != nil {
 		t.Fatal(err)
 	}

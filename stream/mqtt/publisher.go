@@ -33,6 +33,7 @@ const (
 	DefaultWriteTimeout  = 10 * time.Second
 	DefaultPoll          = time.Second
 	DefaultRetryInterval = 3 * time.Second
+	DefaultStatusEvery   = time.Minute // a flapping store must not flood the retained status
 )
 
 // Fixed client settings.
@@ -62,6 +63,7 @@ type Config struct {
 	WriteTimeout  time.Duration    // paho WriteTimeout; 0 = 10 s
 	Poll          time.Duration    // outbox poll when not kicked; 0 = 1 s
 	RetryInterval time.Duration    // paho ConnectRetryInterval, first connection only; 0 = 3 s
+	StatusEvery   time.Duration    // a changed problem or notice republishes the status at most this often; 0 = 1 min
 	Logger        *slog.Logger     // nil = discard
 	Now           func() time.Time // status times; nil = time.Now
 }
@@ -95,8 +97,10 @@ type Publisher struct {
 	connects  atomic.Uint64 // successful connections
 	statusGen atomic.Uint64 // bumped by SetProblem: the online status must be republished
 	problem   atomic.Pointer[string]
-	notice    atomic.Pointer[string] // SetNotice: kept for the process's life
-	failing   atomic.Bool            // a connection failure was logged since the last connect
+	notice    atomic.Pointer[string]    // SetNotice: kept for the process's life
+	direct    atomic.Pointer[directMsg] // Direct: the newest one waiting
+	directN   atomic.Uint64             // direct messages delivered
+	failing   atomic.Bool               // a connection failure was logged since the last connect
 	published atomic.Uint64
 	acked     atomic.Uint64
 	dropped   atomic.Uint64
@@ -130,7 +134,7 @@ func New(cfg Config) (*Publisher, error) {
 		return nil, fmt.Errorf("mqtt: no outbox: %w", ErrConfig)
 	case cfg.InFlight < 0 || cfg.InFlight > maxInFlight:
 		return nil, fmt.Errorf("mqtt: in-flight window %d: want 0..%d: %w", cfg.InFlight, maxInFlight, ErrConfig)
-	case cfg.AckTimeout < 0 || cfg.MaxReconnect < 0 || cfg.WriteTimeout < 0 || cfg.Poll < 0 || cfg.RetryInterval < 0:
+	case cfg.AckTimeout < 0 || cfg.MaxReconnect < 0 || cfg.WriteTimeout < 0 || cfg.Poll < 0 || cfg.RetryInterval < 0 || cfg.StatusEvery < 0:
 		return nil, fmt.Errorf("mqtt: negative duration: %w", ErrConfig)
 	}
 	setDefaults(&cfg)
@@ -234,6 +238,7 @@ func setDefaults(cfg *Config) {
 	def(&cfg.WriteTimeout, DefaultWriteTimeout)
 	def(&cfg.Poll, DefaultPoll)
 	def(&cfg.RetryInterval, DefaultRetryInterval)
+	def(&cfg.StatusEvery, DefaultStatusEvery)
 	if cfg.Now == nil {
 		cfg.Now = time.Now
 	}
@@ -290,6 +295,22 @@ func (p *Publisher) SetProblem(msg string) {
 func (p *Publisher) SetNotice(msg string) {
 	p.notice.Store(&msg)
 	p.statusGen.Add(1)
+	signal(p.kick)
+}
+
+// directMsg is a message published outside the outbox.
+type directMsg struct {
+	topic   string
+	payload []byte
+}
+
+// Direct hands the publisher a message to publish at QoS 1, not retained,
+// outside the outbox: the health message, which must get out while the
+// store is full. Only the newest waits; one not yet sent when a newer comes,
+// or while the broker is unreachable, is replaced (each carries cumulative
+// counters). It never blocks. Safe for concurrent use.
+func (p *Publisher) Direct(topic string, payload []byte) {
+	p.direct.Store(&directMsg{topic: topic, payload: payload})
 	signal(p.kick)
 }
 
@@ -393,12 +414,16 @@ func (p *Publisher) Run(ctx context.Context) error {
 	p.log.Info("mqtt connecting", "broker", p.broker, "client_id", p.cfg.ClientID)
 	p.client.Connect() // with ConnectRetry its token completes only on success; state comes via onNotify
 	var after, seen, seenGen uint64
+	var lastStatus time.Time // last status published for a change of problem or notice
 	for ctx.Err() == nil {
 		if !p.client.IsConnectionOpen() {
 			p.wait(ctx, nil)
 			continue
 		}
-		if c, g := p.connects.Load(), p.statusGen.Load(); c != seen || g != seenGen {
+		if c, g := p.connects.Load(), p.statusGen.Load(); c != seen || (g != seenGen && time.Since(lastStatus) >= p.cfg.StatusEvery) {
+			if c == seen {
+				lastStatus = time.Now() // a change, not a (re)connect: debounced
+			}
 			seen, seenGen = c, g
 			if err := p.announce(ctx, c); err != nil {
 				if !errors.Is(err, errConnChanged) && ctx.Err() == nil {
@@ -408,6 +433,18 @@ func (p *Publisher) Run(ctx context.Context) error {
 				}
 				continue
 			}
+		}
+		if d := p.direct.Swap(nil); d != nil {
+			tok := p.client.Publish(d.topic, 1, false, d.payload)
+			if err := p.await(ctx, tok, time.Now().Add(p.cfg.AckTimeout), seen); err != nil {
+				p.direct.CompareAndSwap(nil, d) // try again unless a newer one came
+				if !errors.Is(err, errConnChanged) && ctx.Err() == nil {
+					p.report("mqtt direct message not delivered", err)
+					p.wait(ctx, nil)
+				}
+				continue
+			}
+			p.directN.Add(1)
 		}
 		p.retryAck()
 		msgs, err := p.cfg.Outbox.Pending(after, p.cfg.InFlight)

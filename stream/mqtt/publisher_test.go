@@ -392,7 +392,7 @@ func TestProblemInStatus(t *testing.T) {
 	b := mqtttest.Start(t)
 	db := openStore(t)
 	sub := newSubscriber(t, b.URL(), nil)
-	r := startPub(t, b.URL(), db, nil)
+	r := startPub(t, b.URL(), db, func(c *mqtt.Config) { c.StatusEvery = testStatusEvery })
 	waitUntil(t, "online", func() bool { return sub.lastStatus(t).Status == "online" })
 	r.SetProblem("store: disk full")
 	waitUntil(t, "online with the problem", func() bool { return sub.lastStatus(t).Problem == "store: disk full" })
@@ -401,4 +401,67 @@ func TestProblemInStatus(t *testing.T) {
 		st := sub.lastStatus(t)
 		return st.Status == "online" && st.Problem == ""
 	})
+}
+
+// testStatusEvery shortens the status debounce for tests (production: 1 min).
+const testStatusEvery = 2 * time.Second
+
+// TestStatusDebounced: a problem flapping 40 times in 4 s republishes the
+// retained status at most once per StatusEvery, and the last state wins
+// (README, Bad conditions: at most one status change a minute).
+func TestStatusDebounced(t *testing.T) {
+	t.Parallel()
+	b := mqtttest.Start(t)
+	db := openStore(t)
+	sub := mqtttest.Subscribe(t, b.URL(), mqtt.StatusTopic(testBase))
+	r := startPub(t, b.URL(), db, func(c *mqtt.Config) { c.StatusEvery = testStatusEvery })
+	sub.WaitFor(t, "online", 20*time.Second, func(m []mqtttest.Message) bool { return len(m) >= 1 })
+	start := time.Now()
+	for i := range 40 {
+		if i%2 == 0 {
+			r.SetProblem("store: disk full")
+		} else {
+			r.SetProblem("")
+		}
+		time.Sleep(100 * time.Millisecond)
+	}
+	elapsed := time.Since(start)
+	r.SetProblem("store: disk full")
+	msgs := sub.WaitFor(t, "the final problem", 20*time.Second, func(m []mqtttest.Message) bool {
+		return len(m) > 0 && strings.Contains(string(m[len(m)-1].Payload), `"problem":"store: disk full"`)
+	})
+	// the connect's own status, then one per StatusEvery over the flapping,
+	// plus one for the final state and one of slack for timer alignment
+	if limit := 1 + int(elapsed/testStatusEvery) + 2; len(msgs) > limit {
+		t.Errorf("%d status messages over %v, want at most %d", len(msgs), elapsed, limit)
+	}
+}
+
+// TestDirect: a direct message reaches the broker without the outbox, and
+// of two handed over while the broker is away only the newer one is sent.
+func TestDirect(t *testing.T) {
+	t.Parallel()
+	b := mqtttest.Start(t)
+	db := openStore(t)
+	topic := testBase + "/health"
+	sub := mqtttest.Subscribe(t, b.URL(), topic)
+	r := startPub(t, b.URL(), db, nil)
+	r.Direct(topic, []byte(`{"n":1}`))
+	sub.WaitFor(t, "the first direct message", 20*time.Second, func(m []mqtttest.Message) bool { return len(m) == 1 })
+	b.Stop()
+	waitUntil(t, "disconnected", func() bool { return !r.Connected() })
+	r.Direct(topic, []byte(`{"n":2}`))
+	r.Direct(topic, []byte(`{"n":3}`))
+	b.Start()
+	msgs := sub.WaitFor(t, "the newest direct message", 60*time.Second, func(m []mqtttest.Message) bool {
+		return len(m) > 0 && string(m[len(m)-1].Payload) == `{"n":3}`
+	})
+	for _, m := range msgs {
+		if string(m.Payload) == `{"n":2}` {
+			t.Errorf("a replaced direct message was sent")
+		}
+	}
+	if p, _ := db.Pending(0, 10); len(p) != 0 {
+		t.Errorf("%d messages in the outbox, want none", len(p))
+	}
 }

@@ -30,6 +30,14 @@ type collector struct {
 	windows  *prometheus.Desc
 	mqtt     *prometheus.Desc
 	storeErr *prometheus.Desc
+	eImport  *prometheus.Desc
+	eExport  *prometheus.Desc
+	eReact   *prometheus.Desc
+	dCurrent *prometheus.Desc
+	dMaxCur  *prometheus.Desc
+	dPower   *prometheus.Desc
+	dMaxPow  *prometheus.Desc
+	il       *prometheus.Desc
 }
 
 func newCollector(cfg *Config) *collector {
@@ -71,6 +79,14 @@ func newCollector(cfg *Config) *collector {
 	c.windows = prometheus.NewDesc(ns+"_windows_total", "Measurement windows computed since start.", nil, constL)
 	c.mqtt = prometheus.NewDesc(ns+"_mqtt_connected", "1 while the MQTT client is connected.", nil, constL)
 	c.storeErr = prometheus.NewDesc(ns+"_store_errors_total", "Store writes that failed since start.", nil, constL)
+	c.eImport = prometheus.NewDesc(ns+"_active_energy_import_joules_total", "Active energy taken from the supply, per circuit (1 kWh = 3.6e6 J).", []string{"circuit"}, constL)
+	c.eExport = prometheus.NewDesc(ns+"_active_energy_export_joules_total", "Active energy fed back to the supply, per circuit.", []string{"circuit"}, constL)
+	c.eReact = prometheus.NewDesc(ns+"_fundamental_reactive_energy_var_seconds_total", "Fundamental reactive energy per circuit and quadrant (1 kvarh = 3.6e6 var s).", []string{"circuit", "quadrant"}, constL)
+	c.dCurrent = prometheus.NewDesc(ns+"_demand_current_amperes", "Present demand current (average over the demand interval).", []string{"phase"}, constL)
+	c.dMaxCur = prometheus.NewDesc(ns+"_demand_month_max_current_amperes", "Largest demand current of the month in progress (UTC).", []string{"phase"}, constL)
+	c.dPower = prometheus.NewDesc(ns+"_demand_power_watts", "Present total active-power demand.", nil, constL)
+	c.dMaxPow = prometheus.NewDesc(ns+"_demand_month_max_power_watts", "Largest total active-power demand of the month in progress (UTC).", nil, constL)
+	c.il = prometheus.NewDesc(ns+"_il_amperes", "IEEE 519 maximum demand load current IL: from the config, or estimated from the stored monthly maxima.", []string{"basis"}, constL)
 	return c
 }
 
@@ -79,7 +95,8 @@ func (c *collector) Describe(ch chan<- *prometheus.Desc) {
 	for _, f := range c.families {
 		ch <- f.desc
 	}
-	for _, d := range []*prometheus.Desc{c.age, c.alarm, c.stored, c.dropped, c.outbox, c.store, c.windows, c.mqtt, c.storeErr} {
+	for _, d := range []*prometheus.Desc{c.age, c.alarm, c.stored, c.dropped, c.outbox, c.store, c.windows, c.mqtt, c.storeErr,
+		c.eImport, c.eExport, c.eReact, c.dCurrent, c.dMaxCur, c.dPower, c.dMaxPow, c.il} {
 		ch <- d
 	}
 }
@@ -132,6 +149,38 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 	ch <- prometheus.MustNewConstMetric(c.windows, prometheus.CounterValue, float64(h.Windows))
 	ch <- prometheus.MustNewConstMetric(c.mqtt, prometheus.GaugeValue, b2f(h.MQTTConnected))
 	ch <- prometheus.MustNewConstMetric(c.storeErr, prometheus.CounterValue, float64(h.StoreErrors))
+	c.collectEnergy(ch, b.Energy())
+}
+
+// joulesPerWh converts Wh (and varh) to J (var s).
+const joulesPerWh = 3600
+
+func (c *collector) collectEnergy(ch chan<- prometheus.Metric, e live.Energy) {
+	if !e.Valid {
+		return
+	}
+	for _, r := range e.Readings {
+		ch <- prometheus.MustNewConstMetric(c.eImport, prometheus.CounterValue, r.ImportWh*joulesPerWh, r.Circuit)
+		ch <- prometheus.MustNewConstMetric(c.eExport, prometheus.CounterValue, r.ExportWh*joulesPerWh, r.Circuit)
+		for q, v := range r.VarhQ {
+			ch <- prometheus.MustNewConstMetric(c.eReact, prometheus.CounterValue, v*joulesPerWh, r.Circuit, "q"+string(rune('1'+q)))
+		}
+	}
+	gauge := func(d *prometheus.Desc, v float64, lv ...string) {
+		if !metrics.IsNull(v) {
+			ch <- prometheus.MustNewConstMetric(d, prometheus.GaugeValue, v, lv...)
+		}
+	}
+	for p, ph := range []string{"a", "b", "c"} {
+		gauge(c.dCurrent, e.Demand.A[p], ph)
+		gauge(c.dMaxCur, e.Demand.Month.MaxA[p], ph)
+	}
+	gauge(c.dPower, e.Demand.W)
+	gauge(c.dMaxPow, e.Demand.Month.MaxW)
+	if e.ILConfig > 0 {
+		gauge(c.il, e.ILConfig, "config")
+	}
+	gauge(c.il, e.Estimate.A, "estimate")
 }
 
 func b2f(b bool) float64 {

@@ -253,6 +253,12 @@ func (s *Server) latest(w http.ResponseWriter, _ *http.Request) {
 		why = ""
 	}
 	b = encode.AppendString(b, why)
+	b = append(b, `,"energy":`...)
+	if e := bd.Energy(); e.Valid {
+		b = live.AppendEnergyJSON(b, e)
+	} else {
+		b = append(b, "null"...)
+	}
 	b = append(b, `,"limits":`...)
 	b = append(b, s.lims...)
 	b = append(b, '}')

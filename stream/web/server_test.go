@@ -15,6 +15,7 @@ import (
 	"github.com/prometheus/common/model"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/energy"
 	"github.com/gridloupe/gridloupe/stream/live"
 )
 
@@ -182,6 +183,37 @@ func TestMetrics(t *testing.T) {
 		if math.Abs(v-tc.want) > relTol*math.Abs(tc.want) {
 			t.Errorf("%s%v = %v, want %v (src: %s)", tc.name, tc.labels, v, tc.want, tc.src)
 		}
+	}
+	if _, ok := gauge(t, fams, "gridloupe_active_energy_import_joules_total", nil); ok {
+		t.Error("energy exported before the gateway published any")
+	}
+	b.SetEnergy(live.Energy{Readings: []energy.Reading{{Circuit: "main", Counters: energy.Counters{ImportWh: 1000, VarhQ: [4]float64{0, 0, 0, 2}}}},
+		Demand:   energy.Demand{A: [3]float64{120.4, math.NaN(), 121}, W: 71460, Month: energy.Month{MaxA: [3]float64{150, math.NaN(), 151}, MaxW: math.NaN()}},
+		Estimate: energy.IL{A: math.NaN()}})
+	body, _ = get(t, url+"/metrics")
+	if fams, err = p.TextToMetricFamilies(strings.NewReader(body)); err != nil {
+		t.Fatal(err)
+	}
+	for _, tc := range []struct {
+		name   string
+		labels map[string]string
+		want   float64
+		src    string
+	}{
+		{"gridloupe_active_energy_import_joules_total", map[string]string{"circuit": "main"}, 3.6e6, "1 kWh = 3.6 MJ (SI)"},
+		{"gridloupe_fundamental_reactive_energy_var_seconds_total", map[string]string{"circuit": "main", "quadrant": "q4"}, 7200, "2 varh = 7200 var·s"},
+		{"gridloupe_demand_current_amperes", map[string]string{"phase": "c"}, 121, "the board's demand"},
+		{"gridloupe_demand_month_max_current_amperes", map[string]string{"phase": "a"}, 150, "same"},
+	} {
+		if v, ok := gauge(t, fams, tc.name, tc.labels); !ok || v != tc.want {
+			t.Errorf("%s%v = %v (present %v), want %v (src: %s)", tc.name, tc.labels, v, ok, tc.want, tc.src)
+		}
+	}
+	if _, ok := gauge(t, fams, "gridloupe_demand_current_amperes", map[string]string{"phase": "b"}); ok {
+		t.Error("a phase without demand (NaN) was exported")
+	}
+	if _, ok := gauge(t, fams, "gridloupe_il_amperes", nil); ok {
+		t.Error("IL exported with neither il_a nor an estimate")
 	}
 	if _, ok := gauge(t, fams, "gridloupe_tdd_ratio", with("channel", "ia")); ok {
 		t.Error("a null tdd_pct was exported; undefined values are left out")

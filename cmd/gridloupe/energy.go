@@ -1,0 +1,134 @@
+package main
+
+import (
+	"log/slog"
+	"time"
+
+	"github.com/gridloupe/gridloupe/config"
+	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/energy"
+	"github.com/gridloupe/gridloupe/store"
+	"github.com/gridloupe/gridloupe/stream/encode"
+	"github.com/gridloupe/gridloupe/stream/live"
+)
+
+// energyCircuits are the circuits energy is counted for: the whole
+// metered point until circuits are configured.
+func energyCircuits(*config.Config) []string { return []string{energy.DefaultCircuit} }
+
+// energyKeeper integrates energy per window (on the measurement goroutine)
+// and computes demand, persists both and publishes them (on the store
+// goroutine, from the gateway's OnRecord).
+type energyKeeper struct {
+	meter   *energy.Meter
+	demand  *energy.Demander
+	db      *store.DB
+	board   *live.Board
+	log     *slog.Logger
+	every   time.Duration
+	last    time.Time
+	ilCfg   float64
+	iv      time.Duration
+	base    string // MQTT topic base; "" = not published
+	site    string
+	gateway string
+	kick    func()
+}
+
+func newEnergyKeeper(cfg *config.Config, setup *metrics.Setup, db *store.DB, board *live.Board, base string, kick func(), log *slog.Logger) (*energyKeeper, error) {
+	stored, err := db.Energy()
+	if err != nil {
+		return nil, err
+	}
+	var restored []energy.Reading
+	for _, e := range stored {
+		restored = append(restored, energy.Reading{Circuit: e.Circuit, Counters: energy.Counters{ImportWh: e.ImportWh, ExportWh: e.ExportWh, VarhQ: e.VarhQ}})
+	}
+	sm, err := db.DemandMonths()
+	if err != nil {
+		return nil, err
+	}
+	months := make([]energy.Month, len(sm))
+	for i, m := range sm {
+		months[i] = energy.Month{Month: m.Month, MaxA: m.MaxA, MaxW: m.MaxW, At: m.At}
+	}
+	method := energy.Fixed
+	if cfg.Demand.Method == config.DemandSliding {
+		method = energy.Sliding
+	}
+	dm, err := energy.NewDemander(setup, cfg.Demand.Interval, method, months)
+	if err != nil {
+		return nil, usagef("%s: demand: %v", cfg.Path, err)
+	}
+	k := &energyKeeper{meter: energy.NewMeter(energyCircuits(cfg), restored), demand: dm, db: db, board: board,
+		log: log, every: cfg.Store.CommitEvery, ilCfg: cfg.ILA, iv: cfg.Demand.Interval, base: base,
+		site: cfg.Site, gateway: cfg.Gateway, kick: kick}
+	if len(restored) > 0 {
+		log.Info("energy counters restored", "circuits", len(restored), "import_kwh", restored[0].ImportWh/1000)
+	}
+	k.publishBoard(time.Now())
+	return k, nil
+}
+
+// window is the gateway's OnWindow hook.
+func (k *energyKeeper) window(r *metrics.Record) { k.meter.Window(r) }
+
+// record takes each aggregate on the store goroutine.
+func (k *energyKeeper) record(r *metrics.Record) {
+	end := r.Start.Add(time.Duration(r.DurationS * float64(time.Second)))
+	switch r.Interval {
+	case metrics.Int3s:
+		k.demand.Add(r)
+		k.publishBoard(end)
+		if now := time.Now(); now.Sub(k.last) >= k.every || now.Before(k.last) {
+			k.last = now
+			k.save()
+		}
+	case metrics.Int10min:
+		if k.base != "" {
+			if _, err := k.db.Enqueue(store.Message{Class: store.ClassTelemetry, QoS: 1, Topic: k.base + "/energy",
+				Payload: k.payload(end)}); err != nil {
+				k.log.Warn("energy message not queued", "err", err)
+			} else if k.kick != nil {
+				k.kick()
+			}
+		}
+	}
+}
+
+func (k *energyKeeper) state(now time.Time) live.Energy {
+	return live.Energy{Readings: k.meter.Readings(), Demand: k.demand.Demand(), ILConfig: k.ilCfg,
+		Estimate: energy.EstimateIL(k.demand.Months(), now, k.iv)}
+}
+
+func (k *energyKeeper) publishBoard(now time.Time) { k.board.SetEnergy(k.state(now)) }
+
+// save persists the counters and monthly maxima. A failure is logged and
+// retried at the next save; the counters in memory go on.
+func (k *energyKeeper) save() {
+	var es []store.Energy
+	for _, r := range k.meter.Readings() {
+		es = append(es, store.Energy{Circuit: r.Circuit, ImportWh: r.ImportWh, ExportWh: r.ExportWh, VarhQ: r.VarhQ})
+	}
+	var ms []store.DemandMonth
+	for _, m := range k.demand.Months() {
+		ms = append(ms, store.DemandMonth{Month: m.Month, MaxA: m.MaxA, MaxW: m.MaxW, At: m.At})
+	}
+	if err := k.db.PutEnergy(es, ms); err != nil {
+		k.log.Warn("energy counters not saved; retried at the next save", "err", err)
+	}
+}
+
+// payload is the …/energy message: counters per circuit, demand, IL.
+func (k *energyKeeper) payload(now time.Time) []byte {
+	b := []byte(`{"site":`)
+	b = encode.AppendString(b, k.site)
+	b = append(b, `,"gateway":`...)
+	b = encode.AppendString(b, k.gateway)
+	b = append(b, `,"time":"`...)
+	b = encode.AppendTime(b, now)
+	b = append(b, `",`...)
+	body := live.AppendEnergyJSON(nil, k.state(now))
+	b = append(b, body[1:]...)
+	return b
+}
