@@ -105,6 +105,14 @@ var badCases = []badCase{
 	{name: "lock_min_pct zero", doc: hdr1 + "lock_min_pct: 0\n", line: 4, key: "lock_min_pct", phrase: "more than 0 and less than 100", src: srcBrief},
 	{name: "lock_min_pct 100", doc: hdr1 + "lock_min_pct: 100\n", line: 4, key: "lock_min_pct", phrase: "more than 0 and less than 100", src: srcBrief},
 
+	// events (DESIGN "Voltage events"; REFERENCE 2.4 typical settings, from memory).
+	{name: "interruption above dip", doc: hdr1 + "events: {dip_pct: 85, interruption_pct: 90}\n", line: 4, key: "events.interruption_pct", phrase: "less than dip_pct (85)", src: srcDesign},
+	{name: "dip at 100", doc: hdr1 + "events: {dip_pct: 99}\n", line: 4, key: "events.dip_pct", phrase: "dip_pct + hysteresis_pct less than 100", src: srcDesign},
+	{name: "swell under 100", doc: hdr1 + "events: {swell_pct: 101}\n", line: 4, key: "events.swell_pct", phrase: "more than 100", src: srcDesign},
+	{name: "negative hysteresis", doc: hdr1 + "events: {hysteresis_pct: -1}\n", line: 4, key: "events.hysteresis_pct", phrase: "out of range", src: srcDesign},
+	{name: "capture too long", doc: hdr1 + "events: {max_capture_s: 61}\n", line: 4, key: "events.max_capture_s", phrase: "at most 60 seconds", src: "common practice, no source (60 s cap)"},
+	{name: "events key typo", doc: hdr1 + "events: {dip_pc: 80}\n", line: 4, key: "events.dip_pc", phrase: "unknown key", src: srcDesign},
+
 	// harmonics.
 	{name: "harmonic order 51", doc: hdr1 + "harmonics: [1, 51]\n", line: 4, col: 16, key: "harmonics[1]", phrase: "order 51 is out of range; list orders from 2 to 50", src: srcMeasure},
 	{name: "harmonic order 0", doc: hdr1 + "harmonics: [0]\n", line: 4, key: "harmonics[0]", phrase: "out of range", src: srcMeasure},
@@ -151,7 +159,7 @@ var badCases = []badCase{
 	{name: "source kind live", doc: hdr1 + "source: {kind: live}\n", line: 4, key: "source.kind", phrase: "use one of: sim, csv, wav", src: srcDaemon},
 	{name: "csv without path", doc: hdr1 + "source: {kind: csv}\n", line: 4, key: "source.path", phrase: "required for kind csv", src: srcBrief},
 	{name: "speed with wav", doc: hdr1 + "source: {kind: wav, path: a.wav, speed: 2}\n", line: 4, key: "source.speed", phrase: "applies to kind sim only", src: srcBrief},
-	{name: "path with sim", doc: hdr1 + "source: {kind: sim, path: a.csv}\n", line: 4, key: "source.path", phrase: "applies to kinds csv, wav and pcm", src: srcBrief},
+	{name: "path with sim", doc: hdr1 + "source: {kind: sim, path: a.csv}\n", line: 4, key: "source.path", phrase: "applies to kinds csv, wav, pcm and comtrade", src: srcBrief},
 	{name: "pcm without rate", doc: hdr1 + "source: {kind: pcm, path: '-', format: s16le}\n", line: 4, key: "source", phrase: "kind pcm needs sample_rate_hz", src: srcSources},
 	{name: "pcm without format", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: '-'}\n", line: 5, key: "source.format", phrase: "required for kind pcm: one of s16le, s24le, s32le, f32le", src: srcSources},
 	{name: "pcm bad format", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: '-', format: s16be}\n", line: 5, key: "source.format", phrase: "use one of: s16le, s24le, s32le, f32le", src: srcSources},
@@ -201,7 +209,7 @@ var badCases = []badCase{
 	{name: "telemetry scalar", doc: hdr1 + "mqtt: {telemetry: 10min}\n", line: 4, key: "mqtt.telemetry", phrase: "must be a list of interval labels", src: srcDaemon},
 
 	// alarms.
-	{name: "alarm metric unknown", doc: hdr3 + "alarms: [{name: x, metric: thd, channel: ia, above: 5}]\n", line: 10, key: "alarms[0].metric", phrase: "use one of: rms, thd_pct, thd_h50_pct, tdd_pct, tdd_h50_pct, pct, pct_il, pf, dpf, freq_hz, unbalance_voltage_pct, unbalance_current_pct", src: srcBrief},
+	{name: "alarm metric unknown", doc: hdr3 + "alarms: [{name: x, metric: thd, channel: ia, above: 5}]\n", line: 10, key: "alarms[0].metric", phrase: "use one of: rms, thd_pct, thd_h50_pct, tdd_pct, tdd_h50_pct, crest_factor, pct, pct_il, pf, dpf, freq_hz, unbalance_voltage_pct, unbalance_current_pct", src: srcBrief},
 	{name: "alarm name missing", doc: hdr3 + "alarms: [{metric: rms, channel: ia, above: 5}]\n", line: 10, key: "alarms[0].name", phrase: "required", src: srcBrief},
 	{name: "alarm metric missing", doc: hdr3 + "alarms: [{name: x, channel: ia, above: 5}]\n", line: 10, key: "alarms[0].metric", phrase: "required: one of rms", src: srcBrief},
 	{name: "alarm names twice", doc: hdr3 + "alarms:\n  - {name: x, metric: rms, channel: ia, above: 5}\n  - {name: x, metric: rms, channel: ib, above: 5}\n", line: 12, key: "alarms[1].name", phrase: `"x" is used twice (first at line 11)`, src: srcBrief},

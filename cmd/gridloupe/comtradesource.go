@@ -7,13 +7,9 @@ import (
 	"io"
 	"path/filepath"
 	"strings"
-	"time"
 
 	"github.com/gridloupe/gridloupe/config"
-	"github.com/gridloupe/gridloupe/metrics"
-	"github.com/gridloupe/gridloupe/stream"
 	"github.com/gridloupe/gridloupe/stream/comtrade"
-	"github.com/gridloupe/gridloupe/stream/encode"
 )
 
 // isCOMTRADE reports whether path names a COMTRADE .cfg file.
@@ -53,18 +49,18 @@ func comtradeWhere(rec *comtrade.Recording) func() string {
 	}
 }
 
-// replayCOMTRADE replays a COMTRADE recording; without --start the .cfg's
-// first-sample time is the base.
-func replayCOMTRADE(ctx context.Context, cfg *config.Config, setup *metrics.Setup, cal []stream.Cal, base time.Time,
-	iv metrics.Interval, format encode.Format, path string, stdout, stderr io.Writer) error {
-	rec, rate, err := openCOMTRADE(cfg, path)
+// replayCOMTRADE replays the COMTRADE recording j.input (j.src, j.rate and
+// j.where are filled here); without --start the .cfg's first-sample time
+// is the base.
+func replayCOMTRADE(ctx context.Context, j replayJob, stdout, stderr io.Writer) error {
+	rec, rate, err := openCOMTRADE(j.cfg, j.input)
 	if err != nil {
 		return err
 	}
 	defer rec.Close()
-	if base.IsZero() {
-		base = rec.Start
+	if j.base.IsZero() {
+		j.base = rec.Start
 	}
-	return replayAnalyse(ctx, replayJob{cfg: cfg, setup: setup, cal: cal, rate: rate, base: base, iv: iv, format: format,
-		src: rec.Data, input: path, where: comtradeWhere(rec)}, stdout, stderr)
+	j.src, j.rate, j.where = rec.Data, rate, comtradeWhere(rec)
+	return replayAnalyse(ctx, j, stdout, stderr)
 }
