@@ -41,11 +41,11 @@ const (
 const (
 	keepAlive      = 30 * time.Second
 	connectTimeout = 10 * time.Second
-	maxInFlight    = 1024                          // well below MQTT's 65535 packet identifiers
-	offlineWait    = time.Second                   // for the shutdown status ack; keeps Run's return near 1.5 s
-	quiesceMs      = 250                           // paho Disconnect quiesce, milliseconds
-	errLogEvery    = time.Minute                   // repeated publish errors are logged at most this often
-	maxAckRetry    = 4096                          // delivered seqs kept for a retried Ack when the store fails
+	maxInFlight    = 1024        // well below MQTT's 65535 packet identifiers
+	offlineWait    = time.Second // for the shutdown status ack; keeps Run's return near 1.5 s
+	quiesceMs      = 250         // paho Disconnect quiesce, milliseconds
+	errLogEvery    = time.Minute // repeated publish errors are logged at most this often
+	maxAckRetry    = 4096        // delivered seqs kept for a retried Ack when the store fails
 )
 
 // Config configures a Publisher.
