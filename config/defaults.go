@@ -97,6 +97,9 @@ alarms: []
 #     off_delay: 0s                # sample time it must be clear before clearing
 #     severity: warning            # info | warning | critical (default warning)
 #     min_load_pct: 0              # quiet below this % of il_a (or the current channel's full_scale); 0 = off
+#     relative_to: ""              # "" (above/below are absolute) | baseline: above/below are a rise/drop from the
+#                                  #   commissioning baseline learned per 10 % load bin (fundamental current, % of il_a)
+#     learn: 168h                  # relative_to baseline: how long the baseline is learned from the first value
 
 # modbus:                  # read-only Modbus TCP server for a BMS; off unless this section is given
 #   listen: 127.0.0.1:5020 # host:port; loopback by default (see the README before exposing it)
