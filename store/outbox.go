@@ -86,13 +86,13 @@ type AlarmState struct {
 }
 
 type alarmJSON struct {
-	Name         string    `json:"name"`
-	Raised       bool      `json:"raised"`
-	Since        time.Time `json:"since"`
-	Value        *float64  `json:"value"`
-	Severity     string    `json:"severity,omitempty"`
-	Pending      bool      `json:"pending"`
-	PendingSince time.Time `json:"pending_since"`
+	Name         string          `json:"name"`
+	Raised       bool            `json:"raised"`
+	Since        time.Time       `json:"since"`
+	Value        *float64        `json:"value"`
+	Severity     string          `json:"severity,omitempty"`
+	Pending      bool            `json:"pending"`
+	PendingSince time.Time       `json:"pending_since"`
 	Seq          uint64          `json:"seq"`
 	Baseline     json.RawMessage `json:"baseline,omitempty"`
 }

@@ -43,8 +43,8 @@ type BinStat struct {
 
 // Learned is a rule's commissioning baseline, part of its State.
 type Learned struct {
-	From time.Time               `json:"from"` // start of the first record learned; zero = not started
-	Done bool                    `json:"done"` // the commissioning period is over
+	From time.Time             `json:"from"` // start of the first record learned; zero = not started
+	Done bool                  `json:"done"` // the commissioning period is over
 	Bins [BaselineBins]BinStat `json:"bins"`
 }
 
