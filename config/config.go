@@ -26,6 +26,7 @@ type Config struct {
 	IscA         float64   // isc_a: short-circuit current at the PCC, A; 0 = unset
 	LockMinPct   float64   // below this percentage of the nominal voltage the tracker reports no lock; default 10
 	Channels     []Channel // in file order (the WAV channel order)
+	Circuits     []Circuit // several circuits on one bus; empty = the currents form one circuit, as before
 	Source       Source    // daemon input; Kind "" = none configured
 	Store        Store     // bbolt store settings
 	MQTT         MQTT      // broker connection and topics
@@ -135,6 +136,7 @@ type Alarm struct {
 	Metric     string        // one of Metrics()
 	Channel    string        // per-channel metrics: a configured channel
 	Phase      string        // pf, dpf: "a", "b", "c" or "total" (default)
+	Circuit    string        // pf, dpf with circuits: the circuit whose phase or total is watched; required then
 	Level      string        // interval label: 200ms, 3s, 10min (default), 2h
 	Severity   string        // info, warning (default) or critical
 	Above      *float64      // raise when the value exceeds this (metric units)

@@ -321,7 +321,7 @@ func TestSchemaCoverage(t *testing.T) {
 	t.Parallel()
 	index := regexp.MustCompile(`\[\d+\]`)
 	seen := map[string]bool{}
-	for _, f := range []string{"full.yaml", "larkfield.yaml", "pcm-tcp.yaml"} {
+	for _, f := range []string{"full.yaml", "larkfield.yaml", "pcm-tcp.yaml", "circuits.yaml"} {
 		data, err := os.ReadFile(filepath.Join("testdata", f))
 		if err != nil {
 			t.Fatal(err)

@@ -21,10 +21,11 @@ import (
 // sets every key and against Defaults.
 var sections = map[string][]string{
 	"": {"site", "gateway", "nominal", "wiring", "sample_rate_hz", "reference", "harmonics",
-		"il_a", "isc_a", "lock_min_pct", "channels", "source", "store", "mqtt", "alarms",
+		"il_a", "isc_a", "lock_min_pct", "channels", "circuits", "source", "store", "mqtt", "alarms",
 		"modbus", "http", "demand"},
 	"nominal":         {"frequency_hz", "voltage_v", "current_a"},
 	"channels[]":      {"name", "kind", "phase", "scale", "offset", "full_scale", "delay_us"},
+	"circuits[]":      {"name", "currents", "il_a"},
 	"source":          {"kind", "speed", "path", "connect", "format", "framing"},
 	"store":           {"path", "commit_every", "max_size_mb", "retention", "on_damage"},
 	"store.retention": {"3s", "10min", "2h"},
@@ -36,7 +37,7 @@ var sections = map[string][]string{
 	"http":               {"listen"},
 	"demand":             {"interval", "method"},
 	"alarms[]": {"name", "metric", "channel", "phase", "level", "above", "below", "deadband",
-		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic", "relative_to", "learn"},
+		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic", "circuit", "relative_to", "learn"},
 }
 
 // Bounds on list lengths keep a hostile file from costing much.
@@ -417,6 +418,8 @@ func (d *decoder) decode(c *Config) *Error {
 			return d.http(v, p, &c.HTTP)
 		case "demand":
 			return d.demand(v, p, &c.Demand)
+		case "circuits":
+			return d.circuits(v, p, &c.Circuits)
 		case "alarms":
 			return d.sequence(v, p, "alarm rules", maxAlarms, func(_ int, v *yaml.Node, ip string) *Error {
 				a := Alarm{Line: v.Line}
@@ -643,6 +646,8 @@ func (d *decoder) alarm(n *yaml.Node, path string, a *Alarm) *Error {
 		switch k {
 		case "name":
 			return d.str(v, p, &a.Name)
+		case "circuit":
+			return d.str(v, p, &a.Circuit)
 		case "metric":
 			return d.enum(v, p, &a.Metric, metricNames...)
 		case "channel":

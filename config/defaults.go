@@ -45,6 +45,11 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 # delta: line-to-line voltages; currents on two phases (the two-wattmeter hook-up:
 #   ab and cb with CTs on a and c, the third current computed) or on all three; no n.
 
+# circuits:                # several circuits on one bus; default: none (the currents form one circuit)
+#   - name: incomer        # required, unique; records carry circuits.<name>.phases and .total
+#     currents: [ia, ib, ic]  # required: its current channels; with circuits every current is in one
+#     il_a: 480            # this circuit's IL for TDD and pct_il; 0 = the top-level il_a
+
 # source:                  # daemon input; default: none (replay names its input on the command line)
 #   kind: sim              # required in a source: sim | csv | wav | pcm
 #   speed: 1               # sim only: 1 = real time, 60 = a minute per second, 0 = as fast as possible
@@ -88,6 +93,7 @@ alarms: []
 #                                  # (h50: needs harmonics: all; tdd and pct_il: need il_a)
 #     channel: ia                  # per-channel metrics: a configured channel
 #     phase: total                 # pf and dpf: a | b | c | total (default total)
+#     circuit: drive1              # pf and dpf with circuits: required, the circuit watched
 #     harmonic: 5                  # pct and pct_il only: the order, 2..50, among those computed
 #     level: 10min                 # 200ms | 3s | 10min | 2h (default 10min)
 #     above: 8.0                   # exactly one of above or below, in the metric's units

@@ -42,7 +42,9 @@ func (v *validator) deltaChannel(p string, i int, lines, currents *[3]int) *Erro
 		return v.fail(p+".phase", "a current is on phase a, b or c, not %s", ch.Phase)
 	}
 	ph := int(ch.Phase[0] - 'a')
-	if x := currents[ph]; x != 0 {
+	if x := currents[ph]; x != 0 && len(v.c.Circuits) > 0 {
+		return nil // circuits each have their own phases (circuitsCheck)
+	} else if x != 0 {
 		return v.fail(p+".phase", "a second current channel on phase %s (first: %s, line %d); one per phase", ch.Phase, v.c.Channels[x-1].Name, v.c.Channels[x-1].Line)
 	}
 	currents[ph] = i + 1

@@ -69,7 +69,7 @@ func parse(path string, data []byte, hostname func() (string, error)) (*Config, 
 		return nil, e
 	}
 	v := validator{decoder: d, c: c}
-	for _, check := range []func() *Error{v.names, v.nominal, v.scalars, v.channels, v.reference, v.rate, v.source, v.store, v.mqtt, v.alarms, v.integration} {
+	for _, check := range []func() *Error{v.names, v.nominal, v.scalars, v.channels, v.circuitsCheck, v.reference, v.rate, v.source, v.store, v.mqtt, v.alarms, v.integration} {
 		if e := check(); e != nil {
 			return nil, e
 		}
@@ -235,12 +235,18 @@ func (v *validator) channels() *Error {
 		if ch.Kind == KindCurrent {
 			slot = &iIdx[ph]
 		}
+		if *slot != 0 && ch.Kind == KindCurrent && len(c.Circuits) > 0 {
+			continue // circuits each have their own phases (circuitsCheck)
+		}
 		if *slot != 0 {
 			return v.fail(p+".phase", "a second %s channel on phase %s (first: %s, line %d); one per phase", ch.Kind, ch.Phase, c.Channels[*slot-1].Name, c.Channels[*slot-1].Line)
 		}
 		*slot = i + 1
 	}
 	if c.Wiring == WiringDelta {
+		if len(c.Circuits) > 0 {
+			return v.deltaHookup(lines, [3]int{}) // circuitsCheck judges each circuit's CTs
+		}
 		return v.deltaHookup(lines, currents)
 	}
 	nv := 0
@@ -529,6 +535,9 @@ func (v *validator) alarm(p string, a *Alarm) *Error {
 	var ch *Channel // the rule's channel, for per-channel metrics
 	switch a.Metric {
 	case "rms", "thd_pct", "thd_h50_pct", "tdd_pct", "tdd_h50_pct", "pct", "pct_il":
+		if v.has(p + ".circuit") {
+			return v.fail(p+".circuit", "applies to pf and dpf; %s is per channel, and the channel names its circuit", a.Metric)
+		}
 		if v.has(p + ".phase") {
 			return v.fail(p+".phase", "applies to pf and dpf; %s is per channel: set channel", a.Metric)
 		}
@@ -544,6 +553,9 @@ func (v *validator) alarm(p string, a *Alarm) *Error {
 		if v.has(p + ".channel") {
 			return v.fail(p+".channel", "%s is per phase: set phase (a, b, c or total), not channel", a.Metric)
 		}
+		if e := v.alarmCircuit(p, a); e != nil {
+			return e
+		}
 		if a.Phase == "" {
 			a.Phase = "total"
 		}
@@ -551,7 +563,10 @@ func (v *validator) alarm(p string, a *Alarm) *Error {
 			return e
 		}
 	default: // freq_hz and unbalance
-		for _, k := range []string{"channel", "phase"} {
+		if a.Metric == "unbalance_current_pct" && len(c.Circuits) > 0 {
+			return v.fail(p+".metric", "with circuits, current unbalance is per circuit and alarms on it are not supported yet; watch pf or tdd per circuit instead")
+		}
+		for _, k := range []string{"channel", "phase", "circuit"} {
 			if v.has(p + "." + k) {
 				return v.fail(p+"."+k, "does not apply to %s (a system-wide value)", a.Metric)
 			}
@@ -566,7 +581,7 @@ func (v *validator) alarm(p string, a *Alarm) *Error {
 		return v.fail(p+".metric", "%s sums orders 2 to 50 and needs harmonics: all (a list computes only the listed orders); use %s or set harmonics: all", a.Metric, strings.Replace(a.Metric, "_h50", "", 1))
 	case (strings.HasPrefix(a.Metric, "tdd") || a.Metric == "pct_il") && ch.Kind != KindCurrent:
 		return v.fail(p+".channel", "%s is for current channels; %q is a voltage channel", a.Metric, ch.Name)
-	case (strings.HasPrefix(a.Metric, "tdd") || a.Metric == "pct_il") && c.ILA == 0:
+	case (strings.HasPrefix(a.Metric, "tdd") || a.Metric == "pct_il") && c.ChannelIL(ch.Name) == 0:
 		return v.fail(p+".metric", "%s is relative to IL: set il_a, the maximum demand load current (IEEE 519)", a.Metric)
 	case isPct && !v.has(p+".harmonic"):
 		return v.fail(p+".harmonic", "required for %s: the order, 2 to 50", a.Metric)
@@ -635,6 +650,9 @@ func (v *validator) pfPhase(p string, a *Alarm) *Error {
 			return v.fail(p+".metric", "%s needs two or three current channels on delta", a.Metric)
 		}
 		return nil
+	}
+	if len(c.Circuits) > 0 {
+		return v.circuitPhase(p, a)
 	}
 	if a.Phase == "total" {
 		if !hasPair("a") && !hasPair("b") && !hasPair("c") {

@@ -85,6 +85,7 @@ type Aggregator struct {
 	tot      totalAcc
 	seqV     []seqAcc
 	seqI     []seqAcc
+	circ     []*Aggregator // per Setup.Circuits
 	hasSeqV  bool
 	hasSeqI  bool
 	orderIdx [MaxOrder + 1]int // order → index in Setup.Orders, −1 when absent
@@ -105,6 +106,9 @@ func NewAggregator(s *Setup) *Aggregator {
 		}
 	}
 	a.hasSeqV, a.hasSeqI = s.threeV(), s.threeI()
+	for _, c := range s.Circuits {
+		a.circ = append(a.circ, NewAggregator(c.Sub))
+	}
 	if a.hasSeqV {
 		a.seqV = make([]seqAcc, len(s.Orders))
 	}
@@ -130,6 +134,9 @@ func (a *Aggregator) Reset() {
 	a.tot = totalAcc{}
 	clear(a.seqV)
 	clear(a.seqI)
+	for _, c := range a.circ {
+		c.Reset()
+	}
 }
 
 // hIdx returns the index in Setup.Orders of harmonic entry k of a record
@@ -207,6 +214,11 @@ func (a *Aggregator) Add(r *Record) {
 	}
 	addSeq(a.seqV, r.SeqV)
 	addSeq(a.seqI, r.SeqI)
+	for k := range min(len(a.circ), len(r.Circuits)) {
+		if cr := r.Circuits[k].Rec; cr != nil {
+			a.circ[k].Add(cr)
+		}
+	}
 }
 
 func addSeq(dst []seqAcc, src []Seq) {
@@ -302,6 +314,11 @@ func (a *Aggregator) Result(out *Record) {
 		out.UnbI = resultSeq(&g, out.SeqI, a.seqI, s.Orders, s.floor(s.seqFloorChannel(Current)))
 	}
 	out.Flags = a.flags | g.flags
+	for k := range a.circ {
+		cr := out.Circuits[k].Rec
+		a.circ[k].Result(cr)
+		out.Flags |= cr.Flags & FlagUndefined
+	}
 }
 
 func (a *Aggregator) channel(g *agg, i int, cv *ChannelValues) {
@@ -337,10 +354,7 @@ func (a *Aggregator) channel(g *agg, i int, cv *ChannelValues) {
 			cv.THDH50Pct = Null()
 		}
 	}
-	il := 0.0
-	if s.Channels[i].Kind == Current {
-		il = s.ILA
-	}
+	il := s.IL(i)
 	if il > 0 {
 		cv.TDDPct = keep(100 * math.Sqrt(rest) / il)
 		if s.AllOrders {

@@ -169,6 +169,9 @@ func Compute(s *Setup, in *Input, out *Record) {
 	w.total(out)
 	w.sequence(out)
 	out.Flags = w.flags
+	if len(s.Circuits) > 0 {
+		computeCircuits(s, in, out)
+	}
 }
 
 // channel fills one channel's values.
@@ -210,10 +213,7 @@ func (w *window) channel(ci int, cv *ChannelValues, refOK bool, thRef float64) {
 		}
 	}
 	// TDD (IEEE 519): the same distortion relative to IL.
-	il := 0.0
-	if s.Channels[ci].Kind == Current {
-		il = s.ILA
-	}
+	il := s.IL(ci)
 	cv.TDDPct, cv.TDDH50Pct = Null(), Null()
 	if il > 0 {
 		cv.TDDPct = w.def(100 * math.Sqrt(rest) / il)
@@ -568,4 +568,9 @@ func nullRecord(r *Record) {
 	nullSeq(r.SeqV)
 	nullSeq(r.SeqI)
 	r.UnbV, r.UnbI = Null(), Null()
+	for _, c := range r.Circuits {
+		if c.Rec != nil {
+			nullRecord(c.Rec)
+		}
+	}
 }

@@ -11,6 +11,11 @@ type Setup struct {
 	NominalI  float64 // nominal current, A; 0 = unset
 	ILA       float64 // maximum demand load current, A; 0 = unset (no TDD, no pct_il)
 	Reference int     // index in Channels of the angle reference (a voltage)
+	// Circuits, when set, own every current channel: each is measured
+	// against the shared bus voltages and reported under its name; the
+	// bus itself then has no phases or totals. NewSetup derives each
+	// circuit's Sub, Map and ProdOff.
+	Circuits []Circuit
 
 	// Derived by NewSetup.
 	Pairs   []Pair // phases with both a voltage and a current, in a, b, c order

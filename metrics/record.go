@@ -52,6 +52,7 @@ type Channel struct {
 	To        byte    // Delta voltages: the second phase ('b' for a channel measuring v_ab); 0 otherwise
 	FullScale float64 // engineering units; 0 = none (no clipping check)
 	DelayS    float64 // time by which the channel's sample lags the frame instant, seconds (positive: sampled late; a sensor lagging by τ is −τ); order h is rotated by −h·ω·DelayS
+	ILA       float64 // currents: this channel's IL (its circuit's), the base of TDD and pct_il; 0 = Setup.ILA
 }
 
 // Interval is an aggregation level. Its labels form a closed set.
@@ -227,6 +228,9 @@ type Record struct {
 	SeqI       []Seq           // per Setup.Orders; empty unless wye with three currents
 	UnbV       float64         // voltage_pct, NaN when undefined
 	UnbI       float64         // current_pct
+	Circuits   []CircuitValues // per Setup.Circuits; empty without circuits
+
+	cin []Input // per circuit: scratch input for Compute
 }
 
 // Clone returns a deep copy of r, for handing a record to another
@@ -240,5 +244,15 @@ func (r *Record) Clone() *Record {
 	c.Phases = append([]PhaseValues(nil), r.Phases...)
 	c.SeqV = append([]Seq(nil), r.SeqV...)
 	c.SeqI = append([]Seq(nil), r.SeqI...)
+	c.cin = nil
+	if r.Circuits != nil {
+		c.Circuits = make([]CircuitValues, len(r.Circuits))
+		for k, cv := range r.Circuits {
+			c.Circuits[k] = CircuitValues{Name: cv.Name}
+			if cv.Rec != nil {
+				c.Circuits[k].Rec = cv.Rec.Clone()
+			}
+		}
+	}
 	return &c
 }

@@ -37,6 +37,7 @@ func NewSetup(s Setup) (*Setup, error) {
 	}
 	out := s
 	out.Channels = append([]Channel(nil), s.Channels...)
+	out.Circuits = append([]Circuit(nil), s.Circuits...)
 	out.Orders = append([]int(nil), s.Orders...)
 	out.Neutral = -1
 	out.VIdx = [3]int{-1, -1, -1}
@@ -65,6 +66,13 @@ func NewSetup(s Setup) (*Setup, error) {
 	if out.Reference < 0 || out.Reference >= len(out.Channels) || out.Channels[out.Reference].Kind != Voltage {
 		return nil, fmt.Errorf("reference %d: %w", s.Reference, ErrReference)
 	}
+	if len(out.Circuits) > 0 {
+		if err := out.deriveCircuits(); err != nil {
+			return nil, err
+		}
+		out.valid = true
+		return &out, nil
+	}
 	if out.Wiring == Delta {
 		if err := out.deltaElements(); err != nil {
 			return nil, err
@@ -92,6 +100,9 @@ func (s *Setup) addChannel(i int) error {
 	}
 	if math.IsNaN(c.DelayS) || math.IsInf(c.DelayS, 0) {
 		return fmt.Errorf("channel %d %q: delay %v: %w", i, c.Name, c.DelayS, ErrChannel)
+	}
+	if len(s.Circuits) > 0 && c.Kind == Current {
+		return nil // each circuit's own setup checks its currents
 	}
 	if s.Wiring == Delta {
 		return s.addDeltaChannel(i)
@@ -176,6 +187,9 @@ func (s *Setup) threeV() bool {
 }
 
 func (s *Setup) threeI() bool {
+	if len(s.Circuits) > 0 {
+		return false // the circuits carry the current sequences
+	}
 	if s.Wiring == Delta {
 		return count3(s.IIdx) >= 2
 	}
@@ -213,7 +227,7 @@ func (s *Setup) HasSequence(k Kind) bool {
 // totals: a phase pair exists, or a delta hook-up has its wattmeter
 // elements.
 func (s *Setup) HasTotal() bool {
-	return len(s.Pairs) > 0 || (s.Wiring == Delta && count3(s.IIdx) >= 2)
+	return len(s.Pairs) > 0 || (s.Wiring == Delta && len(s.Circuits) == 0 && count3(s.IIdx) >= 2)
 }
 
 func count3(idx [3]int) int {
@@ -239,6 +253,9 @@ func NewRecord(s *Setup) *Record {
 // shape (re)sizes r's slices for s when they do not match; it allocates only
 // when r was not made by NewRecord(s).
 func shape(s *Setup, r *Record) {
+	if len(s.Circuits) > 0 || len(r.Circuits) > 0 {
+		shapeCircuits(s, r)
+	}
 	if shaped(s, r) {
 		return
 	}

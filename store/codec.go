@@ -158,7 +158,7 @@ func encodeRec(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup, slim
 	}
 	b = appendF32(b, r.UnbV)
 	b = appendF32(b, r.UnbI)
-	return b, nil
+	return appendCircuits(b, r, s)
 }
 
 // reader consumes a byte slice; the first short read sets err and later reads return zero.
@@ -282,7 +282,7 @@ func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Rec
 			c.H[j].RMS = rd.f32()
 			c.H[j].PhaseDeg = rd.phase()
 		}
-		fillPct(c, f, s.Channels[i].Kind, s.ILA)
+		fillPct(c, f, s.Channels[i].Kind, s.IL(i))
 	}
 	np := int(rd.u8())
 	if np > 3 {
@@ -322,6 +322,9 @@ func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Rec
 	}
 	r.UnbV = rd.f32()
 	r.UnbI = rd.f32()
+	if err := readCircuits(rd, r, s); err != nil {
+		return nil, err
+	}
 	if rd.err != nil {
 		return nil, rd.err
 	}
@@ -368,5 +371,9 @@ func RecordBytes(s *metrics.Setup) int {
 			n += nord * 3 * 4
 		}
 	}
-	return n + 2*4 + 16 + leafElemOverhead
+	n += 2 * 4
+	for _, c := range s.Circuits {
+		n += circuitBytes(c.Sub)
+	}
+	return n + 16 + leafElemOverhead
 }

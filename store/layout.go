@@ -28,6 +28,13 @@ type layoutJSON struct {
 	Neutral   int           `json:"neutral"`
 	VIdx      [3]int        `json:"v_idx"`
 	IIdx      [3]int        `json:"i_idx"`
+	Circuits  []circuitJSON `json:"circuits,omitempty"`
+}
+
+type circuitJSON struct {
+	Name     string  `json:"name"`
+	Currents []int   `json:"currents"`
+	ILA      float64 `json:"il_a,omitempty"`
 }
 
 type channelJSON struct {
@@ -99,6 +106,9 @@ func marshalLayout(s *metrics.Setup) ([]byte, error) {
 	for _, p := range s.Pairs {
 		l.Pairs = append(l.Pairs, pairJSON{Phase: string(rune(p.Phase)), V: p.V, I: p.I})
 	}
+	for _, c := range s.Circuits {
+		l.Circuits = append(l.Circuits, circuitJSON{Name: c.Name, Currents: append([]int(nil), c.Currents...), ILA: c.ILA})
+	}
 	b, err := json.Marshal(l)
 	if err != nil {
 		return nil, fmt.Errorf("store: encode layout: %w", err)
@@ -157,7 +167,10 @@ func unmarshalLayout(b []byte) (*metrics.Setup, error) {
 		return nil, fmt.Errorf("stored layout: %w: %w", ErrCorrupt, err)
 	}
 	s.Products = s.Pairs
-	if s.Wiring == metrics.Delta {
+	for _, c := range l.Circuits {
+		s.Circuits = append(s.Circuits, metrics.Circuit{Name: c.Name, Currents: c.Currents, ILA: c.ILA})
+	}
+	if s.Wiring == metrics.Delta || len(s.Circuits) > 0 {
 		// re-derive the line map and wattmeter elements (not stored)
 		d, err := metrics.NewSetup(*s)
 		if err != nil {
@@ -175,5 +188,6 @@ func cloneSetup(s *metrics.Setup) *metrics.Setup {
 	c.Orders = append([]int(nil), s.Orders...)
 	c.Pairs = append([]metrics.Pair(nil), s.Pairs...)
 	c.Products = append([]metrics.Pair(nil), s.Products...)
+	c.Circuits = append([]metrics.Circuit(nil), s.Circuits...)
 	return &c
 }

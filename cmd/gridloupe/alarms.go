@@ -43,6 +43,7 @@ func alarmRules(cfg *config.Config, s *metrics.Setup) ([]alarm.Rule, error) {
 			} else {
 				r.Target.Phase = a.Phase[0]
 			}
+			r.Target.Circuit = a.Circuit
 		case "freq_hz", "unbalance_voltage_pct", "unbalance_current_pct":
 		default:
 			r.Target.Channel = ci
@@ -50,13 +51,26 @@ func alarmRules(cfg *config.Config, s *metrics.Setup) ([]alarm.Rule, error) {
 		if a.MinLoadPct > 0 {
 			base := cfg.ILA
 			if ci >= 0 && s.Channels[ci].Kind == metrics.Current {
+				base = s.IL(ci)
 				if base == 0 {
 					base = s.Channels[ci].FullScale
 				}
 				r.LoadChannels = []int{ci}
 			} else {
 				// per-phase pf/dpf: that phase's current; total: all phases
+				// (of the rule's circuit, with circuits)
 				r.LoadChannels = phaseCurrents
+				if k := s.CircuitIndex(a.Circuit); k >= 0 {
+					r.LoadChannels = nil
+					for _, ci := range s.Circuits[k].Currents {
+						if s.Channels[ci].Phase != 'n' {
+							r.LoadChannels = append(r.LoadChannels, ci)
+						}
+					}
+					if il := s.Circuits[k].ILA; il > 0 {
+						base = il
+					}
+				}
 				if r.Target.Phase != 0 {
 					for _, pc := range phaseCurrents {
 						if s.Channels[pc].Phase == r.Target.Phase {

@@ -9,6 +9,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"slices"
 	"strconv"
 	"time"
 
@@ -57,9 +58,56 @@ func simConfig(cfg *config.Config, fs float64) sim.Config {
 		if len(ch.Phase) == 2 {
 			c.To = ch.Phase[1]
 		}
+		c.Share = circuitShare(cfg, ch.Name)
 		sc.Channels = append(sc.Channels, c)
 	}
 	return sc
+}
+
+// circuitShare is the fraction of the simulated load a current channel
+// carries on a bus with circuits: a circuit whose il_a is at least the
+// others' sum is the incomer and carries it all; the others split it in
+// proportion to their il_a (equally without). 1 without circuits.
+func circuitShare(cfg *config.Config, name string) float64 {
+	if len(cfg.Circuits) < 2 {
+		return 1
+	}
+	il := func(c config.Circuit) float64 {
+		if c.ILA > 0 {
+			return c.ILA
+		}
+		return cfg.ILA
+	}
+	var total, biggest float64
+	big := -1
+	for i, c := range cfg.Circuits {
+		total += il(c)
+		if il(c) > biggest {
+			biggest, big = il(c), i
+		}
+	}
+	if big >= 0 && biggest < total-biggest {
+		big = -1 // no incomer: every circuit is a drive
+	}
+	drives := total
+	n := len(cfg.Circuits)
+	if big >= 0 {
+		drives -= biggest
+		n--
+	}
+	for i, c := range cfg.Circuits {
+		if !slices.Contains(c.Currents, name) {
+			continue
+		}
+		switch {
+		case i == big:
+			return 1
+		case drives > 0:
+			return il(c) / drives
+		}
+		return 1 / float64(n)
+	}
+	return 1
 }
 
 func cmdSimulate(ctx context.Context, args []string, stdout, stderr io.Writer) error {

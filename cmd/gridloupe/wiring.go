@@ -47,6 +47,13 @@ func setupFromConfig(cfg *config.Config) (*metrics.Setup, []stream.Cal, error) {
 			s.Reference = i
 		}
 	}
+	for _, c := range cfg.Circuits {
+		mc := metrics.Circuit{Name: c.Name, ILA: c.ILA}
+		for _, n := range c.Currents {
+			mc.Currents = append(mc.Currents, cfg.ChannelIndex(n))
+		}
+		s.Circuits = append(s.Circuits, mc)
+	}
 	if s.Reference < 0 {
 		for i, ch := range s.Channels {
 			if ch.Kind == metrics.Voltage {

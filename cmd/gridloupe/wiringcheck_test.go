@@ -3,6 +3,8 @@ package main
 import (
 	"encoding/json"
 	"math"
+	"os"
+	"path/filepath"
 	"slices"
 	"strings"
 	"testing"
@@ -230,5 +232,49 @@ func TestWiringSinglePhase(t *testing.T) {
 	r := runCmd("wiring", "--config", cfg, "--format", "json", "--seconds", "1", rev)
 	if r.code != 1 || !strings.Contains(r.stdout, `{"kind":"reversed_ct","phases":["a"]`) {
 		t.Errorf("reversed: exit %d %s", r.code, r.stdout)
+	}
+}
+
+// TestWiringCircuits: the wiring check judges each circuit of a bus on
+// its own: the simulated North Weir bus reads ok, and with pump2's CT on
+// phase b turned round (its column negated) names that CT and circuit.
+// src: DESIGN Wiring check (single and several circuits).
+func TestWiringCircuits(t *testing.T) {
+	t.Parallel()
+	dir := t.TempDir()
+	cfg := filepath.Join("..", "..", "testdata", "north-weir-bus.yaml")
+	rec := filepath.Join(dir, "bus.csv")
+	if r := runCmd("simulate", "--config", cfg, "-o", rec, "--duration", "1.5s"); r.code != 0 {
+		t.Fatalf("simulate: %d %s", r.code, r.stderr)
+	}
+	if r := runCmd("wiring", "--config", cfg, "--format", "json", "--seconds", "1", rec); r.code != 0 || !strings.Contains(r.stdout, `"findings":[]`) {
+		t.Errorf("correct bus: exit %d %s", r.code, r.stdout)
+	}
+	data, err := os.ReadFile(rec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.Split(strings.TrimSpace(string(data)), "\n")
+	col := -1
+	for i, ln := range lines {
+		f := strings.Split(ln, ",")
+		switch {
+		case strings.HasPrefix(ln, "#"):
+		case col < 0:
+			col = slices.Index(f, "p2b")
+		default:
+			if strings.HasPrefix(f[col], "-") {
+				f[col] = f[col][1:]
+			} else {
+				f[col] = "-" + f[col]
+			}
+			lines[i] = strings.Join(f, ",")
+		}
+	}
+	rev := writeFile(t, dir, "rev.csv", strings.Join(lines, "\n")+"\n")
+	r := runCmd("wiring", "--config", cfg, "--format", "json", "--seconds", "1", rev)
+	if r.code != 1 || !strings.Contains(r.stdout, `{"kind":"reversed_ct","phases":["b"],"text":"circuit pump2: the current on phase b (p2b) flows opposite`) ||
+		strings.Count(r.stdout, `"kind"`) != 1 {
+		t.Errorf("reversed p2b: exit %d %s", r.code, r.stdout)
 	}
 }

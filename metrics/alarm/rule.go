@@ -69,6 +69,9 @@ type Target struct {
 	Channel int  // index in Setup.Channels for channel metrics; −1 (ignored) otherwise
 	Phase   byte // pf, dpf per phase: 'a', 'b' or 'c'; 0 with Total
 	Total   bool // pf, dpf of the three-phase (or single-phase) total
+	// Circuit names the circuit whose phase or total a pf/dpf rule
+	// watches; required when the setup has circuits, empty otherwise.
+	Circuit string
 }
 
 // Rule is one alarm rule, as the command-line wiring builds it from the
@@ -116,12 +119,13 @@ type compiled struct {
 	phase int // index in Setup.Pairs / Record.Phases; −1 for the total
 	load  []int
 	delta bool  // the total of a delta record, which has no phases
+	circ  int   // pf, dpf: index in Setup.Circuits; −1 for the bus itself
 	binCh []int // baseline rules: the currents whose fundamental picks the load bin
 }
 
 // compile validates r against s.
 func compile(r *Rule, s *metrics.Setup) (compiled, error) {
-	c := compiled{ch: -1, hk: -1, phase: -1}
+	c := compiled{ch: -1, hk: -1, phase: -1, circ: -1}
 	if r.Name == "" {
 		return c, fmt.Errorf("rule without a name: %w", ErrRule)
 	}
@@ -221,6 +225,14 @@ func (c *compiled) target(r *Rule, s *metrics.Setup) error {
 		}
 		c.ch = ci
 	case m.power():
+		switch k := s.CircuitIndex(r.Target.Circuit); {
+		case r.Target.Circuit != "" && k < 0:
+			return fmt.Errorf("no circuit %q: %w", r.Target.Circuit, ErrTarget)
+		case r.Target.Circuit == "" && len(s.Circuits) > 0:
+			return fmt.Errorf("the setup has circuits: name the circuit watched: %w", ErrTarget)
+		case k >= 0:
+			c.circ, s = k, s.Circuits[k].Sub
+		}
 		switch {
 		case r.Target.Total && r.Target.Phase != 0:
 			return fmt.Errorf("both phase %q and total: %w", r.Target.Phase, ErrTarget)
@@ -300,6 +312,12 @@ func (c *compiled) value(r *metrics.Record) float64 {
 			}
 		}
 	case mPF, mDPF:
+		if c.circ >= 0 {
+			if c.circ >= len(r.Circuits) || r.Circuits[c.circ].Rec == nil {
+				return math.NaN()
+			}
+			r = r.Circuits[c.circ].Rec
+		}
 		if (len(r.Phases) == 0 && !c.delta) || c.phase >= len(r.Phases) {
 			return math.NaN()
 		}

@@ -265,11 +265,17 @@ func (e *Evaluator) value(q *quantity, r *metrics.Record) float64 {
 		return c.THDH50Pct
 	case q.kind == metrics.Voltage:
 		return 100 * c.H[q.hIdx].RMS / e.cfg.NominalV
+	}
+	il := e.cfg.IL
+	if own := e.s.Channels[q.ch].ILA; own > 0 {
+		il = own // a circuit's own IL (several circuits on one bus)
+	}
+	switch {
 	case q.hIdx >= 0:
-		return 100 * c.H[q.hIdx].RMS / e.cfg.IL
-	case e.s.ILA > 0:
+		return 100 * c.H[q.hIdx].RMS / il
+	case e.s.IL(q.ch) > 0:
 		// stored against the layout's IL: rescale to the evaluated one
-		return c.TDDH50Pct * e.s.ILA / e.cfg.IL
+		return c.TDDH50Pct * e.s.IL(q.ch) / il
 	}
 	// no IL in the layout, so no stored TDD: from orders 2..50
 	var ss float64
@@ -278,7 +284,7 @@ func (e *Evaluator) value(q *quantity, r *metrics.Record) float64 {
 			ss += c.H[j].RMS * c.H[j].RMS
 		}
 	}
-	return 100 * math.Sqrt(ss) / e.cfg.IL
+	return 100 * math.Sqrt(ss) / il
 }
 
 // closeDays closes every day before upTo: each quantity's daily 99th

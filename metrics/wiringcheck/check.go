@@ -120,6 +120,8 @@ type checker struct {
 	r   *metrics.Record
 	o   Options
 	out []Finding
+	// prefix names the circuit being judged, with circuits
+	prefix string
 	// phase voltages (delta: to the artificial neutral) usable for angles
 	v   [3]complex128
 	vOK [3]bool
@@ -127,7 +129,7 @@ type checker struct {
 
 func (c *checker) add(kind string, text string, phases ...string) {
 	slices.Sort(phases)
-	c.out = append(c.out, Finding{Kind: kind, Phases: slices.Compact(phases), Text: text})
+	c.out = append(c.out, Finding{Kind: kind, Phases: slices.Compact(phases), Text: c.prefix + text})
 }
 
 // Check judges record r (an aggregate of a few seconds, made with s).
@@ -141,7 +143,14 @@ func Check(s *metrics.Setup, r *metrics.Record, o Options) Report {
 		ref := s.Channels[s.Reference].Name
 		c.add(NoAngles, fmt.Sprintf("no voltage angle could be measured (the reference %s gave no frequency lock, or too few voltages are connected): the CTs cannot be judged. Check the reference voltage and lock_min_pct, then run the check again", ref))
 	}
-	c.currents()
+	if len(s.Circuits) == 0 {
+		c.currents(nil)
+	}
+	for _, ci := range s.Circuits {
+		c.prefix = "circuit " + ci.Name + ": "
+		c.currents(ci.Currents)
+	}
+	c.prefix = ""
 	rep := Report{Verdict: VerdictOK, Rotation: rot, Findings: c.out}
 	if len(c.out) > 0 {
 		rep.Verdict = VerdictCheck
@@ -272,12 +281,12 @@ type current struct {
 
 // currents checks the current channels: load, dead channels, then the best
 // explanation of their angles.
-func (c *checker) currents() {
+func (c *checker) currents(only []int) {
 	s, r := c.s, c.r
 	var cur []current
 	imax := 0.0
 	for ci, ch := range s.Channels {
-		if ch.Kind != metrics.Current || ch.Phase == 'n' {
+		if ch.Kind != metrics.Current || ch.Phase == 'n' || (only != nil && !slices.Contains(only, ci)) {
 			continue
 		}
 		x := rms(r, ci)

@@ -53,6 +53,11 @@ func NewBlocks(w io.Writer, s *metrics.Setup, opts TableOptions) *Blocks {
 	for _, p := range s.Pairs {
 		paired[p.V], paired[p.I] = true, true
 	}
+	for _, c := range s.Circuits {
+		for _, p := range c.Sub.Pairs {
+			paired[c.Map[p.I]] = true // the bus voltages keep their own rows
+		}
+	}
 	for i := range s.Channels {
 		if !paired[i] {
 			b.spare = append(b.spare, i)
@@ -191,7 +196,8 @@ func (b *Blocks) Write(r *metrics.Record) error {
 			buf = b.rowValues(buf, nul, v.RMS, nul, b.current(v), 0, 0, nul, nul, nul, nul)
 		}
 	}
-	if b.s.Wiring != metrics.SinglePhase { // single-phase: the total is the phase
+	buf = b.circuitRows(buf, r, vthd, idist)
+	if b.s.Wiring != metrics.SinglePhase && len(b.s.Circuits) == 0 { // single-phase: the total is the phase
 		t := &r.Total
 		buf = pad(buf, []byte("total"), bwLabel, true)
 		nul := metrics.Null()

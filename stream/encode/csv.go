@@ -99,7 +99,7 @@ func (c *CSV) Header() []string {
 	if c.seqI {
 		h = append(h, "unbalance.current_pct")
 	}
-	return h
+	return csvCircuitHeader(h, s)
 }
 
 var (
@@ -256,6 +256,7 @@ func (c *CSV) appendRow(b []byte, r *metrics.Record) []byte {
 	if c.seqI {
 		b = cell(b, r.UnbI)
 	}
+	b = appendCSVCircuits(b, s, r)
 	return append(b, '\n')
 }
 

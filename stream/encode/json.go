@@ -99,13 +99,14 @@ func AppendJSON(dst []byte, s *metrics.Setup, r *metrics.Record) []byte {
 			dst = append(dst, '}')
 		}
 	}
+	dst = appendJSONCircuits(dst, s, r)
 	return append(dst, '}')
 }
 
 // hasTDD reports whether a channel carries tdd_* and pct_il: a current with
 // IL configured.
 func hasTDD(s *metrics.Setup, ch *metrics.Channel) bool {
-	return ch.Kind == metrics.Current && s.ILA > 0
+	return ch.Kind == metrics.Current && (s.ILA > 0 || ch.ILA > 0)
 }
 
 func appendJSONChannel(dst []byte, s *metrics.Setup, ch *metrics.Channel, v *metrics.ChannelValues) []byte {
@@ -181,7 +182,13 @@ func appendJSONPhase(dst []byte, p *metrics.PhaseValues) []byte {
 // appendJSONTotal appends the totals; delta has no s_va (no arithmetic
 // sum without phase-to-neutral voltages).
 func appendJSONTotal(dst []byte, t *metrics.TotalValues, delta bool) []byte {
-	dst = append(dst, `,"total":{"p_w":`...)
+	dst = append(dst, `,"total":`...)
+	return appendJSONTotalBody(dst, t, delta)
+}
+
+// appendJSONTotalBody appends the totals object itself.
+func appendJSONTotalBody(dst []byte, t *metrics.TotalValues, delta bool) []byte {
+	dst = append(dst, `{"p_w":`...)
 	dst = appendJSONNum(dst, t.P)
 	dst = append(dst, `,"q_var":`...)
 	dst = appendJSONNum(dst, t.Q1)
@@ -265,6 +272,9 @@ func CheckRecord(s *metrics.Setup, r *metrics.Record) error {
 	}
 	if n := len(r.SeqI); n != 0 && n != len(s.Orders) {
 		return fmt.Errorf("%d current sequence values for %d orders: %w", n, len(s.Orders), ErrShape)
+	}
+	if len(s.Circuits) > 0 || len(r.Circuits) > 0 {
+		return checkCircuits(s, r)
 	}
 	return nil
 }

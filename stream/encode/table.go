@@ -31,14 +31,16 @@ const (
 	srcStart colSrc = iota
 	srcInterval
 	srcFreq
-	srcRMS   // channel RMS
-	srcTHD   // channel THD-F
-	srcTDD   // channel TDD
-	srcPF    // phase PF
-	srcDPF   // phase DPF
-	srcPkW   // total P, kW
-	srcQkvar // total Q1, kvar
-	srcTotPF // total PF
+	srcRMS    // channel RMS
+	srcTHD    // channel THD-F
+	srcTDD    // channel TDD
+	srcPF     // phase PF
+	srcDPF    // phase DPF
+	srcPkW    // total P, kW
+	srcQkvar  // total Q1, kvar
+	srcTotPF  // total PF
+	srcCircP  // circuit idx total P, kW
+	srcCircPF // circuit idx total PF
 	srcFlags
 )
 
@@ -102,6 +104,13 @@ func NewTable(w io.Writer, s *metrics.Setup, opts TableOptions) *Table {
 		add(column{head: "P kW", width: 8, src: srcPkW, dec: 2})
 		add(column{head: "Q kvar", width: 8, src: srcQkvar, dec: 2})
 		add(column{head: "PF", width: 6, src: srcTotPF, dec: 3})
+	}
+	for k, c := range s.Circuits {
+		if c.Sub.HasTotal() {
+			name := printable(c.Name)
+			add(column{head: name + " kW", width: 8, src: srcCircP, idx: k, dec: 2})
+			add(column{head: name + " PF", width: 6, src: srcCircPF, idx: k, dec: 3})
+		}
 	}
 	add(column{head: "flags", src: srcFlags, left: true})
 	return t
@@ -227,6 +236,15 @@ func (t *Table) value(c *column, r *metrics.Record) float64 {
 		return r.Total.Q1 / 1000
 	case srcTotPF:
 		return r.Total.PF
+	case srcCircP, srcCircPF:
+		if c.idx >= len(r.Circuits) || r.Circuits[c.idx].Rec == nil {
+			return metrics.Null()
+		}
+		if t := &r.Circuits[c.idx].Rec.Total; c.src == srcCircP {
+			return t.P / 1000
+		} else {
+			return t.PF
+		}
 	}
 	return metrics.Null()
 }

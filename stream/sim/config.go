@@ -31,6 +31,7 @@ type Chan struct {
 	Kind   metrics.Kind // metrics.Voltage or metrics.Current
 	Phase  byte         // 'a', 'b', 'c'; 'n' (neutral) for currents only
 	To     byte         // voltages: 0 for phase-to-neutral, else the second phase of a line-to-line voltage (v_Phase − v_To)
+	Share  float64      // currents: the fraction of the load current this CT carries (one drive of several on the bus); 0 = 1, the whole load
 	Scale  float64      // engineering = raw·Scale + Offset; 0 = 1
 	Offset float64      // engineering units
 }
@@ -199,6 +200,12 @@ func normalize(cfg Config) (Config, error) {
 		}
 		if c.Scale == 0 {
 			c.Scale = 1
+		}
+		if c.Share == 0 {
+			c.Share = 1
+		}
+		if !finite(c.Share) || c.Share < 0 || c.Share > 1 {
+			return cfg, bad(field+".Share", c.Share, "want a fraction of the load current in (0, 1]")
 		}
 		if !finite(c.Scale) || !finite(c.Offset) {
 			return cfg, bad(field+".Scale/Offset", fmt.Sprintf("%v/%v", c.Scale, c.Offset), "want finite numbers")

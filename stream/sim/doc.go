@@ -52,7 +52,10 @@
 // Single-phase loads. A 3rd harmonic of NeutralI3A/3 in every phase, in phase
 // on all three (zero sequence), so the neutral carries NeutralI3A (default
 // 2 A scaled with IL/160 A). Invented (no source). A neutral current channel
-// (Phase 'n') is the exact sum of the three phase currents.
+// (Phase 'n') is the exact sum of the three phase currents. A current
+// channel with Share s carries s times the load current: a bus with an
+// incomer (Share 1) and drives (shares summing to 1) keeps Kirchhoff's
+// current law exactly.
 //
 // Voltages. Phase a is a cosine at angle 0 of RMS VoltageV; b and c follow at
 // −120° and +120°. Each current harmonic drops across the source reactance

@@ -379,6 +379,9 @@ func (s *Source) startBlock() {
 			} else {
 				p = ih * phaseShift(h, ch.phase)
 			}
+			if !ch.isV {
+				p *= complex(cfg.Channels[c].Share, 0)
+			}
 			p *= complex(math.Sqrt2/cfg.Channels[c].Scale, 0)
 			ch.cr[o], ch.ci[o] = real(p), imag(p)
 		}
