@@ -31,6 +31,7 @@ type Config struct {
 	Store        Store     // bbolt store settings
 	MQTT         MQTT      // broker connection and topics
 	Alarms       []Alarm   // alarm rules in file order
+	Events       Events    // voltage-event detection
 	Modbus       Modbus    // read-only Modbus TCP server for a BMS; off unless the section is given
 	HTTP         HTTP      // Prometheus, JSON and status page; off unless the section is given
 	Demand       Demand    // demand interval and method

@@ -58,6 +58,8 @@ func TestParseGood(t *testing.T) {
 					Modbus: Modbus{Listen: "127.0.0.1:5020", UnitID: 1, WordOrder: "high_first"},
 					HTTP:   HTTP{Listen: "127.0.0.1:8080"},
 					Demand: Demand{Interval: 15 * time.Minute, Method: "fixed"},
+					Events: Events{DipPct: 90, SwellPct: 110, InterruptionPct: 5, HysteresisPct: 2,
+						PreCycles: 10, PostCycles: 20, MaxCaptureS: 4}, // DESIGN "Voltage events" defaults
 				}
 				if !reflect.DeepEqual(c, want) {
 					t.Errorf("got  %+v\nwant %+v", c, want)

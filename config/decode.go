@@ -22,7 +22,7 @@ import (
 var sections = map[string][]string{
 	"": {"site", "gateway", "nominal", "wiring", "sample_rate_hz", "reference", "harmonics",
 		"il_a", "isc_a", "lock_min_pct", "channels", "circuits", "source", "store", "mqtt", "alarms",
-		"modbus", "http", "demand"},
+		"modbus", "http", "demand", "events"},
 	"nominal":         {"frequency_hz", "voltage_v", "current_a"},
 	"channels[]":      {"name", "kind", "phase", "scale", "offset", "full_scale", "delay_us"},
 	"circuits[]":      {"name", "currents", "il_a"},
@@ -36,6 +36,7 @@ var sections = map[string][]string{
 	"modbus":             {"listen", "unit_id", "word_order"},
 	"http":               {"listen"},
 	"demand":             {"interval", "method"},
+	"events":             {"dip_pct", "swell_pct", "interruption_pct", "hysteresis_pct", "pre_cycles", "post_cycles", "max_capture_s"},
 	"alarms[]": {"name", "metric", "channel", "phase", "level", "above", "below", "deadband",
 		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic", "circuit", "relative_to", "learn"},
 }
@@ -412,6 +413,8 @@ func (d *decoder) decode(c *Config) *Error {
 			return d.store(v, p, &c.Store)
 		case "mqtt":
 			return d.mqtt(v, p, &c.MQTT)
+		case "events":
+			return d.events(v, p, &c.Events)
 		case "modbus":
 			return d.modbus(v, p, &c.Modbus)
 		case "http":

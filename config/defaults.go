@@ -85,6 +85,15 @@ mqtt:
   telemetry_qos: {3s: 1, 10min: 1, 2h: 1}  # MQTT QoS per level, 0..2; 1 = kept until the broker acknowledges
   summary: [10min]         # levels whose slim summary (< 1 KB, for a BMS) is published retained, QoS 1; [] = none
 
+events:                    # voltage dips, swells and interruptions (IEC 61000-4-30 style, on Urms(1/2))
+  dip_pct: 90              # % of nominal.voltage_v: an event opens when a voltage falls below this
+  swell_pct: 110           # or rises above this; swell_pct - hysteresis_pct must stay above 100
+  interruption_pct: 5      # every voltage below this: the event is an interruption; more than 0, less than dip_pct
+  hysteresis_pct: 2        # a dip ends at dip_pct + this, a swell at swell_pct - this; 0 to less than 10
+  pre_cycles: 10           # waveform captured before the start, nominal cycles, 0..600
+  post_cycles: 20          # and after the end, 0..600
+  max_capture_s: 4         # a capture is cut at this length, seconds; more than 0, at most 60
+
 alarms: []
 # alarms:                          # alarm rules; raised and cleared over MQTT with hysteresis
 #   - name: current-distortion     # required, unique

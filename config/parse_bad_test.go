@@ -105,6 +105,14 @@ var badCases = []badCase{
 	{name: "lock_min_pct zero", doc: hdr1 + "lock_min_pct: 0\n", line: 4, key: "lock_min_pct", phrase: "more than 0 and less than 100", src: srcBrief},
 	{name: "lock_min_pct 100", doc: hdr1 + "lock_min_pct: 100\n", line: 4, key: "lock_min_pct", phrase: "more than 0 and less than 100", src: srcBrief},
 
+	// events (DESIGN "Voltage events"; REFERENCE 2.4 typical settings, from memory).
+	{name: "interruption above dip", doc: hdr1 + "events: {dip_pct: 85, interruption_pct: 90}\n", line: 4, key: "events.interruption_pct", phrase: "less than dip_pct (85)", src: srcDesign},
+	{name: "dip at 100", doc: hdr1 + "events: {dip_pct: 99}\n", line: 4, key: "events.dip_pct", phrase: "dip_pct + hysteresis_pct less than 100", src: srcDesign},
+	{name: "swell under 100", doc: hdr1 + "events: {swell_pct: 101}\n", line: 4, key: "events.swell_pct", phrase: "more than 100", src: srcDesign},
+	{name: "negative hysteresis", doc: hdr1 + "events: {hysteresis_pct: -1}\n", line: 4, key: "events.hysteresis_pct", phrase: "out of range", src: srcDesign},
+	{name: "capture too long", doc: hdr1 + "events: {max_capture_s: 61}\n", line: 4, key: "events.max_capture_s", phrase: "at most 60 seconds", src: "common practice, no source (60 s cap)"},
+	{name: "events key typo", doc: hdr1 + "events: {dip_pc: 80}\n", line: 4, key: "events.dip_pc", phrase: "unknown key", src: srcDesign},
+
 	// harmonics.
 	{name: "harmonic order 51", doc: hdr1 + "harmonics: [1, 51]\n", line: 4, col: 16, key: "harmonics[1]", phrase: "order 51 is out of range; list orders from 2 to 50", src: srcMeasure},
 	{name: "harmonic order 0", doc: hdr1 + "harmonics: [0]\n", line: 4, key: "harmonics[0]", phrase: "out of range", src: srcMeasure},

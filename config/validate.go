@@ -64,12 +64,13 @@ func parse(path string, data []byte, hostname func() (string, error)) (*Config, 
 		Modbus:     Modbus{Listen: defaultModbusListen, UnitID: 1, WordOrder: WordHighFirst},
 		HTTP:       HTTP{Listen: defaultHTTPListen},
 		Demand:     Demand{Interval: defaultDemand, Method: DemandFixed},
+		Events:     defaultEvents(),
 	}
 	if e := d.decode(c); e != nil {
 		return nil, e
 	}
 	v := validator{decoder: d, c: c}
-	for _, check := range []func() *Error{v.names, v.nominal, v.scalars, v.channels, v.circuitsCheck, v.reference, v.rate, v.source, v.store, v.mqtt, v.alarms, v.integration} {
+	for _, check := range []func() *Error{v.names, v.nominal, v.scalars, v.channels, v.circuitsCheck, v.reference, v.rate, v.source, v.store, v.mqtt, v.alarms, v.integration, v.events} {
 		if e := check(); e != nil {
 			return nil, e
 		}

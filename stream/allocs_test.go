@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/events"
 )
 
 // TestPipelineAllocs: once built, the pipeline allocates nothing per
@@ -21,7 +22,8 @@ func TestPipelineAllocs(t *testing.T) {
 	// the first measured run crosses the tick and closes a 10 min value
 	// (and a 3 s block cut by the tick)
 	base := time.Date(2026, 3, 1, 9, 59, 55, 0, time.UTC)
-	p, err := New(Config{Setup: s, SampleRate: fs, NominalHz: 50, Base: base})
+	ec := events.DefaultConfig() // event detection on, as under run and replay
+	p, err := New(Config{Setup: s, SampleRate: fs, NominalHz: 50, Base: base, Events: &ec})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -61,6 +61,9 @@ func (p *Pipeline) skipGap(m uint64, emit func(*metrics.Record) error) error {
 		p.idx += k
 		p.winMissing += int(k)
 		m -= k
+		if err := p.eventsSkip(k, emit); err != nil {
+			return err
+		}
 		if p.filled == p.winN {
 			if err := p.finish(emit); err != nil {
 				return err

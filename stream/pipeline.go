@@ -11,6 +11,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/goertzel"
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/events"
 )
 
 // Cal is one channel's calibration: engineering value = raw·Scale + Offset.
@@ -38,6 +39,11 @@ type Config struct {
 	Unsynced func() bool
 	// Logger receives rate-limited warnings; nil discards.
 	Logger *slog.Logger
+	// Events, when set, turns on voltage-event detection with these
+	// thresholds and capture lengths (the signal fields are filled from
+	// the pipeline); EventSink receives the events (nil = flags only).
+	Events    *events.Config
+	EventSink EventSink
 }
 
 // Window cutting.
@@ -84,6 +90,13 @@ type Pipeline struct {
 	in  metrics.Input
 	rec *metrics.Record
 	trk tracker
+
+	ev      *events.Detector // nil = no event detection
+	evNames []string         // voltage channel names, detector order
+	evErr   error            // first error from the EventSink
+	pending bool             // p.rec is a closed window not yet emitted (see deferEmit)
+	pendS   uint64           // its first sample
+	pendE   uint64           // and the sample after its last
 
 	// window state
 	idx      uint64  // index of the next sample
@@ -177,6 +190,9 @@ func New(cfg Config) (*Pipeline, error) {
 	p.trk = newTracker(cfg.SampleRate, cfg.NominalHz, p.lockV)
 	p.tenEnd = p.nextTenEnd(0)
 	p.trk.zc.setTen(p.tenEnd)
+	if err := p.initEvents(bf); err != nil {
+		return nil, err
+	}
 	p.startWindow()
 	return p, nil
 }
@@ -252,7 +268,7 @@ func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.
 	p.useRails(src)
 	for {
 		if err := ctx.Err(); err != nil {
-			return nil
+			return p.endEvents(emit)
 		}
 		n, rerr := src.ReadFrames(p.raw)
 		if n < 0 || n*p.nch > len(p.raw) {
@@ -272,7 +288,7 @@ func (p *Pipeline) Run(ctx context.Context, src FrameReader, emit func(*metrics.
 		if rerr != nil {
 			p.leftover = p.filled
 			if errors.Is(rerr, io.EOF) {
-				return nil
+				return p.endEvents(emit)
 			}
 			return fmt.Errorf("%w: %w", ErrSource, rerr)
 		}
@@ -294,6 +310,9 @@ func (p *Pipeline) block(n int, emit func(*metrics.Record) error) error {
 		k := min(p.winN-p.filled, n-off)
 		p.segment(off, k)
 		off += k
+		if err := p.emitPending(emit, false); err != nil {
+			return err
+		}
 		if p.filled == p.winN {
 			if err := p.finish(emit); err != nil {
 				return err
@@ -326,6 +345,9 @@ func (p *Pipeline) segment(off, k int) {
 	}
 	ref := p.buf[p.ref][off : off+k]
 	p.trk.zc.write(ref)
+	if p.ev != nil {
+		p.eventsWrite(off, k)
+	}
 	for i, pr := range p.setup.Products {
 		v, cur := p.buf[pr.V][off:off+k], p.buf[pr.I][off:off+k]
 		acc := p.in.SumVI[i]
@@ -359,6 +381,7 @@ func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
 	if !lock {
 		rec.Flags |= metrics.FlagNoLock
 	}
+	p.eventFrequency(p.trk.fUsed, lock)
 	if p.cfg.Unsynced != nil && p.cfg.Unsynced() {
 		rec.Flags |= metrics.FlagClockUnsynced
 	}
@@ -381,6 +404,9 @@ func (p *Pipeline) finish(emit func(*metrics.Record) error) error {
 		}
 	}
 	p.windows++
+	if p.ev != nil {
+		return p.deferEmit(emit)
+	}
 	if err := emit(rec); err != nil {
 		return err
 	}

@@ -58,6 +58,7 @@ Commands:
   calibrate compare a few seconds with a reference instrument's readings and
             print corrected scale and delay_us lines for the config
   modbus-map  print the Modbus TCP register map of a config (CSV) for a BMS
+  report    write the weekly report of a stored week as one HTML file with charts
   config    print the documented defaults of every config key, or check a file
   version   print the version and build information
 
@@ -102,11 +103,13 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 		err = cmdCalibrate(ctx, rest, stdout, stderr)
 	case "modbus-map":
 		err = cmdModbusMap(rest, stdout)
+	case "report":
+		err = cmdReport(rest, stdout)
 	case "version", "--version", "-version":
 		err = cmdVersion(rest, stdout)
 	default:
 		fmt.Fprint(stderr, rootHelp)
-		return usagef("unknown command %q (commands: demo, run, export, evaluate, replay, simulate, modbus-map, wiring, calibrate, config, version)", cmd)
+		return usagef("unknown command %q (commands: demo, run, export, evaluate, replay, simulate, modbus-map, report, wiring, calibrate, config, version)", cmd)
 	}
 	if errors.Is(err, errHelp) {
 		return nil

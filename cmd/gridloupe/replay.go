@@ -49,6 +49,7 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 	ivName := fs.String("interval", "200ms", "interval to print: "+strings.Join(metrics.IntervalLabels()[:3], ", "))
 	format := fs.String("format", "jsonl", "output format: jsonl (unrounded), csv, table (per-phase blocks for people, with the IEEE 519 reference) or wide (one row per record)")
 	startStr := fs.String("start", "", "wall time of the first sample, RFC 3339 (default 1970-01-01T00:00:00Z)")
+	eventsPath := fs.String("events", "", "also write the voltage events (dips, swells, interruptions) to `FILE`, as JSON Lines")
 	progress := fs.Bool("progress", true, "show a progress bar on stderr when it is a terminal")
 	pcmFmt := fs.String("pcm", "", "INPUT is a raw PCM stream in `FORMAT`: "+strings.Join(pcm.FormatNames(), ", "))
 	framing := fs.String("framing", "raw", "with --pcm: raw (bare samples) or glf1 (frames with sample index and CRC)")
@@ -104,7 +105,7 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 
 	if *pcmFmt != "" {
 		return replayPCM(ctx, replayPCMArgs{cfg: cfg, setup: setup, cal: cal, base: base, iv: iv, format: fmtKind,
-			pcm: *pcmFmt, framing: *framing, input: inPath}, stdin, stdout, stderr)
+			pcm: *pcmFmt, framing: *framing, input: inPath, events: *eventsPath}, stdin, stdout, stderr)
 	}
 	r, closeIn, err := openReplayInput(inPath, stdin, stderr, *progress)
 	if err != nil {
@@ -131,7 +132,7 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 		return err
 	}
 	return replayAnalyse(ctx, replayJob{cfg: cfg, setup: setup, cal: cal, rate: rate, base: base, iv: iv, format: fmtKind,
-		src: src, input: inPath, where: where}, stdout, stderr)
+		src: src, input: inPath, where: where, events: *eventsPath}, stdout, stderr)
 }
 
 // replayJob is one replay's analysis: an opened source and what to print.
@@ -147,6 +148,7 @@ type replayJob struct {
 	input  string
 	where  func() string // where reading stopped, for the cut-recording warning
 	losses func() string // what a stream lost, "" when nothing; nil = never
+	events string        // --events FILE, "" = none
 }
 
 // replayAnalyse runs the pipeline over j.src and prints j.iv's records.
@@ -157,6 +159,15 @@ func replayAnalyse(ctx context.Context, j replayJob, stdout, stderr io.Writer) e
 	}
 	pc := pipelineConfig(cfg, setup, j.cal, rate)
 	pc.Base = j.base
+	var evf *eventFile
+	if j.events != "" {
+		var err error
+		if evf, err = createEventFile(j.events); err != nil {
+			return err
+		}
+		defer evf.Close()
+		pc.EventSink = evf
+	}
 	p, err := stream.New(pc)
 	if err != nil {
 		return err
@@ -187,6 +198,11 @@ func replayAnalyse(ctx context.Context, j replayJob, stdout, stderr io.Writer) e
 	}
 	if err := out.Flush(); err != nil && runErr == nil {
 		runErr = err
+	}
+	if evf != nil {
+		if err := evf.Close(); err != nil && runErr == nil {
+			runErr = err
+		}
 	}
 	if runErr != nil {
 		return runErr
@@ -308,6 +324,7 @@ type replayPCMArgs struct {
 	format       encode.Format
 	pcm, framing string
 	input        string
+	events       string // --events FILE, "" = none
 }
 
 // replayPCM replays a raw or GLF1 stream from a file, a FIFO or stdin.
@@ -322,5 +339,5 @@ func replayPCM(ctx context.Context, a replayPCMArgs, stdin io.Reader, stdout, st
 	}
 	defer in.close()
 	return replayAnalyse(ctx, replayJob{cfg: a.cfg, setup: a.setup, cal: a.cal, rate: rate, base: a.base, iv: a.iv,
-		format: a.format, src: in.src, input: a.input, where: in.where, losses: in.losses}, stdout, stderr)
+		format: a.format, src: in.src, input: a.input, where: in.where, losses: in.losses, events: a.events}, stdout, stderr)
 }

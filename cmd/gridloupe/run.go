@@ -290,23 +290,23 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		if err != nil {
 			return err
 		}
+		user, pubTLS := cfg.MQTT.Username, tlsCfg
 		if url == config.BrokerEmbedded {
 			b, err := broker.Start(broker.Config{Addr: embeddedAddr(o, cfg), Username: cfg.MQTT.Username, Password: pw,
-				TLS: tlsCfg, Logger: log})
+				TLS: tlsCfg, Prefix: base, Logger: log})
 			if err != nil {
 				return fmt.Errorf("embedded broker: %w", err)
 			}
 			d.brk = b
 			defer b.Close()
-			scheme := "tcp://"
-			if tlsCfg != nil {
-				scheme = "ssl://"
-			}
-			url = scheme + b.Addr()
+			// The gateway reaches its own broker on loopback with a login of
+			// its own: no certificate to match, the only publisher under base.
+			url, pubTLS = b.GatewayURL(), nil
+			user, pw = b.GatewayLogin()
 			log.Info("embedded MQTT broker listening", "addr", b.Addr())
 		}
-		pub, err := mqtt.New(mqtt.Config{Broker: url, ClientID: cfg.MQTT.ClientID, Username: cfg.MQTT.Username,
-			Password: pw, TLS: tlsCfg, Base: base, Outbox: db, Logger: log, Now: sampleNow})
+		pub, err := mqtt.New(mqtt.Config{Broker: url, ClientID: cfg.MQTT.ClientID, Username: user,
+			Password: pw, TLS: pubTLS, Base: base, Outbox: db, Logger: log, Now: sampleNow})
 		if err != nil {
 			return usagef("%s: mqtt: %v", cfg.Path, err)
 		}

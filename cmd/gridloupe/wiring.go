@@ -77,6 +77,7 @@ func pipelineConfig(cfg *config.Config, setup *metrics.Setup, cal []stream.Cal, 
 		SampleRate: fs,
 		NominalHz:  cfg.Nominal.FrequencyHz,
 		LockMinRMS: cfg.LockMinPct / 100 * cfg.Nominal.VoltageV,
+		Events:     eventsConfig(cfg),
 	}
 }
 

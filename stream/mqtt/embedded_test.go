@@ -4,6 +4,7 @@ import (
 	"crypto/tls"
 	"strings"
 	"testing"
+	"time"
 
 	paho "github.com/eclipse/paho.mqtt.golang"
 
@@ -18,7 +19,7 @@ import (
 func TestEmbeddedTLSCredentials(t *testing.T) {
 	t.Parallel()
 	certs := testcert.New(t)
-	b, err := broker.Start(broker.Config{Addr: "127.0.0.1:0", Username: "gateway", Password: testPass, TLS: certs.ServerTLS(t)})
+	b, err := broker.Start(broker.Config{Addr: "127.0.0.1:0", Username: "bms", Password: testPass, TLS: certs.ServerTLS(t), Prefix: testBase})
 	if err != nil {
 		t.Fatalf("broker: %v", err)
 	}
@@ -29,7 +30,7 @@ func TestEmbeddedTLSCredentials(t *testing.T) {
 	}
 	url := "ssl://" + b.Addr()
 	sub := newSubscriber(t, url, func(o *paho.ClientOptions) {
-		o.SetTLSConfig(clientTLS.Clone()).SetUsername("gateway").SetPassword(testPass)
+		o.SetTLSConfig(clientTLS.Clone()).SetUsername("bms").SetPassword(testPass)
 	})
 	db := openStore(t)
 	queued := map[uint64]store.Message{}
@@ -37,7 +38,12 @@ func TestEmbeddedTLSCredentials(t *testing.T) {
 		m := alarmMsg(i)
 		queued[queue(t, db, m)[0]] = m
 	}
-	startPub(t, url, db, func(c *mqtt.Config) { c.TLS, c.Username, c.Password = clientTLS, "gateway", testPass })
+	// the gateway's own path: plain loopback, its own login, no certificate
+	if !strings.HasPrefix(b.GatewayURL(), "tcp://127.0.0.1:") {
+		t.Errorf("gateway URL %q, want plain TCP on loopback", b.GatewayURL())
+	}
+	gwUser, gwPass := b.GatewayLogin()
+	startPub(t, b.GatewayURL(), db, func(c *mqtt.Config) { c.Username, c.Password = gwUser, gwPass })
 	waitUntil(t, "delivery through the embedded broker", func() bool { return pendingCount(t, db) == 0 && len(sub.outboxMsgs(t)) >= 4 })
 	checkDelivery(t, sub.outboxMsgs(t), queued)
 	if st := sub.statuses(t); len(st) == 0 || st[0].Status != "online" {
@@ -48,7 +54,7 @@ func TestEmbeddedTLSCredentials(t *testing.T) {
 	wrong := "x" + testPass
 	db2 := openStore(t)
 	queue(t, db2, alarmMsg(9))
-	r := startPub(t, "ssl://gateway:"+wrong+"@"+b.Addr(), db2, func(c *mqtt.Config) { c.TLS = clientTLS })
+	r := startPub(t, "ssl://bms:"+wrong+"@"+b.Addr(), db2, func(c *mqtt.Config) { c.TLS = clientTLS })
 	waitUntil(t, "a refused connection", func() bool { return r.Stats().Failures > 0 })
 	if s := r.Stats(); s.Connected || strings.Contains(s.LastError, wrong) {
 		t.Errorf("stats %+v: want not connected, password masked", s)
@@ -90,6 +96,67 @@ func TestTLSConfig(t *testing.T) {
 			}
 			if (tc.ca != "") != (cfg.RootCAs != nil) || (tc.cert != "") != (len(cfg.Certificates) == 1) {
 				t.Errorf("roots %v, %d certificates", cfg.RootCAs != nil, len(cfg.Certificates))
+			}
+		})
+	}
+}
+
+// TestEmbeddedACL: only the gateway's own login publishes under its prefix.
+// A client with the configured login subscribes and may publish elsewhere;
+// an anonymous loopback client (no login configured) may only subscribe
+// (README, MQTT topics and payloads: embedded broker).
+func TestEmbeddedACL(t *testing.T) {
+	t.Parallel()
+	statusTopic := mqtt.StatusTopic(testBase)
+	cases := []struct {
+		name        string
+		user, pass  string // the configured login; "" = none
+		client      func(b *broker.Broker) (user, pass string)
+		topic       string
+		wantArrives bool
+	}{
+		{"gateway under its prefix", "bms", testPass, func(b *broker.Broker) (string, string) { return b.GatewayLogin() }, statusTopic, true},
+		{"login under the prefix", "bms", testPass, func(*broker.Broker) (string, string) { return "bms", testPass }, statusTopic, false},
+		{"login elsewhere", "bms", testPass, func(*broker.Broker) (string, string) { return "bms", testPass }, "site/bms/setpoint", true},
+		{"anonymous under the prefix", "", "", func(*broker.Broker) (string, string) { return "", "" }, statusTopic, false},
+		{"anonymous elsewhere", "", "", func(*broker.Broker) (string, string) { return "", "" }, "site/bms/setpoint", false},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			t.Parallel()
+			b, err := broker.Start(broker.Config{Addr: "127.0.0.1:0", Username: tc.user, Password: tc.pass, Prefix: testBase})
+			if err != nil {
+				t.Fatal(err)
+			}
+			t.Cleanup(func() { _ = b.Close() })
+			gwUser, gwPass := b.GatewayLogin()
+			got := make(chan string, 4)
+			watch := paho.NewClient(paho.NewClientOptions().AddBroker(b.GatewayURL()).SetClientID("watch").
+				SetUsername(gwUser).SetPassword(gwPass))
+			if tok := watch.Connect(); !tok.WaitTimeout(waitLong) || tok.Error() != nil {
+				t.Fatalf("watcher: %v", tok.Error())
+			}
+			defer watch.Disconnect(50)
+			if tok := watch.Subscribe("#", 1, func(_ paho.Client, m paho.Message) { got <- m.Topic() }); !tok.WaitTimeout(waitLong) || tok.Error() != nil {
+				t.Fatalf("subscribe: %v", tok.Error())
+			}
+			u, p := tc.client(b)
+			c := paho.NewClient(paho.NewClientOptions().AddBroker("tcp://" + b.Addr()).SetClientID("other").
+				SetUsername(u).SetPassword(p))
+			if tok := c.Connect(); !tok.WaitTimeout(waitLong) || tok.Error() != nil {
+				t.Fatalf("connect: %v", tok.Error())
+			}
+			defer c.Disconnect(50)
+			c.Publish(tc.topic, 1, true, `{"status":"online","fake":true}`).WaitTimeout(waitLong)
+			select {
+			case topic := <-got:
+				if !tc.wantArrives {
+					t.Errorf("a publish on %s arrived; want it refused", topic)
+				}
+			case <-time.After(2 * time.Second): // common practice, no source: loopback delivery takes milliseconds
+				if tc.wantArrives {
+					t.Errorf("the publish on %s never arrived", tc.topic)
+				}
 			}
 		})
 	}

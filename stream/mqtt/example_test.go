@@ -64,7 +64,8 @@ func ExamplePublisher_Run() {
 		fmt.Println(err)
 		return
 	}
-	p, err := mqtt.New(mqtt.Config{Broker: "tcp://" + b.Addr(), ClientID: "dc2-gw1", Base: base, Outbox: db})
+	user, pass := b.GatewayLogin() // only the gateway's own login may publish
+	p, err := mqtt.New(mqtt.Config{Broker: b.GatewayURL(), ClientID: "dc2-gw1", Base: base, Outbox: db, Username: user, Password: pass})
 	if err != nil {
 		fmt.Println(err)
 		return

@@ -1,6 +1,7 @@
 package mqtt_test
 
 import (
+	"context"
 	"errors"
 	"strings"
 	"testing"
@@ -438,30 +439,32 @@ func TestStatusDebounced(t *testing.T) {
 }
 
 // TestDirect: a direct message reaches the broker without the outbox, and
-// of two handed over while the broker is away only the newer one is sent.
+// of two handed over before the publisher could send (here: before Run)
+// only the newer one is sent.
 func TestDirect(t *testing.T) {
 	t.Parallel()
 	b := mqtttest.Start(t)
 	db := openStore(t)
 	topic := testBase + "/health"
 	sub := mqtttest.Subscribe(t, b.URL(), topic)
-	r := startPub(t, b.URL(), db, nil)
-	r.Direct(topic, []byte(`{"n":1}`))
-	sub.WaitFor(t, "the first direct message", 20*time.Second, func(m []mqtttest.Message) bool { return len(m) == 1 })
-	b.Stop()
-	waitUntil(t, "disconnected", func() bool { return !r.Connected() })
-	r.Direct(topic, []byte(`{"n":2}`))
-	r.Direct(topic, []byte(`{"n":3}`))
-	b.Start()
-	msgs := sub.WaitFor(t, "the newest direct message", 60*time.Second, func(m []mqtttest.Message) bool {
-		return len(m) > 0 && string(m[len(m)-1].Payload) == `{"n":3}`
-	})
-	for _, m := range msgs {
-		if string(m.Payload) == `{"n":2}` {
-			t.Errorf("a replaced direct message was sent")
-		}
+	p, err := mqtt.New(mqtt.Config{Broker: b.URL(), ClientID: "dc2-gw1-direct", Base: testBase, Outbox: db,
+		AckTimeout: testAckTTL, RetryInterval: testRetry, Poll: testPoll})
+	if err != nil {
+		t.Fatal(err)
 	}
-	if p, _ := db.Pending(0, 10); len(p) != 0 {
-		t.Errorf("%d messages in the outbox, want none", len(p))
+	p.Direct(topic, []byte(`{"n":1}`))
+	p.Direct(topic, []byte(`{"n":2}`))
+	ctx, cancel := context.WithCancel(context.Background())
+	done := make(chan error, 1)
+	go func() { done <- p.Run(ctx) }()
+	defer func() { cancel(); <-done }()
+	msgs := sub.WaitFor(t, "the newer direct message", 30*time.Second, func(m []mqtttest.Message) bool { return len(m) > 0 })
+	if len(msgs) != 1 || string(msgs[0].Payload) != `{"n":2}` {
+		t.Errorf("received %d messages, first %q; want only the newer one", len(msgs), msgs[0].Payload)
+	}
+	p.Direct(topic, []byte(`{"n":3}`))
+	sub.WaitFor(t, "a later direct message", 30*time.Second, func(m []mqtttest.Message) bool { return len(m) == 2 })
+	if q, _ := db.Pending(0, 10); len(q) != 0 {
+		t.Errorf("%d messages in the outbox, want none", len(q))
 	}
 }

@@ -6,7 +6,13 @@
 //
 // The broker listens on one TCP address, loopback by default. Listening
 // anywhere else needs TLS and a username and password; without them Start
-// refuses. Without credentials every loopback client is allowed; with them
-// every client must present them. The broker keeps nothing on disk:
-// retained messages and sessions live in memory and end with the process.
+// refuses. The gateway itself logs in with a login made afresh at every
+// Start (GatewayLogin) over plain TCP on loopback (GatewayURL: with TLS, a
+// loopback listener of its own), so it never needs a certificate that
+// matches the listen address. Only the gateway may publish under
+// Config.Prefix. Other clients present the configured username and
+// password and may subscribe anywhere and publish elsewhere; without a
+// configured login they are anonymous, loopback only, and may only
+// subscribe. The broker keeps nothing on disk: retained messages and
+// sessions live in memory and end with the process.
 package broker

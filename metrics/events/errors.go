@@ -1,0 +1,6 @@
+package events
+
+import "errors"
+
+// ErrConfig reports a Config that New cannot use.
+var ErrConfig = errors.New("events: invalid config")
