@@ -1,11 +1,39 @@
 package config
 
+import (
+	"strings"
+
+	"github.com/gridloupe/gridloupe/metrics/quantity"
+)
+
 // Defaults returns a commented YAML document listing every key with its
 // default and allowed values, for `gridloupe config --defaults`. The keys
 // without a default (nominal values) hold an example; channels, and keys
 // whose default is derived (gateway, reference, client_id), are comments.
 // With a channels list appended it parses to the defaults.
-func Defaults() string { return defaultsDoc }
+// The alarm metric lines are built from metrics/quantity's table.
+func Defaults() string {
+	return strings.Replace(defaultsDoc, "{{alarm metrics}}", alarmMetricsDoc(), 1)
+}
+
+// alarmMetricsDoc lists the metrics an alarm may watch, with the units of
+// the per-channel and per-phase quantities, as comment lines.
+func alarmMetricsDoc() string {
+	const pad = "#                                  #   "
+	ch := append(quantity.AlarmChannelNames(), "pct", "pct_il")
+	rest := append(quantity.AlarmPhaseNames(), "freq_hz", "unbalance_voltage_pct", "unbalance_current_pct")
+	var b strings.Builder
+	b.WriteString("#     metric: tdd_h50_pct          # required: " + strings.Join(ch, " | ") + "\n")
+	b.WriteString(pad + "| " + strings.Join(rest, " | ") + "\n")
+	var units []string
+	for _, q := range append(quantity.Channels(), quantity.Phases()...) {
+		if q.Alarm {
+			units = append(units, q.Name+" "+q.Unit)
+		}
+	}
+	b.WriteString(pad + "units: " + strings.Join(units, ", ") + "; pct % of the fundamental, pct_il % of IL\n")
+	return b.String()
+}
 
 const defaultsDoc = `# gridloupe configuration: every key, with its default and allowed values.
 # CAUTION: wiring to mains can kill. Installation is work for qualified personnel
@@ -97,9 +125,7 @@ events:                    # voltage dips, swells and interruptions (IEC 61000-4
 alarms: []
 # alarms:                          # alarm rules; raised and cleared over MQTT with hysteresis
 #   - name: current-distortion     # required, unique
-#     metric: tdd_h50_pct          # required: rms | thd_pct | thd_h50_pct | tdd_pct | tdd_h50_pct | pct | pct_il
-#                                  #   | pf | dpf | freq_hz | unbalance_voltage_pct | unbalance_current_pct
-#                                  # (h50: needs harmonics: all; tdd and pct_il: need il_a)
+{{alarm metrics}}#                                  # (h50: needs harmonics: all; tdd and pct_il: need il_a)
 #     channel: ia                  # per-channel metrics: a configured channel
 #     phase: total                 # pf and dpf: a | b | c | total (default total)
 #     circuit: drive1              # pf and dpf with circuits: required, the circuit watched

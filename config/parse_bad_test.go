@@ -204,7 +204,7 @@ var badCases = []badCase{
 	{name: "telemetry scalar", doc: hdr1 + "mqtt: {telemetry: 10min}\n", line: 4, key: "mqtt.telemetry", phrase: "must be a list of interval labels", src: srcDaemon},
 
 	// alarms.
-	{name: "alarm metric unknown", doc: hdr3 + "alarms: [{name: x, metric: thd, channel: ia, above: 5}]\n", line: 10, key: "alarms[0].metric", phrase: "use one of: rms, thd_pct, thd_h50_pct, tdd_pct, tdd_h50_pct, pct, pct_il, pf, dpf, freq_hz, unbalance_voltage_pct, unbalance_current_pct", src: srcBrief},
+	{name: "alarm metric unknown", doc: hdr3 + "alarms: [{name: x, metric: thd, channel: ia, above: 5}]\n", line: 10, key: "alarms[0].metric", phrase: "use one of: rms, thd_pct, thd_h50_pct, tdd_pct, tdd_h50_pct, crest_factor, pct, pct_il, pf, dpf, freq_hz, unbalance_voltage_pct, unbalance_current_pct", src: srcBrief},
 	{name: "alarm name missing", doc: hdr3 + "alarms: [{metric: rms, channel: ia, above: 5}]\n", line: 10, key: "alarms[0].name", phrase: "required", src: srcBrief},
 	{name: "alarm metric missing", doc: hdr3 + "alarms: [{name: x, channel: ia, above: 5}]\n", line: 10, key: "alarms[0].metric", phrase: "required: one of rms", src: srcBrief},
 	{name: "alarm names twice", doc: hdr3 + "alarms:\n  - {name: x, metric: rms, channel: ia, above: 5}\n  - {name: x, metric: rms, channel: ib, above: 5}\n", line: 12, key: "alarms[1].name", phrase: `"x" is used twice (first at line 11)`, src: srcBrief},

@@ -12,12 +12,16 @@ import (
 	"unicode"
 
 	"go.yaml.in/yaml/v3"
+
+	"github.com/gridloupe/gridloupe/metrics/quantity"
 )
 
 // Read-only tables of allowed values.
 var (
-	metricNames = []string{"rms", "thd_pct", "thd_h50_pct", "tdd_pct", "tdd_h50_pct", "pct", "pct_il",
-		"pf", "dpf", "freq_hz", "unbalance_voltage_pct", "unbalance_current_pct"}
+	// metricNames: the per-channel and per-phase quantities alarms may
+	// watch (metrics/quantity's table), pct and pct_il, and the system-wide ones.
+	metricNames = slices.Concat(quantity.AlarmChannelNames(), []string{"pct", "pct_il"},
+		quantity.AlarmPhaseNames(), []string{"freq_hz", "unbalance_voltage_pct", "unbalance_current_pct"})
 	alarmLevels     = []string{"200ms", "3s", "10min", "2h"} // DESIGN "Time": the closed set of interval labels
 	telemetryLevels = []string{"3s", "10min", "2h"}
 )
@@ -534,8 +538,8 @@ func (v *validator) alarms() *Error {
 func (v *validator) alarm(p string, a *Alarm) *Error {
 	c := v.c
 	var ch *Channel // the rule's channel, for per-channel metrics
-	switch a.Metric {
-	case "rms", "thd_pct", "thd_h50_pct", "tdd_pct", "tdd_h50_pct", "pct", "pct_il":
+	switch {
+	case slices.Contains(quantity.AlarmChannelNames(), a.Metric) || a.Metric == "pct" || a.Metric == "pct_il":
 		if v.has(p + ".circuit") {
 			return v.fail(p+".circuit", "applies to pf and dpf; %s is per channel, and the channel names its circuit", a.Metric)
 		}
@@ -550,7 +554,7 @@ func (v *validator) alarm(p string, a *Alarm) *Error {
 			return v.fail(p+".channel", "no channel is named %q", a.Channel)
 		}
 		ch = &c.Channels[i]
-	case "pf", "dpf":
+	case slices.Contains(quantity.AlarmPhaseNames(), a.Metric):
 		if v.has(p + ".channel") {
 			return v.fail(p+".channel", "%s is per phase: set phase (a, b, c or total), not channel", a.Metric)
 		}

@@ -3,6 +3,8 @@ package metrics
 import (
 	"math"
 	"math/cmplx"
+
+	"github.com/gridloupe/gridloupe/metrics/quantity"
 )
 
 // acc accumulates one key over the added records, skipping null values
@@ -49,6 +51,43 @@ type harmAcc struct {
 type chanAcc struct {
 	rms, dc, dc2 acc // rms: squares; dc: mean; dc2: mean of dc² (for THD/TDD)
 	h            []harmAcc
+	gen          [quantity.NumChannel]genAcc // quantities the table's rule aggregates alone
+}
+
+// genAcc accumulates one quantity by its table rule (Mean, RMS2 or Max),
+// skipping null and infinite window values.
+type genAcc struct {
+	sum, max float64
+	n        int
+}
+
+func (g *genAcc) add(rule quantity.Agg, x float64) {
+	if !finite(x) {
+		return
+	}
+	switch rule {
+	case quantity.RMS2:
+		g.sum += x * x
+	case quantity.Max:
+		if g.n == 0 || x > g.max {
+			g.max = x
+		}
+	default:
+		g.sum += x
+	}
+	g.n++
+}
+
+func (g *genAcc) result(rule quantity.Agg) float64 {
+	switch {
+	case g.n == 0:
+		return Null()
+	case rule == quantity.RMS2:
+		return math.Sqrt(g.sum / float64(g.n))
+	case rule == quantity.Max:
+		return g.max
+	}
+	return g.sum / float64(g.n)
 }
 
 type phaseAcc struct {
@@ -129,6 +168,7 @@ func (a *Aggregator) Reset() {
 		c := &a.ch[i]
 		c.rms, c.dc, c.dc2 = acc{}, acc{}, acc{}
 		clear(c.h)
+		c.gen = [quantity.NumChannel]genAcc{}
 	}
 	clear(a.ph)
 	a.tot = totalAcc{}
@@ -171,6 +211,11 @@ func (a *Aggregator) Add(r *Record) {
 		c.rms.addSq(v.RMS)
 		c.dc.add(v.DC)
 		c.dc2.addSq(v.DC)
+		for id := range quantity.NumChannel {
+			if rule := quantity.Channel(id).Agg; rule.Generic() {
+				c.gen[id].add(rule, *v.Field(id))
+			}
+		}
 		for k := range v.H {
 			x := &v.H[k]
 			j := a.hIdx(k, x.H)
@@ -330,6 +375,11 @@ func (a *Aggregator) channel(g *agg, i int, cv *ChannelValues) {
 	m := c.rms.mean()
 	cv.RMS = keep(math.Sqrt(m))
 	cv.DC = keep(c.dc.mean())
+	for id := range quantity.NumChannel {
+		if rule := quantity.Channel(id).Agg; rule.Generic() {
+			*cv.Field(id) = keep(c.gen[id].result(rule))
+		}
+	}
 	x1 := c.h[0].rms.rms()
 	fundOK := x1 >= s.floor(i)
 	rest := max(0, m-c.dc2.mean()-x1*x1)

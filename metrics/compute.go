@@ -3,6 +3,8 @@ package metrics
 import (
 	"math"
 	"math/cmplx"
+
+	"github.com/gridloupe/gridloupe/metrics/quantity"
 )
 
 // Fractions and constants of DESIGN's "Conventions of measurement".
@@ -189,6 +191,7 @@ func (w *window) channel(ci int, cv *ChannelValues, refOK bool, thRef float64) {
 	m, dc := w.ms(ci)
 	cv.RMS = w.def(math.Sqrt(m))
 	cv.DC = w.def(dc)
+	cv.CrestFactor = w.crest(ci, math.Sqrt(m))
 
 	x1 := cmplx.Abs(ph[0])
 	fundOK := x1 >= s.floor(ci)
@@ -533,7 +536,9 @@ func (w *window) seq(q []Seq, idx [3]int, volts bool) float64 {
 }
 
 func nullChannel(cv *ChannelValues) {
-	cv.RMS, cv.DC, cv.THDPct, cv.THDH50Pct, cv.TDDPct, cv.TDDH50Pct = Null(), Null(), Null(), Null(), Null(), Null()
+	for id := range quantity.NumChannel {
+		*cv.Field(id) = Null()
+	}
 	for k := range cv.H {
 		h := &cv.H[k]
 		h.RMS, h.Pct, h.PctIL, h.PhaseDeg = Null(), Null(), Null(), Null()

@@ -89,6 +89,7 @@ func dftSums(x []float64, orders []int) ChannelSums {
 	for _, v := range x {
 		cs.Sum += v
 		cs.SumSq += v * v
+		cs.Peak = max(cs.Peak, math.Abs(v))
 	}
 	for j, h := range orders {
 		k := h * cycles

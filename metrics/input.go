@@ -51,6 +51,7 @@ type ChannelSums struct {
 	N       int          // samples in the window
 	Sum     float64      // Σx
 	SumSq   float64      // Σx²
+	Peak    float64      // max |x| (for crest_factor)
 	Phasors []complex128 // RMS phasors per Setup.Orders, angle at the window's first sample, before delay correction and referencing
 	Clipped bool         // |x| reached FullScale
 	Bad     bool         // a NaN or Inf sample was seen

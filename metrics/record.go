@@ -150,7 +150,10 @@ type ChannelValues struct {
 	THDH50Pct float64 // orders 2..50; NaN when not all orders are computed
 	TDDPct    float64 // currents with IL; NaN otherwise
 	TDDH50Pct float64
-	H         []Harmonic // Setup.Orders, fundamental first
+	// CrestFactor is the window's peak |x| over its RMS (intervals keep
+	// the largest); null below the channel's near-zero floor.
+	CrestFactor float64
+	H           []Harmonic // Setup.Orders, fundamental first
 }
 
 // PhaseValues holds one phase's powers (a phase with both a voltage and a current).

@@ -6,12 +6,17 @@ import (
 	"math"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/quantity"
 )
 
 // recordVersion is the leading byte of every stored record. Version 2 adds
 // the total's positive-sequence P1⁺ and Q1⁺ (which the 2 h aggregation
-// needs for dpf); version 1 records decode them as null.
-const recordVersion = 2
+// needs for dpf); version 1 records decode them as null. Version 3 is the
+// slim 3 s form (codec3s.go). Version 4 (full) and 5 (slim) add
+// crest_factor per channel; versions 1 to 3 decode it as null. The per-channel and per-phase scalars are the
+// stored quantities of metrics/quantity in table order; a quantity whose
+// Since is above a record's version decodes as null.
+const recordVersion = 4
 
 // RecordBudget8Ch50 is the byte budget of one stored record with 8 channels,
 // all 50 orders, three phases and both sequence sets (see the package doc).
@@ -117,12 +122,11 @@ func encodeRec(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup, slim
 			f |= chPctILNull
 		}
 		b = append(b, f)
-		b = appendF32(b, c.RMS)
-		b = appendF32(b, c.DC)
-		b = appendF32(b, c.THDPct)
-		b = appendF32(b, c.THDH50Pct)
-		b = appendF32(b, c.TDDPct)
-		b = appendF32(b, c.TDDH50Pct)
+		for id := range quantity.NumChannel {
+			if quantity.Channel(id).Out&quantity.Store != 0 {
+				b = appendF32(b, *c.Field(id))
+			}
+		}
 		if slim {
 			b = appendSlimHarmonics(b, c.H)
 			continue
@@ -136,8 +140,10 @@ func encodeRec(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup, slim
 	for i := range r.Phases {
 		p := &r.Phases[i]
 		b = append(b, p.Phase)
-		for _, v := range [...]float64{p.P, p.P1, p.Q1, p.S, p.S1, p.SN, p.DI, p.DV, p.SH, p.PF, p.DPF} {
-			b = appendF32(b, v)
+		for id := range quantity.NumPhase {
+			if quantity.Phase(id).Out&quantity.Store != 0 {
+				b = appendF32(b, *p.Field(id))
+			}
 		}
 	}
 	if len(r.Phases) > 0 || deltaTotal {
@@ -233,7 +239,7 @@ func recordLayoutID(b []byte) (uint16, error) {
 	if len(b) < 3 {
 		return 0, fmt.Errorf("record of %d bytes: %w", len(b), ErrCorrupt)
 	}
-	if b[0] != recordVersion && b[0] != 1 && b[0] != recordVersionSlim {
+	if b[0] < 1 || b[0] > recordVersionSlim {
 		return 0, fmt.Errorf("record version %d: %w", b[0], ErrCorrupt)
 	}
 	return be.Uint16(b[1:3]), nil
@@ -271,8 +277,12 @@ func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Rec
 	for i := range r.Channels {
 		c := &r.Channels[i]
 		f := rd.u8()
-		c.RMS, c.DC, c.THDPct, c.THDH50Pct, c.TDDPct, c.TDDH50Pct = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
-		if b[0] == recordVersionSlim {
+		for id := range quantity.NumChannel {
+			if q := quantity.Channel(id); q.Out&quantity.Store != 0 {
+				*c.Field(id) = storedF32(rd, q, b[0])
+			}
+		}
+		if slimForm(b[0]) {
 			rd.slimHarmonics(c.H, s.Orders)
 			fillPct(c, f, s.Channels[i].Kind, s.ILA)
 			continue
@@ -294,8 +304,11 @@ func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Rec
 	for i := range r.Phases {
 		p := &r.Phases[i]
 		p.Phase = rd.u8()
-		p.P, p.P1, p.Q1, p.S, p.S1, p.SN = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
-		p.DI, p.DV, p.SH, p.PF, p.DPF = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
+		for id := range quantity.NumPhase {
+			if q := quantity.Phase(id); q.Out&quantity.Store != 0 {
+				*p.Field(id) = storedF32(rd, q, b[0])
+			}
+		}
 	}
 	if np > 0 || pres&hasTotal != 0 {
 		t := &r.Total
@@ -312,7 +325,7 @@ func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Rec
 		}
 		sq := make([]metrics.Seq, len(s.Orders))
 		for j := range sq {
-			if b[0] == recordVersionSlim && j > 0 {
+			if slimForm(b[0]) && j > 0 {
 				sq[j] = metrics.Seq{H: s.Orders[j], Pos: nan(), Neg: nan(), Zero: nan()}
 				continue
 			}
@@ -351,15 +364,41 @@ func fillPct(c *metrics.ChannelValues, f byte, k metrics.Kind, il float64) {
 
 func nan() float64 { return math.NaN() }
 
+// storedF32 reads quantity q from a record of the given version: stored
+// since q.Since, null in older records.
+func storedF32(rd *reader, q quantity.Q, version byte) float64 {
+	if version < q.Since {
+		return nan()
+	}
+	return rd.f32()
+}
+
+// storedScalars counts the stored per-channel and per-phase quantities of
+// the current record version.
+func storedScalars() (perChannel, perPhase int) {
+	for _, q := range quantity.Channels() {
+		if q.Out&quantity.Store != 0 && q.Since <= recordVersion {
+			perChannel++
+		}
+	}
+	for _, q := range quantity.Phases() {
+		if q.Out&quantity.Store != 0 && q.Since <= recordVersion {
+			perPhase++
+		}
+	}
+	return perChannel, perPhase
+}
+
 // RecordBytes estimates the encoded size of one aggregate record for
-// layout s (version 2, with the 10 s frequency, sequences when the wiring
+// layout s (the current version, with the 10 s frequency, sequences when the wiring
 // has them), plus bbolt's per-entry overhead: for sizing retention
 // against MaxSizeMB.
 func RecordBytes(s *metrics.Setup) int {
 	nch, nord, nph := len(s.Channels), len(s.Orders), len(s.Pairs)
 	n := 1 + 2 + 8 + 8 + 3 + 2 + 1 + 4 + 4
-	n += nch * (1 + 6*4 + nord*(4+2))
-	n += 1 + nph*(1+11*4)
+	perCh, perPh := storedScalars()
+	n += nch * (1 + perCh*4 + nord*(4+2))
+	n += 1 + nph*(1+perPh*4)
 	if nph > 0 || s.HasTotal() {
 		n += 11 * 4
 	}

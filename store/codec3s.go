@@ -14,7 +14,14 @@ import (
 // decode as null). That is what the weekly evaluation and the alarms
 // need of a 3 s value (THD, TDD and the per-order magnitudes), in about a
 // third of the bytes, so a week fits the default store cap.
-const recordVersionSlim = 3
+const recordVersionSlim = 5
+
+// recordVersionSlimNoCrest is the slim form written before crest_factor
+// (version 3); it decodes with crest_factor null.
+const recordVersionSlimNoCrest = 3
+
+// slimForm reports whether record version v is a slim 3 s record.
+func slimForm(v byte) bool { return v == recordVersionSlim || v == recordVersionSlimNoCrest }
 
 // appendSlimHarmonics appends the magnitudes of h as binary16.
 func appendSlimHarmonics(b []byte, h []metrics.Harmonic) []byte {

@@ -1,6 +1,7 @@
 package store
 
 import (
+	"encoding/binary"
 	"errors"
 	"math/rand/v2"
 	"os"
@@ -54,13 +55,15 @@ func TestRecordRoundTrip(t *testing.T) {
 	}
 }
 
-// recordSize is the closed form of the version-2 format in doc.go.
+// recordSize is the closed form of the version-3 format in doc.go: seven
+// float32 scalars per channel (rms, dc, thd, thd_h50, tdd, tdd_h50,
+// crest_factor).
 func recordSize(nch, nord, nph int, freq10s, seqV, seqI bool) int {
 	n := 1 + 2 + 8 + 8 + 3 /* uvarint(30720) */ + 2 + 1 + 4
 	if freq10s {
 		n += 4
 	}
-	n += nch * (1 + 6*4 + nord*(4+2))
+	n += nch * (1 + 7*4 + nord*(4+2))
 	n++
 	n += nph * (1 + 11*4)
 	if nph > 0 {
@@ -83,7 +86,7 @@ func TestRecordBudget(t *testing.T) {
 		src    string
 	}{
 		{"8ch 50 orders", allOrders(), RecordBudget8Ch50, "budget stated in doc.go"},
-		{"8ch 17 orders", orders17, 1700, "1,645 bytes by the closed form in doc.go, rounded up"},
+		{"8ch 17 orders", orders17, 1700, "1,677 bytes by the closed form in doc.go, rounded up"},
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
@@ -270,4 +273,48 @@ func thousands(n int) string {
 		s = s[:i] + "," + s[i:]
 	}
 	return s
+}
+
+// TestDecodeVersion2: a record written before crest_factor existed
+// (version 2: six scalars per channel) decodes with crest_factor null and
+// every other value intact (README "Migration notes": old stores stay
+// readable).
+func TestDecodeVersion2(t *testing.T) {
+	t.Parallel()
+	s := setup8(orders17)
+	want := newRecord(s)
+	fillRecord(want, s, rand.New(rand.NewPCG(5, 6)), t0, true)
+	b, err := encodeRecord(nil, want, 1, s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Rebuild the bytes as version 2 wrote them: drop each channel's
+	// crest_factor (the 7th float32 after the channel's flags byte).
+	off := 1 + 2 + 8 + 8
+	_, n := binary.Uvarint(b[off:])
+	off += n + 2 + 1 + 4
+	if want.HasFreq10s {
+		off += 4
+	}
+	v2 := append([]byte(nil), b[:off]...)
+	for range s.Channels {
+		chLen := 1 + 7*4 + len(s.Orders)*(4+2)
+		ch := b[off : off+chLen]
+		v2 = append(v2, ch[:1+6*4]...)
+		v2 = append(v2, ch[1+7*4:]...)
+		off += chLen
+	}
+	v2 = append(v2, b[off:]...)
+	v2[0] = 2
+	got, err := decodeRecord(v2, metrics.Int3s, s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := range got.Channels {
+		if !metrics.IsNull(got.Channels[i].CrestFactor) {
+			t.Errorf("channel %d: crest_factor %v from a version-2 record, want null", i, got.Channels[i].CrestFactor)
+		}
+		got.Channels[i].CrestFactor = want.Channels[i].CrestFactor
+	}
+	compareRecords(t, want, got)
 }

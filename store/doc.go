@@ -26,7 +26,8 @@
 // duration in seconds (float64), samples (uvarint), flags (uint16), a
 // presence byte, the frequency (float32) and the 10 s frequency when
 // present; per channel a flags byte (pct/pct_il undefined), rms, dc, thd,
-// thd_h50, tdd, tdd_h50 (float32) and per configured order the rms
+// thd_h50, tdd, tdd_h50, crest_factor (float32; the stored quantities of
+// metrics/quantity in table order, crest_factor since version 3) and per configured order the rms
 // (float32) and phase (int16 centi-degrees, −32768 = null); the phase count
 // and per phase its letter and P, P1, Q1, S, S1, SN, DI, DV, SH, PF, DPF
 // (float32); the totals (9 × float32, then P1⁺ and Q1⁺; version 1 lacks
@@ -38,8 +39,8 @@
 //
 // Byte budget: with 8 channels (va, vb, vc, ia, ib, ic, in and one more
 // current), all 50 orders, three phases and both sequence sets a record is
-// 4,021 bytes with the 10 s frequency (RecordBudget8Ch50 = 4,096 is the asserted ceiling); with the
-// 17 orders of a typical 3 s configuration it is 1,645 bytes. Float32
+// 4,053 bytes with the 10 s frequency (RecordBudget8Ch50 = 4,096 is the asserted ceiling); with the
+// 17 orders of a typical 3 s configuration it is 1,677 bytes. Float32
 // keeps about 7 significant digits (relative 6e-8); phases are rounded to
 // 0.01°.
 //

@@ -115,6 +115,7 @@ func fillRecord(r *metrics.Record, s *metrics.Setup, rng *rand.Rand, start time.
 	for i := range r.Channels {
 		c := &r.Channels[i]
 		c.RMS, c.DC, c.THDPct, c.THDH50Pct, c.TDDPct, c.TDDH50Pct = val(), val(), val(), val(), val(), val()
+		c.CrestFactor = val()
 		pctNull := rng.IntN(10) == 0
 		h1 := 50 + rng.Float64()*200
 		for j := range c.H {
@@ -252,6 +253,7 @@ func compareRecords(tb testing.TB, want, got *metrics.Record) {
 		f("thd_h50", w.THDH50Pct, g.THDH50Pct)
 		f("tdd", w.TDDPct, g.TDDPct)
 		f("tdd_h50", w.TDDH50Pct, g.TDDH50Pct)
+		f("crest_factor", w.CrestFactor, g.CrestFactor)
 		if len(g.H) != len(w.H) {
 			tb.Fatalf("channel %d: %d orders, want %d", i, len(g.H), len(w.H))
 		}

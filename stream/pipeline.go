@@ -239,7 +239,7 @@ func (p *Pipeline) startWindow() {
 	p.filled = 0
 	for c := range p.nch {
 		ch := &p.in.Ch[c]
-		ch.N, ch.Sum, ch.SumSq, ch.Clipped, ch.Bad = 0, 0, 0, false, false
+		ch.N, ch.Sum, ch.SumSq, ch.Peak, ch.Clipped, ch.Bad = 0, 0, 0, 0, false, false
 	}
 	for i := range p.in.SumVI {
 		p.in.SumVI[i] = 0
@@ -328,17 +328,18 @@ func (p *Pipeline) segment(off, k int) {
 		seg := p.buf[c][off : off+k]
 		p.ex.write(c, p.filled, seg)
 		ch := &p.in.Ch[c]
-		s, ss := ch.Sum, ch.SumSq
+		s, ss, pk := ch.Sum, ch.SumSq, ch.Peak
 		hi, lo := p.clipHi[c], p.clipLo[c]
 		clip := false
 		for _, x := range seg {
 			s += x
 			ss += x * x
+			pk = max(pk, math.Abs(x))
 			if x >= hi || x <= lo {
 				clip = true
 			}
 		}
-		ch.Sum, ch.SumSq, ch.N = s, ss, ch.N+k
+		ch.Sum, ch.SumSq, ch.Peak, ch.N = s, ss, pk, ch.N+k
 		if clip {
 			ch.Clipped = true
 		}

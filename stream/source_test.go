@@ -186,3 +186,21 @@ func TestClockUnsynced(t *testing.T) {
 		}
 	}
 }
+
+// TestCrestFactorOfSine: a sine at an awkward frequency reads √2 (closed
+// form) within the sampled-peak error, 1 − cos(π·f/fs) = 3.0e-4 at
+// 50.02 Hz and 6400 Hz, on every locked window.
+func TestCrestFactorOfSine(t *testing.T) {
+	t.Parallel()
+	const fs, f = 6400.0, 50.02
+	tol := math.Sqrt2 * (1 - math.Cos(math.Pi*f/fs)) * 1.01 // the bound, plus 1 % for noise-free rounding
+	v := synthChan{tones: []tone{{1, 230, 17}}}
+	s := setupOf(t, metrics.SinglePhase, 230, 0, false, []int{1},
+		metrics.Channel{Name: "v", Kind: metrics.Voltage, Phase: 'a'})
+	recs, _ := runPipeline(t, Config{Setup: s, SampleRate: fs, NominalHz: 50}, newSynth(fs, constFreq(f), 1.5, v))
+	for i, r := range recs {
+		if got := r.Channels[0].CrestFactor; math.Abs(got-math.Sqrt2) > tol {
+			t.Errorf("window %d: crest_factor %.6f, want √2 ± %.2g (closed form, sampled peak)", i, got, tol)
+		}
+	}
+}

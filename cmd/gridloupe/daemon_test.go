@@ -10,6 +10,7 @@ import (
 	"os/exec"
 	"path/filepath"
 	"strings"
+	"sync"
 	"syscall"
 	"testing"
 	"time"
@@ -59,8 +60,27 @@ alarms:
 
 type proc struct {
 	cmd    *exec.Cmd
-	stderr *bytes.Buffer
+	stderr *lockedBuffer
 	done   chan error
+}
+
+// lockedBuffer collects a child's stderr; exec's copying goroutine writes
+// it while the test reads it, so both sides take the lock.
+type lockedBuffer struct {
+	mu  sync.Mutex
+	buf bytes.Buffer
+}
+
+func (b *lockedBuffer) Write(p []byte) (int, error) {
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	return b.buf.Write(p)
+}
+
+func (b *lockedBuffer) String() string {
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	return b.buf.String()
 }
 
 func startDaemon(t *testing.T, args ...string) *proc {
@@ -74,7 +94,7 @@ func startDaemonStdin(t *testing.T, stdin io.Reader, args ...string) *proc {
 	cmd := exec.Command(os.Args[0], args...)
 	cmd.Env = append(os.Environ(), "GRIDLOUPE_AS_MAIN=1")
 	cmd.Stdin = stdin
-	p := &proc{cmd: cmd, stderr: new(bytes.Buffer), done: make(chan error, 1)}
+	p := &proc{cmd: cmd, stderr: new(lockedBuffer), done: make(chan error, 1)}
 	cmd.Stderr = p.stderr
 	if err := cmd.Start(); err != nil {
 		t.Fatal(err)

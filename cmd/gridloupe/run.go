@@ -481,8 +481,11 @@ func mqttTLS(cfg *config.Config) (*tls.Config, error) {
 
 // simStart is where simulated time begins: the wall clock, or, when an
 // accelerated simulator ran ahead of it before a restart, the end of the
-// newest stored record, so stored data never overlaps itself.
+// newest stored record or the newest alarm transition (committed at once,
+// so it may lie beyond the last batch of records), so stored data never
+// overlaps itself and alarm times never go backwards.
 func simStart(db *store.DB, wall time.Time) time.Time {
+	wall = afterAlarms(db, wall)
 	for _, iv := range []metrics.Interval{metrics.Int3s, metrics.Int10min} {
 		recs, err := db.Last(iv, 1)
 		if err != nil || len(recs) == 0 {

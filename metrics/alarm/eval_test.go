@@ -139,6 +139,13 @@ func TestEvaluateSemantics(t *testing.T) {
 			src: "IEEE 519-2014 Table 1, ≤ 1 kV individual 5 % [confirmed]",
 		},
 		{
+			name: "crest factor of ia above 2.5, a metric from the quantity table",
+			rule: Rule{Name: "cf-ia", Metric: "crest_factor", Target: Target{Channel: chIA},
+				Level: metrics.Int200ms, Above: true, Threshold: 2.5, Deadband: 0.2},
+			vals: []float64{1.9, 2.7, 2.4, nan, 2.2}, want: []ev{{1, true}, {4, false}},
+			src: srcBand + "; " + srcNoSrc + " for 2.5 (a drive current's short conduction pulses)",
+		},
+		{
 			name: "frequency below 49.5 Hz",
 			rule: Rule{Name: "f", Metric: MetricFreq, Target: Target{Channel: -1},
 				Level: metrics.Int200ms, Threshold: 49.5},

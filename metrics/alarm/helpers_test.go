@@ -87,6 +87,8 @@ func put(tb testing.TB, s *metrics.Setup, r *metrics.Record, ru Rule, v float64)
 		r.Channels[ch].TDDPct = v
 	case MetricTDDH50:
 		r.Channels[ch].TDDH50Pct = v
+	case "crest_factor":
+		r.Channels[ch].CrestFactor = v
 	case MetricPct, MetricPctIL:
 		for k, h := range s.Orders {
 			if h == ru.Harmonic && ru.Metric == MetricPct {

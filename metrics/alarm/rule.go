@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/quantity"
 )
 
 // Metric names a rule can watch. They are the record's JSON key names.
@@ -40,28 +41,43 @@ const (
 	mFreq
 	mUnbV
 	mUnbI
+	mQty // any other alarm-watchable per-channel quantity of metrics/quantity's table
 )
 
 var metricNames = [...]string{mRMS: MetricRMS, mTHD: MetricTHD, mTHDH50: MetricTHDH50,
 	mTDD: MetricTDD, mTDDH50: MetricTDDH50, mPct: MetricPct, mPctIL: MetricPctIL,
 	mPF: MetricPF, mDPF: MetricDPF, mFreq: MetricFreq, mUnbV: MetricUnbalanceV, mUnbI: MetricUnbalanceI}
 
-// Metrics lists every metric name a Rule may use, for help and error texts.
-func Metrics() []string { return append([]string(nil), metricNames[1:]...) }
-
-func parseMetric(s string) (metric, bool) {
-	for i, n := range metricNames {
-		if i > 0 && n == s {
-			return metric(i), true
-		}
-	}
-	return 0, false
+// Metrics lists every metric name a Rule may use, for help and error texts:
+// the per-channel quantities of metrics/quantity's table that alarms may
+// watch, then pct and pct_il, the per-phase ones, and the system-wide ones.
+func Metrics() []string {
+	out := quantity.AlarmChannelNames()
+	out = append(out, MetricPct, MetricPctIL)
+	out = append(out, quantity.AlarmPhaseNames()...)
+	return append(out, MetricFreq, MetricUnbalanceV, MetricUnbalanceI)
 }
 
-func (m metric) perChannel() bool  { return m >= mRMS && m <= mPctIL }
+// parseMetric returns the metric called s and, for a per-channel scalar,
+// its quantity in metrics/quantity's table.
+func parseMetric(s string) (metric, quantity.ID, bool) {
+	id, isQ := quantity.ChannelByName(s)
+	isQ = isQ && quantity.Channel(id).Alarm
+	for i, n := range metricNames {
+		if i > 0 && n == s {
+			return metric(i), id, true
+		}
+	}
+	if isQ {
+		return mQty, id, true
+	}
+	return 0, 0, false
+}
+
+// scalar reports whether m is a per-channel scalar of the quantity table.
+func (m metric) scalar() bool      { return m >= mRMS && m <= mTDDH50 || m == mQty }
+func (m metric) perChannel() bool  { return m >= mRMS && m <= mPctIL || m == mQty }
 func (m metric) perHarmonic() bool { return m == mPct || m == mPctIL }
-func (m metric) currentOnly() bool { return m == mTDD || m == mTDDH50 || m == mPctIL }
-func (m metric) needsAll() bool    { return m == mTHDH50 || m == mTDDH50 }
 func (m metric) power() bool       { return m == mPF || m == mDPF }
 
 // Target says where a rule's metric is read.
@@ -114,9 +130,10 @@ type Rule struct {
 // compiled is a validated rule with its lookups resolved against the setup.
 type compiled struct {
 	m     metric
-	ch    int // channel index (channel metrics)
-	hk    int // index of Harmonic in Setup.Orders (pct, pct_il)
-	phase int // index in Setup.Pairs / Record.Phases; −1 for the total
+	ch    int         // channel index (channel metrics)
+	hk    int         // index of Harmonic in Setup.Orders (pct, pct_il)
+	q     quantity.ID // per-channel scalars: the quantity in metrics/quantity's table
+	phase int         // index in Setup.Pairs / Record.Phases; −1 for the total
 	load  []int
 	delta bool  // the total of a delta record, which has no phases
 	circ  int   // pf, dpf: index in Setup.Circuits; −1 for the bus itself
@@ -129,11 +146,11 @@ func compile(r *Rule, s *metrics.Setup) (compiled, error) {
 	if r.Name == "" {
 		return c, fmt.Errorf("rule without a name: %w", ErrRule)
 	}
-	m, ok := parseMetric(r.Metric)
+	m, q, ok := parseMetric(r.Metric)
 	if !ok {
 		return c, fmt.Errorf("rule %q: metric %q (allowed: %v): %w", r.Name, r.Metric, Metrics(), ErrMetric)
 	}
-	c.m = m
+	c.m, c.q = m, q
 	if r.Level.String() == "invalid" {
 		return c, fmt.Errorf("rule %q: level %d (allowed: %v): %w", r.Name, r.Level, metrics.IntervalLabels(), ErrRule)
 	}
@@ -204,7 +221,11 @@ func (c *compiled) target(r *Rule, s *metrics.Setup) error {
 			return fmt.Errorf("channel index %d (setup has %d): %w", ci, len(s.Channels), ErrTarget)
 		}
 		ch := s.Channels[ci]
-		if m.currentOnly() {
+		var need quantity.Need
+		if m.scalar() {
+			need = quantity.Channel(c.q).Need
+		}
+		if need&quantity.Current != 0 || m == mPctIL {
 			if ch.Kind != metrics.Current {
 				return fmt.Errorf("channel %q is a %s; needs a current: %w", ch.Name, ch.Kind, ErrTarget)
 			}
@@ -212,7 +233,7 @@ func (c *compiled) target(r *Rule, s *metrics.Setup) error {
 				return fmt.Errorf("channel %q: needs IL (il_a) configured: %w", ch.Name, ErrTarget)
 			}
 		}
-		if m.needsAll() && !s.AllOrders {
+		if need&quantity.AllOrders != 0 && !s.AllOrders {
 			return fmt.Errorf("needs all harmonic orders 2..50 (harmonics: all): %w", ErrTarget)
 		}
 		if m.perHarmonic() {
@@ -285,22 +306,14 @@ func finite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }
 func (c *compiled) value(r *metrics.Record) float64 {
 	var v float64
 	switch c.m {
-	case mRMS, mTHD, mTHDH50, mTDD, mTDDH50, mPct, mPctIL:
+	case mRMS, mTHD, mTHDH50, mTDD, mTDDH50, mQty, mPct, mPctIL:
 		if c.ch < 0 || c.ch >= len(r.Channels) {
 			return math.NaN()
 		}
 		cv := &r.Channels[c.ch]
-		switch c.m {
-		case mRMS:
-			v = cv.RMS
-		case mTHD:
-			v = cv.THDPct
-		case mTHDH50:
-			v = cv.THDH50Pct
-		case mTDD:
-			v = cv.TDDPct
-		case mTDDH50:
-			v = cv.TDDH50Pct
+		switch {
+		case c.m.scalar():
+			v = *cv.Field(c.q)
 		default:
 			if c.hk < 0 || c.hk >= len(cv.H) {
 				return math.NaN()

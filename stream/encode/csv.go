@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/quantity"
 )
 
 // CSV writes one header row of flattened key names, then one row per
@@ -46,17 +47,12 @@ func (c *CSV) Header() []string {
 	for i := range s.Channels {
 		ch := &s.Channels[i]
 		p := ch.Name + "."
-		h = append(h, p+"rms", p+"dc", p+"thd_pct")
-		if s.AllOrders {
-			h = append(h, p+"thd_h50_pct")
-		}
-		tdd := hasTDD(s, ch)
-		if tdd {
-			h = append(h, p+"tdd_pct")
-			if s.AllOrders {
-				h = append(h, p+"tdd_h50_pct")
+		for id := range quantity.NumChannel {
+			if q := quantity.Channel(id); q.Out&quantity.CSV != 0 && s.Applies(q, i) {
+				h = append(h, p+q.Name)
 			}
 		}
+		tdd := hasTDD(s, ch)
 		for _, o := range s.Orders {
 			ph := p + "h" + strconv.Itoa(o) + "."
 			h = append(h, ph+"rms", ph+"pct")
@@ -103,7 +99,8 @@ func (c *CSV) Header() []string {
 }
 
 var (
-	phaseKeys = [...]string{"p_w", "p1_w", "q_var", "s_va", "s1_va", "sn_va", "di_var", "dv_var", "sh_va", "pf", "dpf"}
+	// phaseKeys: the per-phase CSV keys, from metrics/quantity's table (read-only).
+	phaseKeys = phaseCSVKeys()
 	totalKeys = [...]string{"p_w", "q_var", "s_va", "se_va", "se1_va", "ve_v", "ie_a", "pf", "dpf"}
 	seqSides  = [2]string{"voltage", "current"}
 )
@@ -200,16 +197,9 @@ func (c *CSV) appendRow(b []byte, r *metrics.Record) []byte {
 	for i := range s.Channels {
 		ch, v := &s.Channels[i], &r.Channels[i]
 		tdd := hasTDD(s, ch)
-		b = cell(b, v.RMS)
-		b = cell(b, v.DC)
-		b = cell(b, v.THDPct)
-		if s.AllOrders {
-			b = cell(b, v.THDH50Pct)
-		}
-		if tdd {
-			b = cell(b, v.TDDPct)
-			if s.AllOrders {
-				b = cell(b, v.TDDH50Pct)
+		for id := range quantity.NumChannel {
+			if q := quantity.Channel(id); q.Out&quantity.CSV != 0 && s.Applies(q, i) {
+				b = cell(b, *v.Field(id))
 			}
 		}
 		for k := range v.H {
@@ -224,8 +214,10 @@ func (c *CSV) appendRow(b []byte, r *metrics.Record) []byte {
 	}
 	for k := range r.Phases {
 		p := &r.Phases[k]
-		for _, v := range [...]float64{p.P, p.P1, p.Q1, p.S, p.S1, p.SN, p.DI, p.DV, p.SH, p.PF, p.DPF} {
-			b = cell(b, v)
+		for id := range quantity.NumPhase {
+			if quantity.Phase(id).Out&quantity.CSV != 0 {
+				b = cell(b, *p.Field(id))
+			}
 		}
 	}
 	delta := s.Wiring == metrics.Delta
@@ -274,4 +266,15 @@ func appendCSVField(b []byte, f string) []byte {
 		b = append(b, f[i])
 	}
 	return append(b, '"')
+}
+
+// phaseCSVKeys lists the per-phase quantities the CSV writer prints.
+func phaseCSVKeys() []string {
+	var out []string
+	for _, q := range quantity.Phases() {
+		if q.Out&quantity.CSV != 0 {
+			out = append(out, q.Name)
+		}
+	}
+	return out
 }

@@ -7,6 +7,7 @@ import (
 	"strconv"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/quantity"
 )
 
 // AppendJSON appends r as one JSON object (no trailing newline) in the
@@ -50,7 +51,7 @@ func AppendJSON(dst []byte, s *metrics.Setup, r *metrics.Record) []byte {
 		if i > 0 {
 			dst = append(dst, ',')
 		}
-		dst = appendJSONChannel(dst, s, &s.Channels[i], &r.Channels[i])
+		dst = appendJSONChannel(dst, s, i, &r.Channels[i])
 	}
 	dst = append(dst, '}')
 
@@ -109,26 +110,19 @@ func hasTDD(s *metrics.Setup, ch *metrics.Channel) bool {
 	return ch.Kind == metrics.Current && (s.ILA > 0 || ch.ILA > 0)
 }
 
-func appendJSONChannel(dst []byte, s *metrics.Setup, ch *metrics.Channel, v *metrics.ChannelValues) []byte {
+func appendJSONChannel(dst []byte, s *metrics.Setup, ci int, v *metrics.ChannelValues) []byte {
+	ch := &s.Channels[ci]
 	tdd := hasTDD(s, ch)
 	dst = appendJSONString(dst, ch.Name)
-	dst = append(dst, `:{"rms":`...)
-	dst = appendJSONNum(dst, v.RMS)
-	dst = append(dst, `,"dc":`...)
-	dst = appendJSONNum(dst, v.DC)
-	dst = append(dst, `,"thd_pct":`...)
-	dst = appendJSONNum(dst, v.THDPct)
-	if s.AllOrders {
-		dst = append(dst, `,"thd_h50_pct":`...)
-		dst = appendJSONNum(dst, v.THDH50Pct)
-	}
-	if tdd {
-		dst = append(dst, `,"tdd_pct":`...)
-		dst = appendJSONNum(dst, v.TDDPct)
-		if s.AllOrders {
-			dst = append(dst, `,"tdd_h50_pct":`...)
-			dst = appendJSONNum(dst, v.TDDH50Pct)
+	dst = append(dst, ':')
+	sep := byte('{')
+	for id := range quantity.NumChannel {
+		q := quantity.Channel(id)
+		if q.Out&quantity.JSON == 0 || !s.Applies(q, ci) {
+			continue
 		}
+		dst = appendJSONKeyNum(dst, sep, q.Name, *v.Field(id))
+		sep = ','
 	}
 	dst = append(dst, `,"harmonics":[`...)
 	for k := range min(len(s.Orders), len(v.H)) {
@@ -153,29 +147,24 @@ func appendJSONChannel(dst []byte, s *metrics.Setup, ch *metrics.Channel, v *met
 	return append(dst, "]}"...)
 }
 
+// appendJSONKeyNum appends sep, then "name":v.
+func appendJSONKeyNum(dst []byte, sep byte, name string, v float64) []byte {
+	dst = append(dst, sep, '"')
+	dst = append(dst, name...)
+	dst = append(dst, '"', ':')
+	return appendJSONNum(dst, v)
+}
+
 func appendJSONPhase(dst []byte, p *metrics.PhaseValues) []byte {
-	dst = append(dst, `{"p_w":`...)
-	dst = appendJSONNum(dst, p.P)
-	dst = append(dst, `,"p1_w":`...)
-	dst = appendJSONNum(dst, p.P1)
-	dst = append(dst, `,"q_var":`...)
-	dst = appendJSONNum(dst, p.Q1)
-	dst = append(dst, `,"s_va":`...)
-	dst = appendJSONNum(dst, p.S)
-	dst = append(dst, `,"s1_va":`...)
-	dst = appendJSONNum(dst, p.S1)
-	dst = append(dst, `,"sn_va":`...)
-	dst = appendJSONNum(dst, p.SN)
-	dst = append(dst, `,"di_var":`...)
-	dst = appendJSONNum(dst, p.DI)
-	dst = append(dst, `,"dv_var":`...)
-	dst = appendJSONNum(dst, p.DV)
-	dst = append(dst, `,"sh_va":`...)
-	dst = appendJSONNum(dst, p.SH)
-	dst = append(dst, `,"pf":`...)
-	dst = appendJSONNum(dst, p.PF)
-	dst = append(dst, `,"dpf":`...)
-	dst = appendJSONNum(dst, p.DPF)
+	sep := byte('{')
+	for id := range quantity.NumPhase {
+		q := quantity.Phase(id)
+		if q.Out&quantity.JSON == 0 {
+			continue
+		}
+		dst = appendJSONKeyNum(dst, sep, q.Name, *p.Field(id))
+		sep = ','
+	}
 	return append(dst, '}')
 }
 

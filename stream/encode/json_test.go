@@ -138,7 +138,7 @@ func TestAppendJSONPresence(t *testing.T) {
 						want = append(want, "tdd_h50_pct")
 					}
 				}
-				want = append(want, "harmonics")
+				want = append(want, "crest_factor", "harmonics") // README "Record": crest_factor on every channel
 				var chRaw map[string]json.RawMessage
 				if err := json.Unmarshal(rawChans, &chRaw); err != nil {
 					t.Fatal(err)

@@ -7,6 +7,7 @@ import (
 	"strconv"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/quantity"
 )
 
 // Caution is the safety line every human-readable report carries.
@@ -41,6 +42,7 @@ const (
 	srcTotPF  // total PF
 	srcCircP  // circuit idx total P, kW
 	srcCircPF // circuit idx total PF
+	srcQty    // a per-channel quantity of the table marked quantity.Wide
 	srcFlags
 )
 
@@ -48,8 +50,9 @@ type column struct {
 	head  string
 	width int
 	src   colSrc
-	idx   int // channel or phase index
-	dec   int // decimals
+	idx   int         // channel or phase index
+	qid   quantity.ID // srcQty: the quantity
+	dec   int         // decimals
 	left  bool
 }
 
@@ -92,6 +95,11 @@ func NewTable(w io.Writer, s *metrics.Setup, opts TableOptions) *Table {
 			add(column{head: name + " THD%", width: 6, src: srcTHD, idx: i, dec: 2})
 			if hasTDD(s, ch) {
 				add(column{head: name + " TDD%", width: 6, src: srcTDD, idx: i, dec: 2})
+			}
+		}
+		for id := range quantity.NumChannel {
+			if q := quantity.Channel(id); q.Out&quantity.Wide != 0 && s.Applies(q, i) {
+				add(column{head: name + " " + q.Short, width: 6, src: srcQty, idx: i, qid: id, dec: 2})
 			}
 		}
 	}
@@ -226,6 +234,8 @@ func (t *Table) value(c *column, r *metrics.Record) float64 {
 		return r.Channels[c.idx].THDPct
 	case srcTDD:
 		return r.Channels[c.idx].TDDPct
+	case srcQty:
+		return *r.Channels[c.idx].Field(c.qid)
 	case srcPF:
 		return r.Phases[c.idx].PF
 	case srcDPF:

@@ -16,6 +16,7 @@ type Field struct {
 	Scale   float64
 	Channel string // label; "" when none
 	Phase   string // label: a, b, c, n or total; "" when none
+	Circuit string // label: the circuit's name (several circuits on one bus); "" for the bus
 	Get     func(r *metrics.Record) float64
 }
 
@@ -41,44 +42,14 @@ func Fields(s *metrics.Setup) []Field {
 	}
 	add(Field{Key: "freq_hz", Unit: "Hz", Metric: "frequency_hertz", Help: "Line frequency (mean over the interval).",
 		Get: func(r *metrics.Record) float64 { return r.FreqHz }})
-	type pw struct {
-		key, unit, metric, help string
-		get                     func(p *metrics.PhaseValues) float64
-	}
-	powers := []pw{
-		{"p_w", "W", "active_power_watts", "Active power.", func(p *metrics.PhaseValues) float64 { return p.P }},
-		{"q_var", "var", "fundamental_reactive_power_vars", "Fundamental reactive power Q1, positive when inductive (lagging).", func(p *metrics.PhaseValues) float64 { return p.Q1 }},
-		{"s_va", "VA", "apparent_power_voltamperes", "Apparent power (total: arithmetic sum of the phases).", func(p *metrics.PhaseValues) float64 { return p.S }},
-		{"pf", "1", "power_factor_ratio", "True power factor P/S, with the sign of P (total: P/Se).", func(p *metrics.PhaseValues) float64 { return p.PF }},
-		{"dpf", "1", "displacement_power_factor_ratio", "Displacement power factor, with the sign of P (total: P1+/S1+).", func(p *metrics.PhaseValues) float64 { return p.DPF }},
-	}
-	if s.HasTotal() {
-		tot := func(r *metrics.Record) *metrics.PhaseValues {
-			t := &r.Total
-			return &metrics.PhaseValues{P: t.P, Q1: t.Q1, S: t.S, PF: t.PF, DPF: t.DPF}
-		}
-		for _, p := range powers {
-			get := p.get
-			if p.key == "s_va" && s.Wiring == metrics.Delta {
-				continue // no arithmetic sum without phase-to-neutral voltages
+	powerFields(add, s, "", "", func(r *metrics.Record) *metrics.Record { return r })
+	for k, c := range s.Circuits {
+		powerFields(add, c.Sub, "circuit."+c.Name+".", c.Name, func(r *metrics.Record) *metrics.Record {
+			if k < len(r.Circuits) {
+				return r.Circuits[k].Rec
 			}
-			add(Field{Key: "total." + p.key, Unit: p.unit, Metric: p.metric, Help: p.help, Phase: "total",
-				Get: func(r *metrics.Record) float64 { return get(tot(r)) }})
-		}
-		add(Field{Key: "total.se_va", Unit: "VA", Metric: "effective_apparent_power_voltamperes", Help: "IEEE 1459 effective apparent power Se.", Phase: "total",
-			Get: func(r *metrics.Record) float64 { return r.Total.Se }})
-		add(Field{Key: "total.ve_v", Unit: "V", Metric: "effective_voltage_volts", Help: "IEEE 1459 effective voltage Ve.", Phase: "total",
-			Get: func(r *metrics.Record) float64 { return r.Total.Ve }})
-		add(Field{Key: "total.ie_a", Unit: "A", Metric: "effective_current_amperes", Help: "IEEE 1459 effective current Ie.", Phase: "total",
-			Get: func(r *metrics.Record) float64 { return r.Total.Ie }})
-	}
-	for i, pr := range s.Pairs {
-		ph := string(pr.Phase)
-		for _, p := range powers {
-			get := p.get
-			add(Field{Key: "phase." + ph + "." + p.key, Unit: p.unit, Metric: p.metric, Help: p.help, Phase: ph,
-				Get: func(r *metrics.Record) float64 { return get(&r.Phases[i]) }})
-		}
+			return nil
+		})
 	}
 	for i, ch := range s.Channels {
 		ph := string(ch.Phase)
@@ -94,7 +65,7 @@ func Fields(s *metrics.Setup) []Field {
 			add(Field{Key: ch.Name + ".thd_h50_pct", Unit: "%", Metric: "thd_h50_ratio", Help: "Total harmonic distortion over orders 2 to 50, relative to the fundamental.", Scale: 0.01,
 				Channel: ch.Name, Phase: ph, Get: func(r *metrics.Record) float64 { return r.Channels[i].THDH50Pct }})
 		}
-		if ch.Kind == metrics.Current && s.ILA > 0 {
+		if ch.Kind == metrics.Current && s.IL(i) > 0 {
 			add(Field{Key: ch.Name + ".tdd_pct", Unit: "%", Metric: "tdd_ratio", Help: "Total demand distortion: harmonic current relative to IL.", Scale: 0.01,
 				Channel: ch.Name, Phase: ph, Get: func(r *metrics.Record) float64 { return r.Channels[i].TDDPct }})
 			if s.AllOrders {
@@ -122,4 +93,61 @@ func hasSeq(s *metrics.Setup, k metrics.Kind) bool {
 		return len(r.SeqV) > 0
 	}
 	return len(r.SeqI) > 0
+}
+
+// powerFields adds the totals and phase powers of records of s (the bus,
+// or one circuit's sub-setup reached through sel, which returns nil when
+// the record has no such circuit), keys prefixed pre and labelled circuit
+// circ.
+func powerFields(add func(Field), s *metrics.Setup, pre, circ string, sel func(*metrics.Record) *metrics.Record) {
+	type pw struct {
+		key, unit, metric, help string
+		get                     func(p *metrics.PhaseValues) float64
+	}
+	powers := []pw{
+		{"p_w", "W", "active_power_watts", "Active power.", func(p *metrics.PhaseValues) float64 { return p.P }},
+		{"q_var", "var", "fundamental_reactive_power_vars", "Fundamental reactive power Q1, positive when inductive (lagging).", func(p *metrics.PhaseValues) float64 { return p.Q1 }},
+		{"s_va", "VA", "apparent_power_voltamperes", "Apparent power (total: arithmetic sum of the phases).", func(p *metrics.PhaseValues) float64 { return p.S }},
+		{"pf", "1", "power_factor_ratio", "True power factor P/S, with the sign of P (total: P/Se).", func(p *metrics.PhaseValues) float64 { return p.PF }},
+		{"dpf", "1", "displacement_power_factor_ratio", "Displacement power factor, with the sign of P (total: P1+/S1+).", func(p *metrics.PhaseValues) float64 { return p.DPF }},
+	}
+	total := func(get func(t *metrics.TotalValues) float64) func(*metrics.Record) float64 {
+		return func(r *metrics.Record) float64 {
+			if x := sel(r); x != nil {
+				return get(&x.Total)
+			}
+			return metrics.Null()
+		}
+	}
+	if s.HasTotal() {
+		for _, p := range powers {
+			get := p.get
+			if p.key == "s_va" && s.Wiring == metrics.Delta {
+				continue // no arithmetic sum without phase-to-neutral voltages
+			}
+			add(Field{Key: pre + "total." + p.key, Unit: p.unit, Metric: p.metric, Help: p.help, Phase: "total", Circuit: circ,
+				Get: total(func(t *metrics.TotalValues) float64 {
+					return get(&metrics.PhaseValues{P: t.P, Q1: t.Q1, S: t.S, PF: t.PF, DPF: t.DPF})
+				})})
+		}
+		add(Field{Key: pre + "total.se_va", Unit: "VA", Metric: "effective_apparent_power_voltamperes", Help: "IEEE 1459 effective apparent power Se.", Phase: "total", Circuit: circ,
+			Get: total(func(t *metrics.TotalValues) float64 { return t.Se })})
+		add(Field{Key: pre + "total.ve_v", Unit: "V", Metric: "effective_voltage_volts", Help: "IEEE 1459 effective voltage Ve.", Phase: "total", Circuit: circ,
+			Get: total(func(t *metrics.TotalValues) float64 { return t.Ve })})
+		add(Field{Key: pre + "total.ie_a", Unit: "A", Metric: "effective_current_amperes", Help: "IEEE 1459 effective current Ie.", Phase: "total", Circuit: circ,
+			Get: total(func(t *metrics.TotalValues) float64 { return t.Ie })})
+	}
+	for i, pr := range s.Pairs {
+		ph := string(pr.Phase)
+		for _, p := range powers {
+			get := p.get
+			add(Field{Key: pre + "phase." + ph + "." + p.key, Unit: p.unit, Metric: p.metric, Help: p.help, Phase: ph, Circuit: circ,
+				Get: func(r *metrics.Record) float64 {
+					if x := sel(r); x != nil && i < len(x.Phases) {
+						return get(&x.Phases[i])
+					}
+					return metrics.Null()
+				}})
+		}
+	}
 }

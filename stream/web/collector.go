@@ -54,12 +54,16 @@ func newCollector(cfg *Config) *collector {
 		fam.fields = append(fam.fields, f)
 	}
 	for _, fam := range c.families {
-		var hasCh, hasPh bool
+		var hasCh, hasPh, hasCirc bool
 		for _, f := range fam.fields {
 			hasCh = hasCh || f.Channel != ""
 			hasPh = hasPh || f.Phase != ""
+			hasCirc = hasCirc || f.Circuit != ""
 		}
 		names := []string{"level"}
+		if hasCirc {
+			fam.labels = append(fam.labels, "circuit")
+		}
 		if hasCh {
 			fam.labels = append(fam.labels, "channel")
 		}
@@ -121,9 +125,12 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 				}
 				lv := []string{iv.String()}
 				for _, l := range fam.labels {
-					if l == "channel" {
+					switch l {
+					case "circuit":
+						lv = append(lv, f.Circuit)
+					case "channel":
 						lv = append(lv, f.Channel)
-					} else {
+					default:
 						lv = append(lv, f.Phase)
 					}
 				}
