@@ -172,7 +172,7 @@ var badCases = []badCase{
 	{name: "source kind live", doc: hdr1 + "source: {kind: live}\n", line: 4, key: "source.kind", phrase: "use one of: sim, csv, wav", src: srcDaemon},
 	{name: "csv without path", doc: hdr1 + "source: {kind: csv}\n", line: 4, key: "source.path", phrase: "required for kind csv", src: srcBrief},
 	{name: "speed with wav", doc: hdr1 + "source: {kind: wav, path: a.wav, speed: 2}\n", line: 4, key: "source.speed", phrase: "applies to kind sim only", src: srcBrief},
-	{name: "path with sim", doc: hdr1 + "source: {kind: sim, path: a.csv}\n", line: 4, key: "source.path", phrase: "applies to kinds csv, wav and pcm", src: srcBrief},
+	{name: "path with sim", doc: hdr1 + "source: {kind: sim, path: a.csv}\n", line: 4, key: "source.path", phrase: "applies to kinds csv, wav, pcm and comtrade", src: srcBrief},
 	{name: "pcm without rate", doc: hdr1 + "source: {kind: pcm, path: '-', format: s16le}\n", line: 4, key: "source", phrase: "kind pcm needs sample_rate_hz", src: srcSources},
 	{name: "pcm without format", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: '-'}\n", line: 5, key: "source.format", phrase: "required for kind pcm: one of s16le, s24le, s32le, f32le", src: srcSources},
 	{name: "pcm bad format", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: '-', format: s16be}\n", line: 5, key: "source.format", phrase: "use one of: s16le, s24le, s32le, f32le", src: srcSources},
@@ -181,6 +181,11 @@ var badCases = []badCase{
 	{name: "pcm connect not host:port", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, connect: localhost, format: s16le}\n", line: 5, key: "source.connect", phrase: "is not host:port", src: srcSources},
 	{name: "framing on csv", doc: hdr1 + "source: {kind: csv, path: a.csv, framing: glf1}\n", line: 4, key: "source.framing", phrase: "applies to kind pcm only", src: srcSources},
 	{name: "pcm bad framing", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: '-', format: s16le, framing: slip}\n", line: 5, key: "source.framing", phrase: "use one of: raw, glf1", src: srcSources},
+	{name: "iio without device", doc: hdr1 + "source: {kind: iio}\n", line: 4, key: "source.device", phrase: "required for kind iio", src: srcSources},
+	{name: "iio channel without element", doc: hdr1 + "source: {kind: iio, device: iio:device0}\n", line: 3, key: "channels[0]", phrase: "needs iio: the scan element", src: srcSources},
+	{name: "iio with path", doc: hdr1 + "source: {kind: iio, device: x, path: /dev/x}\n", line: 4, key: "source.path", phrase: "does not apply to kind iio", src: srcSources},
+	{name: "device on pcm", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: '-', format: s16le, device: x}\n", line: 5, key: "source.device", phrase: "applies to kind iio only", src: srcSources},
+	{name: "comtrade index zero", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: voltage, phase: a, comtrade: 0}\n", line: 3, key: "channels[0].comtrade", phrase: "0 is out of range; allowed: 1 to 4096", src: srcSources},
 	{name: "speed negative", doc: hdr1 + "source: {kind: sim, speed: -1}\n", line: 4, key: "source.speed", phrase: "must not be negative", src: srcBrief},
 
 	// store.

@@ -37,3 +37,20 @@ func openRunStore(opts store.Options, onDamage string, now time.Time, log *slog.
 	log.Error("store: "+notice, "set_aside", aside)
 	return db, notice, nil
 }
+
+// afterAlarms returns t, or the newest time in the stored alarm states if
+// that is later.
+func afterAlarms(db *store.DB, t time.Time) time.Time {
+	states, err := db.AlarmStates()
+	if err != nil {
+		return t
+	}
+	for _, st := range states {
+		for _, at := range []time.Time{st.Since, st.PendingSince} {
+			if at.After(t) {
+				t = at
+			}
+		}
+	}
+	return t
+}

@@ -56,6 +56,11 @@ var ErrExportCut = errors.New("gateway: export incomplete")
 // exportTimeout bounds a whole export over the socket.
 const exportTimeout = 10 * time.Minute
 
+// requestTimeout is how long the server waits for a peer's request line:
+// one request is served at a time, so an idle peer must not hold the
+// socket from the next export for long.
+const requestTimeout = 3 * time.Second
+
 // WriteExport writes the stored records matching req to w in the replay
 // schema. It is used by the daemon's socket and by `gridloupe export` when
 // no daemon holds the file.
@@ -128,11 +133,12 @@ func ServeExport(ctx context.Context, path string, db *store.DB, log *slog.Logge
 
 func serveOne(c net.Conn, db *store.DB, log *slog.Logger) {
 	defer c.Close()
-	c.SetDeadline(time.Now().Add(5 * time.Minute))
+	c.SetDeadline(time.Now().Add(requestTimeout))
 	line, err := bufio.NewReaderSize(c, 4096).ReadString('\n')
 	if err != nil {
-		return
+		return // an idle or vanished peer
 	}
+	c.SetDeadline(time.Now().Add(exportTimeout))
 	var req ExportRequest
 	if err := json.Unmarshal([]byte(line), &req); err != nil {
 		fmt.Fprintf(c, "error: bad request: %v\n", err)

@@ -69,3 +69,37 @@ func TestExportSocket(t *testing.T) {
 		t.Errorf("cut answer: err %v, want ErrExportCut", err)
 	}
 }
+
+// TestExportIdlePeer: a local client that connects and sends nothing holds
+// the socket for at most requestTimeout, so the next export is answered
+// soon after (README, The store: export).
+func TestExportIdlePeer(t *testing.T) {
+	// src: requestTimeout (3 s) plus scheduling slack on a loaded machine, common practice
+	const bound = 3*time.Second + 4*time.Second
+	r := newRig(t, filepath.Join(t.TempDir(), "g.db"), 1)
+	sock := filepath.Join(t.TempDir(), "idle.sock")
+	ctx, cancel := context.WithCancel(context.Background())
+	done := make(chan error, 1)
+	go func() { done <- ServeExport(ctx, sock, r.db, nil) }()
+	defer func() { cancel(); <-done }()
+	var idle net.Conn
+	var err error
+	for range 100 {
+		if idle, err = net.Dial("unix", sock); err == nil {
+			break
+		}
+		time.Sleep(10 * time.Millisecond)
+	}
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer idle.Close()
+	start := time.Now()
+	var out bytes.Buffer
+	if err := RequestExport(sock, ExportRequest{Interval: "3s", Format: "jsonl"}, &out); err != nil {
+		t.Fatal(err)
+	}
+	if el := time.Since(start); el > bound {
+		t.Errorf("export answered after %v behind an idle peer, want under %v", el, bound)
+	}
+}

@@ -330,6 +330,9 @@ func (c *CSV) hold() error {
 		return c.pending
 	}
 	n := len(ts)
+	if n == 0 && errors.Is(c.pending, io.EOF) {
+		return &DataError{File: c.path, Line: clampInt(c.lineNo), Msg: "no data rows after the header: nothing to measure"}
+	}
 	if !c.hasT {
 		return nil
 	}

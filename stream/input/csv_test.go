@@ -258,7 +258,8 @@ func TestCSVTimeEdgeCases(t *testing.T) {
 		src      string
 	}{
 		{name: "one row", in: "t,va\n0,1\n", wantFS: 0, wantRows: 1, src: "fs = (n−1)/span needs n ≥ 2: unknown (0)"},
-		{name: "no rows", in: "t,va\n", wantFS: 0, wantRows: 0, src: "fs = (n−1)/span needs n ≥ 2: unknown (0)"},
+		{name: "no rows", in: "t,va\n", newErr: "e.csv:1: no data rows after the header", src: "README, Errors: a header with no data rows"},
+		{name: "no rows, no t", in: "# note\nva\n", newErr: "e.csv:2: no data rows after the header", src: "README, Errors: a header with no data rows"},
 		{name: "t does not increase", in: "t,va\n0.5,1\n0.5,2\n", newErr: "t must increase", src: "fs = (n−1)/span needs span > 0"},
 		{name: "t not finite", in: "t,va\nNaN,1\n", newErr: "not a finite time", src: "common practice, no source"},
 		{name: "short rows end", in: "t,va\n0,1\n0.25,2\n0.5,3\n", wantFS: 4, wantRows: 3, src: "closed form fs = (n−1)/span = 2/0.5"},

@@ -89,6 +89,11 @@ func NewWAV(path string, r io.Reader, channels int) (*WAV, error) {
 	return w, nil
 }
 
+// maxWAVRate is the highest sample rate accepted from a WAV header, as for
+// the config's sample_rate_hz: no input this targets samples faster
+// (common practice, no source).
+const maxWAVRate = 1_000_000
+
 // SampleRate returns the file's sample rate in hertz.
 func (w *WAV) SampleRate() float64 { return w.fs }
 
@@ -319,6 +324,8 @@ func (w *WAV) readFmt(at int64, size uint32) error {
 		return w.herr(at, "the file has %d channels, the configuration %d", channels, w.nch)
 	case rate == 0:
 		return w.herr(at, "the file declares a sample rate of 0 Hz")
+	case rate > maxWAVRate:
+		return w.herr(at, "the file declares a sample rate of %d Hz; allowed: at most %d Hz", rate, maxWAVRate)
 	case align != channels*container/8:
 		return w.herr(at, "block align %d does not match %d channels of %d bytes", align, channels, container/8)
 	}
