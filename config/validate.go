@@ -354,7 +354,7 @@ func (v *validator) source() *Error {
 	case !v.has("source.kind"):
 		return v.fail("source.kind", "required: %s", kinds)
 	case s.Kind == SourceSim && v.has("source.path"):
-		return v.fail("source.path", "applies to kinds csv, wav and pcm, not sim")
+		return v.fail("source.path", "applies to kinds csv, wav, pcm and comtrade, not sim")
 	case s.Kind != SourceSim && v.has("source.speed"):
 		return v.fail("source.speed", "applies to kind sim only")
 	case s.Speed < 0:
@@ -363,7 +363,10 @@ func (v *validator) source() *Error {
 	if e := v.pcmSource(); e != nil {
 		return e
 	}
-	if s.Kind != SourceSim && s.Kind != SourcePCM && s.Path == "" {
+	if e := v.iioSource(); e != nil {
+		return e
+	}
+	if s.Kind != SourceSim && s.Kind != SourcePCM && s.Kind != SourceIIO && s.Path == "" {
 		return v.fail("source.path", "required for kind %s: the recording to read", s.Kind)
 	}
 	if s.Kind == SourceSim && !v.has("source.speed") {
@@ -372,6 +375,39 @@ func (v *validator) source() *Error {
 	if s.Path != "-" {
 		v.resolve(&s.Path)
 	}
+	return nil
+}
+
+// iioSource checks the keys of an iio source (DESIGN "Sources": IIO).
+func (v *validator) iioSource() *Error {
+	s := &v.c.Source
+	if s.Kind != SourceIIO {
+		for _, k := range []string{"device", "sysfs", "dev", "buffer_length"} {
+			if v.has("source." + k) {
+				return v.fail("source."+k, "applies to kind iio only")
+			}
+		}
+		return nil
+	}
+	switch {
+	case v.has("source.path"):
+		return v.fail("source.path", "does not apply to kind iio: name the device with source.device")
+	case s.Device == "":
+		return v.fail("source.device", "required for kind iio: the device directory (iio:device0) or its name attribute")
+	}
+	for i, ch := range v.c.Channels {
+		if ch.IIO == "" {
+			return v.fail(fmt.Sprintf("channels[%d]", i), "channel %q needs iio: the scan element it reads (e.g. voltage0)", ch.Name)
+		}
+	}
+	if s.Sysfs == "" {
+		s.Sysfs = "/sys/bus/iio/devices"
+	}
+	if s.Dev == "" {
+		s.Dev = "/dev"
+	}
+	v.resolve(&s.Sysfs)
+	v.resolve(&s.Dev)
 	return nil
 }
 
