@@ -114,6 +114,11 @@ type Rule struct {
 	LoadChannels []int // current channels compared with MinLoad (the rule's channel, or the phase currents)
 
 	Text string // human text for the alarm message
+
+	// Baseline, when set, makes Threshold and Deadband relative to the
+	// commissioning baseline the rule learns (baseline.go); the rule's
+	// MinLoad still applies, and nothing is learned at light load.
+	Baseline *Baseline
 }
 
 // compiled is a validated rule with its lookups resolved against the setup.
@@ -124,8 +129,9 @@ type compiled struct {
 	q     quantity.ID // per-channel scalars: the quantity in metrics/quantity's table
 	phase int         // index in Setup.Pairs / Record.Phases; −1 for the total
 	load  []int
-	delta bool // the total of a delta record, which has no phases
-	circ  int  // pf, dpf: index in Setup.Circuits; −1 for the bus itself
+	delta bool  // the total of a delta record, which has no phases
+	circ  int   // pf, dpf: index in Setup.Circuits; −1 for the bus itself
+	binCh []int // baseline rules: the currents whose fundamental picks the load bin
 }
 
 // compile validates r against s.
@@ -166,7 +172,38 @@ func compile(r *Rule, s *metrics.Setup) (compiled, error) {
 		}
 	}
 	c.load = slices.Clone(r.LoadChannels)
+	if r.Baseline != nil {
+		if err := c.baseline(r, s); err != nil {
+			return c, fmt.Errorf("rule %q: %w", r.Name, err)
+		}
+	}
 	return c, nil
+}
+
+// baseline validates r.Baseline and picks the currents of its load bins:
+// the load channels, else the rule's current channel, else every phase
+// current.
+func (c *compiled) baseline(r *Rule, s *metrics.Setup) error {
+	b := r.Baseline
+	if b.Learn <= 0 || !(b.Base > 0) || math.IsInf(b.Base, 0) {
+		return fmt.Errorf("baseline: learn %v must be positive and the load base %v A positive: %w", b.Learn, b.Base, ErrRule)
+	}
+	switch {
+	case len(c.load) > 0:
+		c.binCh = slices.Clone(c.load)
+	case c.ch >= 0 && s.Channels[c.ch].Kind == metrics.Current:
+		c.binCh = []int{c.ch}
+	default:
+		for _, i := range s.IIdx {
+			if i >= 0 {
+				c.binCh = append(c.binCh, i)
+			}
+		}
+	}
+	if len(c.binCh) == 0 {
+		return fmt.Errorf("baseline: no current channel to bin the load by: %w", ErrTarget)
+	}
+	return nil
 }
 
 func (c *compiled) target(r *Rule, s *metrics.Setup) error {
