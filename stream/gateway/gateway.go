@@ -426,14 +426,15 @@ func (g *Gateway) ruleChannel(rule string) string {
 
 func toStore(name string, st alarm.State, sev string) store.AlarmState {
 	return store.AlarmState{Name: name, Raised: st.Raised, Since: st.Since, Value: st.Value,
-		Severity: sev, Pending: st.Pending, PendingSince: st.PendingSince}
+		Severity: sev, Pending: st.Pending, PendingSince: st.PendingSince, Baseline: baselineJSON(st.Learned)}
 }
 
 // FromStore converts persisted alarm states for alarm.New.
 func FromStore(m map[string]store.AlarmState) map[string]alarm.State {
 	out := make(map[string]alarm.State, len(m))
 	for k, v := range m {
-		out[k] = alarm.State{Raised: v.Raised, Since: v.Since, Pending: v.Pending, PendingSince: v.PendingSince, Value: v.Value}
+		out[k] = alarm.State{Raised: v.Raised, Since: v.Since, Pending: v.Pending, PendingSince: v.PendingSince, Value: v.Value,
+			Learned: learnedFrom(v.Baseline)}
 	}
 	return out
 }
