@@ -2,11 +2,13 @@ package main
 
 import (
 	"log/slog"
+	"strconv"
 	"time"
 
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/energy"
+	"github.com/gridloupe/gridloupe/metrics/harmdiag"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/encode"
 	"github.com/gridloupe/gridloupe/stream/live"
@@ -20,6 +22,7 @@ func energyCircuits(*config.Config) []string { return []string{energy.DefaultCir
 // and computes demand, persists both and publishes them (on the store
 // goroutine, from the gateway's OnRecord).
 type energyKeeper struct {
+	setup   *metrics.Setup
 	meter   *energy.Meter
 	demand  *energy.Demander
 	db      *store.DB
@@ -60,7 +63,7 @@ func newEnergyKeeper(cfg *config.Config, setup *metrics.Setup, db *store.DB, boa
 	if err != nil {
 		return nil, usagef("%s: demand: %v", cfg.Path, err)
 	}
-	k := &energyKeeper{meter: energy.NewMeter(energyCircuits(cfg), restored), demand: dm, db: db, board: board,
+	k := &energyKeeper{setup: setup, meter: energy.NewMeter(energyCircuits(cfg), restored), demand: dm, db: db, board: board,
 		log: log, every: cfg.Store.CommitEvery, ilCfg: cfg.ILA, iv: cfg.Demand.Interval, base: base,
 		site: cfg.Site, gateway: cfg.Gateway, kick: kick}
 	if len(restored) > 0 {
@@ -86,6 +89,10 @@ func (k *energyKeeper) record(r *metrics.Record) {
 		}
 	case metrics.Int10min:
 		if k.base != "" {
+			if _, err := k.db.Enqueue(store.Message{Class: store.ClassTelemetry, QoS: 1, Topic: k.base + "/diagnostics",
+				Payload: k.diagnostics(r, end)}); err != nil {
+				k.log.Warn("diagnostics message not queued", "err", err)
+			}
 			if _, err := k.db.Enqueue(store.Message{Class: store.ClassTelemetry, QoS: 1, Topic: k.base + "/energy",
 				Payload: k.payload(end)}); err != nil {
 				k.log.Warn("energy message not queued", "err", err)
@@ -131,4 +138,56 @@ func (k *energyKeeper) payload(now time.Time) []byte {
 	body := live.AppendEnergyJSON(nil, k.state(now))
 	b = append(b, body[1:]...)
 	return b
+}
+
+// minDirPct: orders below this share of the fundamental carry angles too
+// noisy to give a direction (the report uses the same bound).
+const minDirPct = 0.5
+
+// diagnostics is the …/diagnostics message of one 10 min record: each
+// current harmonic's active power and direction, and the record's load
+// point (mean phase fundamental current, its bin, TDD) for the ageing
+// indicator.
+func (k *energyKeeper) diagnostics(r *metrics.Record, end time.Time) []byte {
+	b := []byte(`{"site":`)
+	b = encode.AppendString(b, k.site)
+	b = append(b, `,"gateway":`...)
+	b = encode.AppendString(b, k.gateway)
+	b = append(b, `,"time":"`...)
+	b = encode.AppendTime(b, end)
+	b = append(b, `","level":"10min","harmonic_power":[`...)
+	dirs := harmdiag.NewDirections(k.setup)
+	dirs.Add(r)
+	n := 0
+	for _, d := range dirs.Result() {
+		if d.Records == 0 || !(d.MeanIPct >= minDirPct) {
+			continue
+		}
+		if n > 0 {
+			b = append(b, ',')
+		}
+		n++
+		b = append(b, `{"h":`...)
+		b = strconv.AppendInt(b, int64(d.H), 10)
+		b = append(b, `,"p_w":`...)
+		b = encode.AppendNumber(b, d.MeanW)
+		b = append(b, `,"i_pct":`...)
+		b = encode.AppendNumber(b, d.MeanIPct)
+		b = append(b, `,"direction":"`...)
+		b = append(b, harmdiag.Sense(d.MeanW, d.MeanVI)...)
+		b = append(b, `"}`...)
+	}
+	b = append(b, `],"load":`...)
+	i1, tdd, ok := harmdiag.Load(k.setup, r)
+	ref := k.ilCfg
+	if !ok || !(ref > 0) {
+		return append(b, "null}"...)
+	}
+	b = append(b, `{"i1_a":`...)
+	b = encode.AppendNumber(b, i1)
+	b = append(b, `,"bin_pct":`...)
+	b = strconv.AppendInt(b, int64(100*i1/ref/harmdiag.BinPct)*harmdiag.BinPct, 10)
+	b = append(b, `,"tdd_pct":`...)
+	b = encode.AppendNumber(b, tdd)
+	return append(b, "}}"...)
 }

@@ -25,6 +25,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/store"
+	"github.com/gridloupe/gridloupe/stream/mqtt/mqtttest"
 )
 
 // freePort returns a loopback host:port that was free a moment ago.
@@ -351,5 +352,61 @@ func TestEnergySurvivesRestarts(t *testing.T) {
 			t.Errorf("round %d: import %.3f Wh after %.3f Wh before the restart, export %v: counters must grow across restarts", round, got, prev, es[0].ExportWh)
 		}
 		prev = got
+	}
+}
+
+// TestEnergyAndDiagnosticsOverMQTT: with every 10 min value the gateway
+// publishes …/energy and …/diagnostics (README Energy and demand, Weekly
+// report), through a real mosquitto.
+func TestEnergyAndDiagnosticsOverMQTT(t *testing.T) {
+	if testing.Short() && os.Getenv("CI") == "" {
+		t.Skip("runs the daemon with a broker; runs in CI and without -short")
+	}
+	mosq := mqtttest.Start(t)
+	base := "gridloupe/north-weir-dc2/dc2-gw1"
+	sub := mqtttest.Subscribe(t, mosq.URL(), base+"/#")
+	dir := t.TempDir()
+	cfgPath := integrationConfig(t, dir, freePort(t), freePort(t))
+	cfgText, _ := os.ReadFile(cfgPath)
+	cfgPath = writeFile(t, dir, "mqtt.yaml", strings.Replace(string(cfgText), "speed: 60", "speed: 0", 1)+
+		fmt.Sprintf("mqtt: {broker: %q}\n", mosq.URL()))
+	p := startDaemon(t, "run", "--config", cfgPath, "--stop-after", "21m")
+	msgs := sub.WaitFor(t, "energy and diagnostics", 90*time.Second, func(m []mqtttest.Message) bool {
+		return count(m, base+"/energy", nil) >= 1 && count(m, base+"/diagnostics", nil) >= 1
+	})
+	for _, m := range msgs {
+		pl := decode(t, m)
+		switch m.Topic {
+		case base + "/energy":
+			c, _ := pl["circuits"].(map[string]any)
+			main, _ := c["main"].(map[string]any)
+			if imp, _ := main["import_kwh"].(float64); !(imp > 0) {
+				t.Errorf("energy: import_kwh %v, want positive (the pumps draw power): %s", main["import_kwh"], m.Payload)
+			}
+			if il, _ := pl["il"].(map[string]any); il["basis"] != "il_a from the config" || il["a"] != 160.0 {
+				t.Errorf("energy: il %v, want 160 A from the config", il)
+			}
+		case base + "/diagnostics":
+			hp, _ := pl["harmonic_power"].([]any)
+			seen5 := false
+			for _, x := range hp {
+				o := x.(map[string]any)
+				// The simulator's supply impedance is a pure reactance
+				// (stream/sim: V_h = −j·h·X·I_h), so P_h = 0 closed form:
+				// no direction can be told.
+				if o["h"] == 5.0 {
+					seen5 = true
+					if o["direction"] != "neither" {
+						t.Errorf("diagnostics: h5 %v, want neither (V_h ⟂ I_h for a lossless source)", o)
+					}
+				}
+			}
+			if !seen5 || pl["load"] == nil {
+				t.Errorf("diagnostics without h5 or load: %s", m.Payload)
+			}
+		}
+	}
+	if code, _ := p.wait(t, 60*time.Second); code != 0 {
+		t.Errorf("exit %d; stderr:\n%s", code, p.stderr)
 	}
 }

@@ -39,14 +39,13 @@ func NewAgeing(s *metrics.Setup, start time.Time, refA float64) *Ageing {
 	return &Ageing{s: s, start: start, ref: refA}
 }
 
-// Add takes one 10 min record.
-func (a *Ageing) Add(r *metrics.Record) {
-	if r.Flags&(metrics.FlagNoLock|metrics.FlagBadSample|metrics.FlagEvent) != 0 || r.Start.Before(a.start) {
-		return
-	}
-	var i1, tdd float64
+// Load returns a record's mean phase fundamental current (A) and mean
+// phase TDD (%, orders 2..50 when computed), the two coordinates of the
+// ageing indicator; ok is false without TDD (no IL) or without a phase
+// current.
+func Load(s *metrics.Setup, r *metrics.Record) (i1, tdd float64, ok bool) {
 	n := 0
-	for _, pr := range a.s.Pairs {
+	for _, pr := range s.Pairs {
 		c := r.Channels[pr.I]
 		t := c.TDDH50Pct
 		if metrics.IsNull(t) {
@@ -60,9 +59,21 @@ func (a *Ageing) Add(r *metrics.Record) {
 		n++
 	}
 	if n == 0 {
+		return 0, 0, false
+	}
+	return i1 / float64(n), tdd / float64(n), true
+}
+
+// Add takes one 10 min record.
+func (a *Ageing) Add(r *metrics.Record) {
+	if r.Flags&(metrics.FlagNoLock|metrics.FlagBadSample|metrics.FlagEvent) != 0 || r.Start.Before(a.start) {
 		return
 	}
-	p := point{week: int(r.Start.Sub(a.start) / (7 * 24 * time.Hour)), i1: i1 / float64(n), tdd: tdd / float64(n)}
+	i1, tdd, ok := Load(a.s, r)
+	if !ok {
+		return
+	}
+	p := point{week: int(r.Start.Sub(a.start) / (7 * 24 * time.Hour)), i1: i1, tdd: tdd}
 	a.maxI1 = math.Max(a.maxI1, p.i1)
 	a.points = append(a.points, p)
 }

@@ -19,14 +19,37 @@ type Direction struct {
 	Absorbs  int     // records with P_h > 0
 	Records  int     // records with a value
 	MeanIPct float64 // mean current harmonic, % of fundamental (largest phase), to show which orders matter
+	MeanVI   float64 // mean Σ V_h·I_h, VA: the largest |P_h| could be
 }
 
-// Verdict is "injects", "absorbs" or "mixed" (neither side holds 90 % of
-// the records: common practice, no source), or "" without values.
+// Quadrature is the smallest |P_h| / Σ V_h·I_h that gives a direction:
+// below it V_h and I_h are within about 3° of quadrature (cos 87.1° =
+// 0.05), within the phase error sensors commonly have at harmonic
+// frequencies, so the sign means nothing (common practice, no source). A
+// lossless (purely inductive) supply impedance gives exactly 0.
+const Quadrature = 0.05
+
+// Sense names the direction of power p of a harmonic with Σ V·I = vi:
+// "injects", "absorbs", or "neither" within Quadrature.
+func Sense(p, vi float64) string {
+	switch {
+	case !(vi > 0) || math.Abs(p) < Quadrature*vi:
+		return "neither"
+	case p < 0:
+		return "injects"
+	}
+	return "absorbs"
+}
+
+// Verdict is "injects" or "absorbs" when 90 % of the records agree (common
+// practice, no source), "neither" when the mean power is within
+// Quadrature of zero, "mixed" otherwise, or "" without values.
 func (d Direction) Verdict() string {
 	switch {
 	case d.Records == 0:
 		return ""
+	case Sense(d.MeanW, d.MeanVI) == "neither":
+		return "neither"
 	case float64(d.Injects) >= 0.9*float64(d.Records):
 		return "injects"
 	case float64(d.Absorbs) >= 0.9*float64(d.Records):
@@ -40,6 +63,7 @@ type Directions struct {
 	s     *metrics.Setup
 	dirs  []Direction
 	sumW  []float64
+	sumVI []float64
 	sumI  []float64
 	nI    []int
 	index []int // order → position in s.Orders, −1
@@ -59,6 +83,7 @@ func NewDirections(s *metrics.Setup) *Directions {
 		}
 	}
 	d.sumW = make([]float64, len(d.dirs))
+	d.sumVI = make([]float64, len(d.dirs))
 	d.sumI = make([]float64, len(d.dirs))
 	d.nI = make([]int, len(d.dirs))
 	return d
@@ -71,7 +96,7 @@ func (d *Directions) Add(r *metrics.Record) {
 	}
 	for j := range d.dirs {
 		k := d.index[d.dirs[j].H]
-		p, ok := 0.0, false
+		p, vi, ok := 0.0, 0.0, false
 		maxPct := math.NaN()
 		for _, pr := range d.s.Pairs {
 			v, i := r.Channels[pr.V].H[k], r.Channels[pr.I].H[k]
@@ -82,6 +107,7 @@ func (d *Directions) Add(r *metrics.Record) {
 				continue
 			}
 			p += v.RMS * i.RMS * math.Cos((v.PhaseDeg-i.PhaseDeg)*math.Pi/180)
+			vi += v.RMS * i.RMS
 			ok = true
 		}
 		if !math.IsNaN(maxPct) {
@@ -94,10 +120,11 @@ func (d *Directions) Add(r *metrics.Record) {
 		dir := &d.dirs[j]
 		dir.Records++
 		d.sumW[j] += p
-		switch {
-		case p < 0:
+		d.sumVI[j] += vi
+		switch Sense(p, vi) {
+		case "injects":
 			dir.Injects++
-		case p > 0:
+		case "absorbs":
 			dir.Absorbs++
 		}
 	}
@@ -107,9 +134,10 @@ func (d *Directions) Add(r *metrics.Record) {
 func (d *Directions) Result() []Direction {
 	out := append([]Direction(nil), d.dirs...)
 	for j := range out {
-		out[j].MeanW, out[j].MeanIPct = math.NaN(), math.NaN()
+		out[j].MeanW, out[j].MeanIPct, out[j].MeanVI = math.NaN(), math.NaN(), math.NaN()
 		if out[j].Records > 0 {
 			out[j].MeanW = d.sumW[j] / float64(out[j].Records)
+			out[j].MeanVI = d.sumVI[j] / float64(out[j].Records)
 		}
 		if d.nI[j] > 0 {
 			out[j].MeanIPct = d.sumI[j] / float64(d.nI[j])

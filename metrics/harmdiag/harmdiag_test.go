@@ -90,3 +90,24 @@ func TestAgeing(t *testing.T) {
 		t.Errorf("empty ageing %+v", tb)
 	}
 }
+
+func TestSense(t *testing.T) {
+	cases := []struct {
+		deg  float64
+		want string
+		src  string
+	}{
+		{180, "injects", "closed form: cos 180° = −1"},
+		{0, "absorbs", "cos 0° = 1"},
+		{90, "neither", "cos 90° = 0: a lossless source impedance (V_h = −j·h·X·I_h)"},
+		{-87.5, "neither", "cos 87.5° = 0.044, inside the 3° band"},
+		{86, "absorbs", "cos 86° = 0.070, outside it"},
+		{-94, "injects", "cos 94° = −0.070"},
+	}
+	for _, tc := range cases {
+		vi := 6.9 * 30
+		if got := Sense(vi*math.Cos(tc.deg*math.Pi/180), vi); got != tc.want {
+			t.Errorf("%v°: %s, want %s (src: %s)", tc.deg, got, tc.want, tc.src)
+		}
+	}
+}
