@@ -16,6 +16,12 @@ const hdrD = "nominal: {frequency_hz: 50, voltage_v: 400}\nwiring: delta\n" +
 	"  - {name: vab, kind: voltage, phase: ab}\n" +
 	"  - {name: vcb, kind: voltage, phase: cb}\n"
 
+// hdrC: one voltage and two currents on phase a (two circuits' CTs).
+const hdrC = "nominal: {frequency_hz: 50, voltage_v: 230}\nwiring: single-phase\nchannels:\n" +
+	"  - {name: va, kind: voltage, phase: a}\n" +
+	"  - {name: ia, kind: current, phase: a}\n" +
+	"  - {name: i2, kind: current, phase: a}\n"
+
 const hdr1 = "nominal: {frequency_hz: 50, voltage_v: 230}\n" +
 	"channels:\n" +
 	"  - {name: va, kind: voltage, phase: a}\n"
@@ -93,6 +99,13 @@ var badCases = []badCase{
 	{name: "delta with one CT", doc: hdrD + "  - {name: ia, kind: current, phase: a}\n", line: 6, key: "channels[2].phase", phrase: "one current (phase a) cannot give a three-wire total", src: "Blondel's theorem (REFERENCE §8)"},
 	{name: "delta two CTs off the shared phase", doc: hdrD + "  - {name: ia, kind: current, phase: a}\n  - {name: ib, kind: current, phase: b}\n", line: 4, key: "channels", phrase: "two CTs (on a and b) need the voltages to the phase without a CT, ac and bc", src: srcDesign + " (Delta wiring: both voltages share the phase without a CT)"},
 	{name: "delta line twice", doc: hdrD + "  - {name: vba, kind: voltage, phase: ba}\n", line: 6, key: "channels[2].phase", phrase: "a second voltage on line ab", src: "common practice, no source"},
+	{name: "circuit: a current in none", doc: hdrC + "circuits:\n  - {name: m, currents: [ia]}\n", line: 6, key: "channels[2].name", phrase: "current i2 is in no circuit", src: "README Several circuits on one bus"},
+	{name: "circuit: a current twice", doc: hdrC + "circuits:\n  - {name: m, currents: [ia]}\n  - {name: n, currents: [ia, i2]}\n", line: 9, key: "circuits[1].currents[0]", phrase: "ia already belongs to circuit m", src: "README Several circuits on one bus"},
+	{name: "circuit: a voltage", doc: hdrC + "circuits:\n  - {name: m, currents: [va, ia, i2]}\n", line: 8, key: "circuits[0].currents[0]", phrase: "va is a voltage channel", src: "README Several circuits on one bus"},
+	{name: "circuit: unknown channel", doc: hdrC + "circuits:\n  - {name: m, currents: [ix]}\n", line: 8, key: "circuits[0].currents[0]", phrase: `"ix" is not a configured channel`, src: "README Several circuits on one bus"},
+	{name: "circuit: two on one phase", doc: hdrC + "circuits:\n  - {name: m, currents: [ia, i2]}\n", line: 8, key: "circuits[0].currents[1]", phrase: "ia and i2 are both on phase a of circuit m", src: "README Several circuits on one bus"},
+	{name: "circuit: pf alarm without circuit", doc: hdrC + "circuits:\n  - {name: m, currents: [ia]}\n  - {name: n, currents: [i2]}\nalarms:\n  - {name: x, metric: pf, below: 0.9}\n", line: 11, key: "alarms[0].circuit", phrase: "required with circuits", src: "README Several circuits on one bus"},
+	{name: "circuit key without circuits", doc: hdr1 + "  - {name: ia, kind: current, phase: a}\nalarms:\n  - {name: x, metric: pf, circuit: m, below: 0.9}\n", line: 6, key: "alarms[0].circuit", phrase: "there are no circuits", src: "README Several circuits on one bus"},
 	{name: "line-to-line on wye", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: vab, kind: voltage, phase: ab}\n", line: 3, key: "channels[0].phase", phrase: "ab is a line-to-line voltage, for wiring: delta", src: srcDesign + " (Delta wiring)"},
 	{name: "wiring unknown", doc: hdr1 + "wiring: star\n", line: 4, key: "wiring", phrase: `"star" is not allowed; use single-phase, wye or delta`, src: srcDesign},
 	{name: "rate at the 60 Hz floor", doc: "nominal: {frequency_hz: 60, voltage_v: 277}\nchannels: [{name: va, kind: voltage, phase: a}]\nsample_rate_hz: 6900\n", line: 3, key: "sample_rate_hz", phrase: "must exceed twice that, 6900 Hz", src: srcRate + ": 2·50·69 = 6900"},
