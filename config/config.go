@@ -73,23 +73,31 @@ type Channel struct {
 	Offset    float64 // engineering units; default 0
 	FullScale float64 // engineering units; 0 = none (no clipping check)
 	DelayUS   float64 // sampling skew or sensor lag to correct, µs; order h is rotated by h·ω·delay
+	Comtrade  int     // COMTRADE input: 1-based analog channel index; 0 = match Name to the channel id
+	IIO       string  // iio source: the scan element, e.g. "voltage0" for scan_elements/in_voltage0_*; required there
 	Line      int     // line of the channel's entry in the config file
 	Level     string  // Name sanitized as an MQTT topic level (added; see Sanitize)
 }
 
 // Source is the daemon's input.
 type Source struct {
-	Kind    string  // "" (none), or one of SourceKinds()
-	Speed   float64 // sim only: 1 = real time, 60 = one minute per second, 0 = as fast as possible; default 1 (0 for other kinds)
-	Path    string  // csv, wav, pcm: the recording, FIFO or device (resolved against the config's folder); pcm: "-" = standard input
-	Connect string  // pcm only, instead of path: host:port of a TCP sender, redialled with backoff
-	Format  string  // pcm only, required: one of PCMFormats()
-	Framing string  // pcm only: FramingRaw (default) or FramingGLF1
-	Line    int     // line of the source key; 0 when absent
+	Kind         string  // "" (none), or one of SourceKinds()
+	Speed        float64 // sim only: 1 = real time, 60 = one minute per second, 0 = as fast as possible; default 1 (0 for other kinds)
+	Path         string  // csv, wav, pcm: the recording, FIFO or device (resolved against the config's folder); pcm: "-" = standard input
+	Connect      string  // pcm only, instead of path: host:port of a TCP sender, redialled with backoff
+	Format       string  // pcm only, required: one of PCMFormats()
+	Framing      string  // pcm only: FramingRaw (default) or FramingGLF1
+	Device       string  // iio only, required: the device directory (iio:device0) or its name attribute
+	Sysfs        string  // iio only: root of the IIO devices; default /sys/bus/iio/devices
+	Dev          string  // iio only: root of the character devices; default /dev
+	BufferLength int     // iio only: scans in the kernel buffer; 0 = leave the device's
+	Line         int     // line of the source key; 0 when absent
 }
 
 // SourceKinds lists the source.kind spellings.
-func SourceKinds() []string { return []string{SourceSim, SourceCSV, SourceWAV, SourcePCM} }
+func SourceKinds() []string {
+	return []string{SourceSim, SourceCSV, SourceWAV, SourcePCM, SourceCOMTRADE, SourceIIO}
+}
 
 // PCMFormats lists the source.format spellings of a pcm source.
 func PCMFormats() []string { return []string{"s16le", "s24le", "s32le", "f32le"} }
@@ -147,11 +155,14 @@ type Alarm struct {
 	OffDelay   time.Duration // sample time it must be clear before clearing
 	MinLoadPct float64       // quiet below this percentage of IL (or the current channel's full scale); 0 = off
 	Harmonic   int           // metrics pct and pct_il: the order, 2..50
+	RelativeTo string        // "" (absolute threshold) or RelativeBaseline: above/below are a rise/drop from the learned baseline
+	Learn      time.Duration // relative_to baseline: the commissioning period the baseline is learned over; default 168h
 	Line       int           // line of the rule's entry in the config file
 }
 
 // Spellings of enumerated values.
 const (
+	RelativeBaseline  = "baseline"
 	WiringSinglePhase = "single-phase"
 	WiringWye         = "wye"
 	WiringDelta       = "delta"
@@ -161,6 +172,8 @@ const (
 	SourceCSV         = "csv"
 	SourceWAV         = "wav"
 	SourcePCM         = "pcm"
+	SourceCOMTRADE    = "comtrade"
+	SourceIIO         = "iio"
 	FramingRaw        = "raw"
 	FramingGLF1       = "glf1"
 	BrokerEmbedded    = "embedded"

@@ -317,13 +317,13 @@ func TestDefaults(t *testing.T) {
 }
 
 // TestSchemaCoverage checks that the fixtures full.yaml, larkfield.yaml and
-// pcm-tcp.yaml together reach every key of the schema table, so each key has a decoder
+// pcm-tcp.yaml and iio.yaml together reach every key of the schema table, so each key has a decoder
 // (a key without one fails Parse) and each fixture parses.
 func TestSchemaCoverage(t *testing.T) {
 	t.Parallel()
 	index := regexp.MustCompile(`\[\d+\]`)
 	seen := map[string]bool{}
-	for _, f := range []string{"full.yaml", "larkfield.yaml", "pcm-tcp.yaml", "circuits.yaml"} {
+	for _, f := range []string{"full.yaml", "larkfield.yaml", "pcm-tcp.yaml", "circuits.yaml", "iio.yaml"} {
 		data, err := os.ReadFile(filepath.Join("testdata", f))
 		if err != nil {
 			t.Fatal(err)

@@ -24,9 +24,9 @@ var sections = map[string][]string{
 		"il_a", "isc_a", "lock_min_pct", "channels", "circuits", "source", "store", "mqtt", "alarms",
 		"modbus", "http", "demand", "events"},
 	"nominal":         {"frequency_hz", "voltage_v", "current_a"},
-	"channels[]":      {"name", "kind", "phase", "scale", "offset", "full_scale", "delay_us"},
+	"channels[]":      {"name", "kind", "phase", "scale", "offset", "full_scale", "delay_us", "comtrade", "iio"},
 	"circuits[]":      {"name", "currents", "il_a"},
-	"source":          {"kind", "speed", "path", "connect", "format", "framing"},
+	"source":          {"kind", "speed", "path", "connect", "format", "framing", "device", "sysfs", "dev", "buffer_length"},
 	"store":           {"path", "commit_every", "max_size_mb", "retention", "on_damage"},
 	"store.retention": {"3s", "10min", "2h"},
 	"mqtt": {"broker", "listen", "client_id", "username", "password_file", "password_env", "tls",
@@ -38,13 +38,19 @@ var sections = map[string][]string{
 	"demand":             {"interval", "method"},
 	"events":             {"dip_pct", "swell_pct", "interruption_pct", "hysteresis_pct", "pre_cycles", "post_cycles", "max_capture_s"},
 	"alarms[]": {"name", "metric", "channel", "phase", "level", "above", "below", "deadband",
-		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic", "circuit"},
+		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic", "circuit", "relative_to", "learn"},
 }
 
 // Bounds on list lengths keep a hostile file from costing much.
 const (
 	maxChannels = 64  // more than any gateway ADC this targets; common practice, no source
 	maxAlarms   = 256 // common practice, no source
+	// maxComtradeIndex bounds channels[].comtrade, a 1-based analog
+	// channel index (common practice, no source).
+	maxComtradeIndex = 4096
+	// maxBufferLength bounds source.buffer_length, in scans (common
+	// practice, no source: far beyond any IIO driver's buffer).
+	maxBufferLength = 1 << 24
 )
 
 // decoder walks a yaml.Node tree along the schema. It records each key
@@ -527,6 +533,10 @@ func (d *decoder) channel(n *yaml.Node, path string, ch *Channel) *Error {
 			return d.float(v, p, &ch.FullScale)
 		case "delay_us":
 			return d.float(v, p, &ch.DelayUS)
+		case "comtrade":
+			return d.integer(v, p, 1, maxComtradeIndex, &ch.Comtrade)
+		case "iio":
+			return d.str(v, p, &ch.IIO)
 		}
 		return d.errf(v, p, "internal: key has no decoder")
 	})
@@ -547,6 +557,14 @@ func (d *decoder) source(n *yaml.Node, path string, s *Source) *Error {
 			return d.enum(v, p, &s.Format, PCMFormats()...)
 		case "framing":
 			return d.enum(v, p, &s.Framing, FramingRaw, FramingGLF1)
+		case "device":
+			return d.str(v, p, &s.Device)
+		case "sysfs":
+			return d.str(v, p, &s.Sysfs)
+		case "dev":
+			return d.str(v, p, &s.Dev)
+		case "buffer_length":
+			return d.integer(v, p, 1, maxBufferLength, &s.BufferLength)
 		}
 		return d.errf(v, p, "internal: key has no decoder")
 	})
@@ -675,6 +693,10 @@ func (d *decoder) alarm(n *yaml.Node, path string, a *Alarm) *Error {
 			return d.float(v, p, &a.MinLoadPct)
 		case "harmonic":
 			return d.integer(v, p, 2, maxOrder, &a.Harmonic)
+		case "relative_to":
+			return d.enum(v, p, &a.RelativeTo, RelativeBaseline)
+		case "learn":
+			return d.duration(v, p, &a.Learn)
 		}
 		return d.errf(v, p, "internal: key has no decoder")
 	})

@@ -20,8 +20,9 @@ func Defaults() string {
 // the per-channel and per-phase quantities, as comment lines.
 func alarmMetricsDoc() string {
 	const pad = "#                                  #   "
-	ch := append(quantity.AlarmChannelNames(), "pct", "pct_il")
-	rest := append(quantity.AlarmPhaseNames(), "freq_hz", "unbalance_voltage_pct", "unbalance_current_pct")
+	all := quantity.AlarmMetrics()
+	k := len(quantity.AlarmChannelNames()) + 2 // the per-channel ones and pct, pct_il on the first line
+	ch, rest := all[:k], all[k:]
 	var b strings.Builder
 	b.WriteString("#     metric: tdd_h50_pct          # required: " + strings.Join(ch, " | ") + "\n")
 	b.WriteString(pad + "| " + strings.Join(rest, " | ") + "\n")
@@ -68,6 +69,8 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 #     offset: 0.0
 #     full_scale: 0        # engineering units, enables the clipped flag; 0 = none
 #     delay_us: 0          # time the channel's sample lags the frame instant, microseconds (+ = sampled late; a sensor lagging by 40 µs is -40)
+#     iio: ""              # iio source, required there: the scan element, e.g. voltage0
+#     comtrade: 0          # COMTRADE input: 1-based analog channel index; 0 = match name to the channel id (case-insensitive)
 # single-phase: one voltage on phase a, currents on a (and n).
 # wye: voltages on a, b, c; each phase with a current needs its voltage.
 # delta: line-to-line voltages; currents on two phases (the two-wattmeter hook-up:
@@ -79,13 +82,18 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 #     il_a: 480            # this circuit's IL for TDD and pct_il; 0 = the top-level il_a
 
 # source:                  # daemon input; default: none (replay names its input on the command line)
-#   kind: sim              # required in a source: sim | csv | wav | pcm
+#   kind: sim              # required in a source: sim | csv | wav | pcm | comtrade | iio
 #   speed: 1               # sim only: 1 = real time, 60 = a minute per second, 0 = as fast as possible
-#   path: rec.csv          # csv, wav: the recording (required); pcm: a file, a FIFO or "-" for standard input
+#   path: rec.csv          # csv, wav, comtrade (the .cfg; the .dat beside it): the recording (required); pcm: a file, a FIFO or "-" for standard input
 #   connect: ""            # pcm only, instead of path: host:port of a TCP sender, redialled with backoff
 #   format: s16le          # pcm only, required: s16le | s24le | s32le | f32le, interleaved in channel order
 #   framing: raw           # pcm only: raw (bare samples) | glf1 (frames with index and CRC, see README)
 #                          # pcm needs sample_rate_hz: a raw stream carries none
+#   device: iio:device0    # iio only, required: the device directory or its name attribute
+#   sysfs: /sys/bus/iio/devices   # iio only: root of the devices (a fake tree for tests)
+#   dev: /dev              # iio only: root of the character devices
+#   buffer_length: 0       # iio only: scans in the kernel buffer; 0 = leave the device's
+#                          # iio: sample_rate_hz, when set, is written to the device and read back
 
 store:
   path: ""                 # bbolt file; "" = not configured
@@ -138,6 +146,9 @@ alarms: []
 #     off_delay: 0s                # sample time it must be clear before clearing
 #     severity: warning            # info | warning | critical (default warning)
 #     min_load_pct: 0              # quiet below this % of il_a (or the current channel's full_scale); 0 = off
+#     relative_to: ""              # "" (above/below are absolute) | baseline: above/below are a rise/drop from the
+#                                  #   commissioning baseline learned per 10 % load bin (fundamental current, % of il_a)
+#     learn: 168h                  # relative_to baseline: how long the baseline is learned from the first value
 
 # modbus:                  # read-only Modbus TCP server for a BMS; off unless this section is given
 #   listen: 127.0.0.1:5020 # host:port; loopback by default (see the README before exposing it)

@@ -16,6 +16,12 @@ const hdrD = "nominal: {frequency_hz: 50, voltage_v: 400}\nwiring: delta\n" +
 	"  - {name: vab, kind: voltage, phase: ab}\n" +
 	"  - {name: vcb, kind: voltage, phase: cb}\n"
 
+// hdrC: one voltage and two currents on phase a (two circuits' CTs).
+const hdrC = "nominal: {frequency_hz: 50, voltage_v: 230}\nwiring: single-phase\nchannels:\n" +
+	"  - {name: va, kind: voltage, phase: a}\n" +
+	"  - {name: ia, kind: current, phase: a}\n" +
+	"  - {name: i2, kind: current, phase: a}\n"
+
 const hdr1 = "nominal: {frequency_hz: 50, voltage_v: 230}\n" +
 	"channels:\n" +
 	"  - {name: va, kind: voltage, phase: a}\n"
@@ -93,6 +99,13 @@ var badCases = []badCase{
 	{name: "delta with one CT", doc: hdrD + "  - {name: ia, kind: current, phase: a}\n", line: 6, key: "channels[2].phase", phrase: "one current (phase a) cannot give a three-wire total", src: "Blondel's theorem (REFERENCE §8)"},
 	{name: "delta two CTs off the shared phase", doc: hdrD + "  - {name: ia, kind: current, phase: a}\n  - {name: ib, kind: current, phase: b}\n", line: 4, key: "channels", phrase: "two CTs (on a and b) need the voltages to the phase without a CT, ac and bc", src: srcDesign + " (Delta wiring: both voltages share the phase without a CT)"},
 	{name: "delta line twice", doc: hdrD + "  - {name: vba, kind: voltage, phase: ba}\n", line: 6, key: "channels[2].phase", phrase: "a second voltage on line ab", src: "common practice, no source"},
+	{name: "circuit: a current in none", doc: hdrC + "circuits:\n  - {name: m, currents: [ia]}\n", line: 6, key: "channels[2].name", phrase: "current i2 is in no circuit", src: "README Several circuits on one bus"},
+	{name: "circuit: a current twice", doc: hdrC + "circuits:\n  - {name: m, currents: [ia]}\n  - {name: n, currents: [ia, i2]}\n", line: 9, key: "circuits[1].currents[0]", phrase: "ia already belongs to circuit m", src: "README Several circuits on one bus"},
+	{name: "circuit: a voltage", doc: hdrC + "circuits:\n  - {name: m, currents: [va, ia, i2]}\n", line: 8, key: "circuits[0].currents[0]", phrase: "va is a voltage channel", src: "README Several circuits on one bus"},
+	{name: "circuit: unknown channel", doc: hdrC + "circuits:\n  - {name: m, currents: [ix]}\n", line: 8, key: "circuits[0].currents[0]", phrase: `"ix" is not a configured channel`, src: "README Several circuits on one bus"},
+	{name: "circuit: two on one phase", doc: hdrC + "circuits:\n  - {name: m, currents: [ia, i2]}\n", line: 8, key: "circuits[0].currents[1]", phrase: "ia and i2 are both on phase a of circuit m", src: "README Several circuits on one bus"},
+	{name: "circuit: pf alarm without circuit", doc: hdrC + "circuits:\n  - {name: m, currents: [ia]}\n  - {name: n, currents: [i2]}\nalarms:\n  - {name: x, metric: pf, below: 0.9}\n", line: 11, key: "alarms[0].circuit", phrase: "required with circuits", src: "README Several circuits on one bus"},
+	{name: "circuit key without circuits", doc: hdr1 + "  - {name: ia, kind: current, phase: a}\nalarms:\n  - {name: x, metric: pf, circuit: m, below: 0.9}\n", line: 6, key: "alarms[0].circuit", phrase: "there are no circuits", src: "README Several circuits on one bus"},
 	{name: "line-to-line on wye", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: vab, kind: voltage, phase: ab}\n", line: 3, key: "channels[0].phase", phrase: "ab is a line-to-line voltage, for wiring: delta", src: srcDesign + " (Delta wiring)"},
 	{name: "wiring unknown", doc: hdr1 + "wiring: star\n", line: 4, key: "wiring", phrase: `"star" is not allowed; use single-phase, wye or delta`, src: srcDesign},
 	{name: "rate at the 60 Hz floor", doc: "nominal: {frequency_hz: 60, voltage_v: 277}\nchannels: [{name: va, kind: voltage, phase: a}]\nsample_rate_hz: 6900\n", line: 3, key: "sample_rate_hz", phrase: "must exceed twice that, 6900 Hz", src: srcRate + ": 2·50·69 = 6900"},
@@ -159,7 +172,7 @@ var badCases = []badCase{
 	{name: "source kind live", doc: hdr1 + "source: {kind: live}\n", line: 4, key: "source.kind", phrase: "use one of: sim, csv, wav", src: srcDaemon},
 	{name: "csv without path", doc: hdr1 + "source: {kind: csv}\n", line: 4, key: "source.path", phrase: "required for kind csv", src: srcBrief},
 	{name: "speed with wav", doc: hdr1 + "source: {kind: wav, path: a.wav, speed: 2}\n", line: 4, key: "source.speed", phrase: "applies to kind sim only", src: srcBrief},
-	{name: "path with sim", doc: hdr1 + "source: {kind: sim, path: a.csv}\n", line: 4, key: "source.path", phrase: "applies to kinds csv, wav and pcm", src: srcBrief},
+	{name: "path with sim", doc: hdr1 + "source: {kind: sim, path: a.csv}\n", line: 4, key: "source.path", phrase: "applies to kinds csv, wav, pcm and comtrade", src: srcBrief},
 	{name: "pcm without rate", doc: hdr1 + "source: {kind: pcm, path: '-', format: s16le}\n", line: 4, key: "source", phrase: "kind pcm needs sample_rate_hz", src: srcSources},
 	{name: "pcm without format", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: '-'}\n", line: 5, key: "source.format", phrase: "required for kind pcm: one of s16le, s24le, s32le, f32le", src: srcSources},
 	{name: "pcm bad format", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: '-', format: s16be}\n", line: 5, key: "source.format", phrase: "use one of: s16le, s24le, s32le, f32le", src: srcSources},
@@ -168,6 +181,11 @@ var badCases = []badCase{
 	{name: "pcm connect not host:port", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, connect: localhost, format: s16le}\n", line: 5, key: "source.connect", phrase: "is not host:port", src: srcSources},
 	{name: "framing on csv", doc: hdr1 + "source: {kind: csv, path: a.csv, framing: glf1}\n", line: 4, key: "source.framing", phrase: "applies to kind pcm only", src: srcSources},
 	{name: "pcm bad framing", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: '-', format: s16le, framing: slip}\n", line: 5, key: "source.framing", phrase: "use one of: raw, glf1", src: srcSources},
+	{name: "iio without device", doc: hdr1 + "source: {kind: iio}\n", line: 4, key: "source.device", phrase: "required for kind iio", src: srcSources},
+	{name: "iio channel without element", doc: hdr1 + "source: {kind: iio, device: iio:device0}\n", line: 3, key: "channels[0]", phrase: "needs iio: the scan element", src: srcSources},
+	{name: "iio with path", doc: hdr1 + "source: {kind: iio, device: x, path: /dev/x}\n", line: 4, key: "source.path", phrase: "does not apply to kind iio", src: srcSources},
+	{name: "device on pcm", doc: hdr1 + "sample_rate_hz: 10240\nsource: {kind: pcm, path: '-', format: s16le, device: x}\n", line: 5, key: "source.device", phrase: "applies to kind iio only", src: srcSources},
+	{name: "comtrade index zero", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: voltage, phase: a, comtrade: 0}\n", line: 3, key: "channels[0].comtrade", phrase: "0 is out of range; allowed: 1 to 4096", src: srcSources},
 	{name: "speed negative", doc: hdr1 + "source: {kind: sim, speed: -1}\n", line: 4, key: "source.speed", phrase: "must not be negative", src: srcBrief},
 
 	// store.

@@ -18,10 +18,8 @@ import (
 
 // Read-only tables of allowed values.
 var (
-	// metricNames: the per-channel and per-phase quantities alarms may
-	// watch (metrics/quantity's table), pct and pct_il, and the system-wide ones.
-	metricNames = slices.Concat(quantity.AlarmChannelNames(), []string{"pct", "pct_il"},
-		quantity.AlarmPhaseNames(), []string{"freq_hz", "unbalance_voltage_pct", "unbalance_current_pct"})
+	// metricNames: what alarm rules may watch (metrics/quantity, defined there once).
+	metricNames     = quantity.AlarmMetrics()
 	alarmLevels     = []string{"200ms", "3s", "10min", "2h"} // DESIGN "Time": the closed set of interval labels
 	telemetryLevels = []string{"3s", "10min", "2h"}
 )
@@ -354,7 +352,7 @@ func (v *validator) source() *Error {
 	case !v.has("source.kind"):
 		return v.fail("source.kind", "required: %s", kinds)
 	case s.Kind == SourceSim && v.has("source.path"):
-		return v.fail("source.path", "applies to kinds csv, wav and pcm, not sim")
+		return v.fail("source.path", "applies to kinds csv, wav, pcm and comtrade, not sim")
 	case s.Kind != SourceSim && v.has("source.speed"):
 		return v.fail("source.speed", "applies to kind sim only")
 	case s.Speed < 0:
@@ -363,7 +361,10 @@ func (v *validator) source() *Error {
 	if e := v.pcmSource(); e != nil {
 		return e
 	}
-	if s.Kind != SourceSim && s.Kind != SourcePCM && s.Path == "" {
+	if e := v.iioSource(); e != nil {
+		return e
+	}
+	if s.Kind != SourceSim && s.Kind != SourcePCM && s.Kind != SourceIIO && s.Path == "" {
 		return v.fail("source.path", "required for kind %s: the recording to read", s.Kind)
 	}
 	if s.Kind == SourceSim && !v.has("source.speed") {
@@ -372,6 +373,39 @@ func (v *validator) source() *Error {
 	if s.Path != "-" {
 		v.resolve(&s.Path)
 	}
+	return nil
+}
+
+// iioSource checks the keys of an iio source (DESIGN "Sources": IIO).
+func (v *validator) iioSource() *Error {
+	s := &v.c.Source
+	if s.Kind != SourceIIO {
+		for _, k := range []string{"device", "sysfs", "dev", "buffer_length"} {
+			if v.has("source." + k) {
+				return v.fail("source."+k, "applies to kind iio only")
+			}
+		}
+		return nil
+	}
+	switch {
+	case v.has("source.path"):
+		return v.fail("source.path", "does not apply to kind iio: name the device with source.device")
+	case s.Device == "":
+		return v.fail("source.device", "required for kind iio: the device directory (iio:device0) or its name attribute")
+	}
+	for i, ch := range v.c.Channels {
+		if ch.IIO == "" {
+			return v.fail(fmt.Sprintf("channels[%d]", i), "channel %q needs iio: the scan element it reads (e.g. voltage0)", ch.Name)
+		}
+	}
+	if s.Sysfs == "" {
+		s.Sysfs = "/sys/bus/iio/devices"
+	}
+	if s.Dev == "" {
+		s.Dev = "/dev"
+	}
+	v.resolve(&s.Sysfs)
+	v.resolve(&s.Dev)
 	return nil
 }
 
@@ -595,7 +629,44 @@ func (v *validator) alarm(p string, a *Alarm) *Error {
 	case !isPct && v.has(p+".harmonic"):
 		return v.fail(p+".harmonic", "applies to metrics pct and pct_il only")
 	}
+	if e := v.relative(p, a); e != nil {
+		return e
+	}
 	return v.threshold(p, a, ch)
+}
+
+// defaultLearn is a baseline rule's commissioning period: a week, so every
+// load of the weekly cycle is seen (common practice, no source).
+const defaultLearn = 168 * time.Hour
+
+// relative checks the baseline keys of alarm a.
+func (v *validator) relative(p string, a *Alarm) *Error {
+	if a.RelativeTo == "" {
+		if v.has(p + ".learn") {
+			return v.fail(p+".learn", "applies to relative_to: baseline rules only")
+		}
+		return nil
+	}
+	if a.Learn == 0 {
+		a.Learn = defaultLearn
+	}
+	if a.Learn < 0 {
+		return v.fail(p+".learn", "must be a positive duration, e.g. 168h")
+	}
+	if a.Above != nil && *a.Above < 0 || a.Below != nil && *a.Below < 0 {
+		return v.fail(p+".metric", "with relative_to: baseline, above/below are the rise/drop from the baseline: give a positive amount")
+	}
+	c := v.c
+	if c.ILA == 0 && c.Nominal.CurrentA == 0 {
+		full := false
+		for _, ch := range c.Channels {
+			full = full || ch.Kind == KindCurrent && ch.FullScale > 0
+		}
+		if !full {
+			return v.fail(p+".relative_to", "the baseline's load bins are percentages of IL: set il_a (or nominal.current_a, or full_scale on the current channels)")
+		}
+	}
+	return nil
 }
 
 func (v *validator) pfPhase(p string, a *Alarm) *Error {

@@ -39,6 +39,7 @@ func BenchmarkWindow(b *testing.B) {
 		name   string
 		orders []int
 	}{
+		{"orders1", []int{1}},
 		{"orders17", sixPulse},
 		{"orders50", seq(1, 50)},
 	}

@@ -272,21 +272,7 @@ func (w *window) pair(pi int, p Pair, pv *PhaseValues) {
 	v, i := math.Sqrt(vm), math.Sqrt(im)
 	v1, i1 := w.ph(p.V, 0), w.ph(p.I, 0)
 
-	// P from the samples. The sample-domain sum cannot be rotated, so a
-	// delay correction is applied to it as the difference it makes to the
-	// computed orders' active powers: Σ_h Re(Vh·Ih*)_corrected − Re(Vh·Ih*)_raw.
-	// Power carried outside the computed orders stays uncorrected.
-	P := Null()
-	if pi < len(w.in.SumVI) {
-		P = w.in.SumVI[pi] / float64(w.in.Ch[p.V].N)
-		if s.Channels[p.V].DelayS != s.Channels[p.I].DelayS && w.w != 0 {
-			rv, ri := w.in.Ch[p.V].Phasors, w.in.Ch[p.I].Phasors
-			for k := range s.Orders {
-				P += real(w.ph(p.V, k)*cmplx.Conj(w.ph(p.I, k))) - real(rv[k]*cmplx.Conj(ri[k]))
-			}
-		}
-	}
-	pv.P = w.def(P)
+	pv.P = w.def(w.productP(pi, p))
 	c1 := v1 * cmplx.Conj(i1) // V1·I1*: real P1, imaginary Q1 (+ when I lags V)
 	pv.P1 = w.def(real(c1))
 	pv.Q1 = w.def(imag(c1))
@@ -311,6 +297,27 @@ func (w *window) pair(pi int, p Pair, pv *PhaseValues) {
 	} else {
 		pv.DPF = w.undef()
 	}
+}
+
+// productP returns the mean of product k (Setup.Products[k], channels p.V
+// and p.I) over the window: P from the samples. The sample-domain sum
+// cannot be rotated, so a delay correction is applied to it as the
+// difference it makes to the computed orders' active powers:
+// Σ_h Re(Vh·Ih*)_corrected − Re(Vh·Ih*)_raw. Power carried outside the
+// computed orders stays uncorrected. Null when the input has no such sum.
+func (w *window) productP(k int, p Pair) float64 {
+	if k >= len(w.in.SumVI) {
+		return Null()
+	}
+	s := w.s
+	P := w.in.SumVI[k] / float64(w.in.Ch[p.V].N)
+	if s.Channels[p.V].DelayS != s.Channels[p.I].DelayS && w.w != 0 {
+		rv, ri := w.in.Ch[p.V].Phasors, w.in.Ch[p.I].Phasors
+		for h := range s.Orders {
+			P += real(w.ph(p.V, h)*cmplx.Conj(w.ph(p.I, h))) - real(rv[h]*cmplx.Conj(ri[h]))
+		}
+	}
+	return P
 }
 
 // total fills the totals. Single phase: the phase itself, Se = S. Wye with

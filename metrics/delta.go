@@ -215,17 +215,7 @@ func (w *window) delta(out *Record) {
 		if e.Neg {
 			sign = -1
 		}
-		pe := Null()
-		if k < len(w.in.SumVI) {
-			pe = w.in.SumVI[k] / float64(w.in.Ch[e.V].N)
-			if s.Channels[e.V].DelayS != s.Channels[e.I].DelayS && w.w != 0 {
-				rv, ri := w.in.Ch[e.V].Phasors, w.in.Ch[e.I].Phasors
-				for h := range s.Orders {
-					pe += real(w.ph(e.V, h)*cmplx.Conj(w.ph(e.I, h))) - real(rv[h]*cmplx.Conj(ri[h]))
-				}
-			}
-		}
-		p += sign * pe
+		p += sign * w.productP(k, e)
 		c1 := w.ph(e.V, 0) * cmplx.Conj(w.ph(e.I, 0))
 		q1 += sign * imag(c1)
 		fs += s.floor(e.V) * s.floor(e.I)

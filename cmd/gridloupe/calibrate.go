@@ -50,13 +50,11 @@ func cmdCalibrate(ctx context.Context, args []string, stdout, stderr io.Writer) 
 	if err := parseFlags(fs, args, stdout); err != nil {
 		return err
 	}
-	switch {
-	case *cfgPath == "" || *refStr == "":
-		return usagef("calibrate: --config FILE and --reference READINGS are required")
-	case fs.NArg() > 1:
-		return usagef("calibrate: want at most one INPUT file, got %d", fs.NArg())
-	case !(*seconds > 0) || *seconds > 600:
-		return usagef("calibrate: --seconds %v: allowed are more than 0 up to 600", *seconds)
+	if err := checkSnapshotFlags("calibrate", *cfgPath, fs.NArg(), *seconds); err != nil {
+		return err
+	}
+	if *refStr == "" {
+		return usagef("calibrate: --reference READINGS is required, such as \"va=231.2,ia=118.5,pf_a=0.93\"")
 	}
 	refs, err := calib.ParseReference(*refStr)
 	if err != nil {

@@ -213,18 +213,7 @@ func TestDeltaAgainstWyeSimulation(t *testing.T) {
 	t.Parallel()
 	dir := t.TempDir()
 	rec := simBoth(t, dir, 3.5)
-	wye := writeFile(t, dir, "wye.yaml", `site: north-weir-dc2
-nominal: {frequency_hz: 50, voltage_v: 230}
-sample_rate_hz: 10240
-il_a: 160
-channels:
-  - {name: va, kind: voltage, phase: a}
-  - {name: vb, kind: voltage, phase: b}
-  - {name: vc, kind: voltage, phase: c}
-  - {name: ia, kind: current, phase: a}
-  - {name: ib, kind: current, phase: b}
-  - {name: ic, kind: current, phase: c}
-`)
+	wye := writeFile(t, dir, "wye.yaml", wyeWiringCfg)
 	delta := writeFile(t, dir, "delta.yaml", northWeirDelta)
 	totals := func(cfg string) map[string]any {
 		res := runCmd("replay", "--config", cfg, "--interval", "3s", rec)

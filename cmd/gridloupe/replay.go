@@ -34,6 +34,11 @@ or their 3 s and 10 min aggregates (IEC 61000-4-30 aggregation).
 INPUT is a CSV file (a header row naming the config's channels, optional
 first column t in seconds, '#' comments) or a WAV file (16/24/32-bit PCM or
 32-bit float, channels in config order); - reads CSV from standard input.
+A .cfg INPUT is a COMTRADE recording (IEEE C37.111-1999/2013, the .dat
+beside it in ASCII, BINARY, BINARY32 or FLOAT32): channels are matched by
+name to the analog channel ids (or by comtrade: N), values are primary
+(a·x + b, times primary/secondary for secondary channels), and the
+recording's first-sample time is the default --start.
 With --pcm FORMAT, INPUT is a raw PCM stream (a file, a FIFO, or - for
 standard input): interleaved little-endian samples in config channel order,
 bare or in GLF1 frames (--framing glf1); sample_rate_hz is then required.
@@ -106,6 +111,9 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 	if *pcmFmt != "" {
 		return replayPCM(ctx, replayPCMArgs{cfg: cfg, setup: setup, cal: cal, base: base, iv: iv, format: fmtKind,
 			pcm: *pcmFmt, framing: *framing, input: inPath, events: *eventsPath}, stdin, stdout, stderr)
+	}
+	if isCOMTRADE(inPath) {
+		return replayCOMTRADE(ctx, replayJob{cfg: cfg, setup: setup, cal: cal, base: base, iv: iv, format: fmtKind, input: inPath, events: *eventsPath}, stdout, stderr)
 	}
 	r, closeIn, err := openReplayInput(inPath, stdin, stderr, *progress)
 	if err != nil {
@@ -223,13 +231,7 @@ func replayAnalyse(ctx context.Context, j replayJob, stdout, stderr io.Writer) e
 	return nil
 }
 
-// recordWriter is what replay needs of an encoder.
-type recordWriter interface {
-	Write(r *metrics.Record) error
-	Flush() error
-}
-
-func newEncoder(k encode.Format, w io.Writer, s *metrics.Setup, cfg *config.Config) (recordWriter, error) {
+func newEncoder(k encode.Format, w io.Writer, s *metrics.Setup, cfg *config.Config) (encode.Writer, error) {
 	enc, err := encode.New(k, w, s, encode.TableOptions{Title: cfg.Site, Reference: ieeeReference(cfg)})
 	if err != nil {
 		return nil, &usageError{err}

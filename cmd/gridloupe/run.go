@@ -43,16 +43,22 @@ modbus or http section it also serves the latest values over Modbus TCP and
 HTTP (see the README).
 
 Source kinds (source.kind):
-  sim   the built-in drive-cabinet simulator (speed: 1 = real time)
-  csv   a CSV recording (path)
-  wav   a WAV recording (path)
-  pcm   raw PCM, interleaved in channel order (format: s16le|s24le|s32le|f32le,
-        sample_rate_hz required): path (a file, a FIFO, "-" for standard
-        input) or connect: host:port (a TCP sender, redialled with backoff);
-        framing: glf1 for GLF1 frames. Lost samples are flagged gap.
+  sim       the built-in drive-cabinet simulator (speed: 1 = real time)
+  csv       a CSV recording (path)
+  wav       a WAV recording (path)
+  pcm       raw PCM, interleaved in channel order (format: s16le, s24le,
+            s32le or f32le; sample_rate_hz required) from path (a file, a
+            FIFO, "-" for standard input) or connect: host:port (a TCP
+            sender, redialled with backoff); framing: glf1 for GLF1 frames
+  comtrade  a COMTRADE recording (path: the .cfg, the .dat beside it), timed
+            from its own first-sample time stamp
+  iio       a Linux IIO ADC (device: iio:device0 or its name attribute; each
+            channel names its scan element, iio: voltage0); the buffer is
+            disabled and the _en files restored however run ends
+Samples a live source loses are flagged gap, never stitched.
 
 Exit status: 0 after a signal, 0 when a csv or wav source reaches its end
-(a pcm file too, and after --stop-after), 1 when the simulator stops
+(a pcm file or a COMTRADE recording too, and after --stop-after), 1 when the simulator stops
 otherwise, a pipe or standard input ends, a source fails or the store cannot
 be opened, 2 for config errors.
 
@@ -192,7 +198,8 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	var rate float64
 	var closer io.Closer
 	endIsError := true
-	liveSrc := false // a live source never blocks: full sink queues drop (and flag gap)
+	liveSrc := false      // a live source never blocks: full sink queues drop (and flag gap)
+	var srcBase time.Time // a recording's own start time (COMTRADE); zero = the wall clock
 	switch cfg.Source.Kind {
 	case config.SourceSim:
 		rate = cfg.SampleRateHz
@@ -236,6 +243,23 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		}
 		d.source = src
 		endIsError = false
+	case config.SourceIIO:
+		in, first, err := openIIO(ctx, cfg, log.With("component", "source"))
+		if err != nil {
+			return err
+		}
+		defer func() {
+			if cerr := in.close(); cerr != nil {
+				log.Error("iio device not restored", "err", cerr)
+			}
+		}()
+		d.source, rate, endIsError, liveSrc, srcBase = in.src, in.src.SampleRate(), true, true, first
+	case config.SourceCOMTRADE:
+		rec, r, err := openCOMTRADE(cfg, cfg.Source.Path)
+		if err != nil {
+			return err
+		}
+		closer, d.source, rate, endIsError, srcBase = rec, rec.Data, r, false, rec.Start
 	case config.SourcePCM:
 		in, isLive, err := openPCMSource(ctx, cfg, len(setup.Channels), log.With("component", "source"))
 		if err != nil {
@@ -347,6 +371,9 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	}
 	pc := pipelineConfig(cfg, setup, cal, rate)
 	pc.Base = now().UTC()
+	if !srcBase.IsZero() {
+		pc.Base = srcBase
+	}
 	if d.sim != nil {
 		pc.Base = d.sim.Truth().Time
 	}

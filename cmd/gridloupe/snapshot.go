@@ -25,6 +25,20 @@ type snapshot struct {
 	seconds float64
 }
 
+// checkSnapshotFlags checks what the commissioning commands share: a
+// config, at most one INPUT, and a span of more than 0 up to 600 s.
+func checkSnapshotFlags(cmd, cfgPath string, nargs int, seconds float64) error {
+	switch {
+	case cfgPath == "":
+		return usagef("%s: --config FILE is required", cmd)
+	case nargs > 1:
+		return usagef("%s: want at most one INPUT file, got %d", cmd, nargs)
+	case !(seconds > 0) || seconds > 600:
+		return usagef("%s: --seconds %v: allowed are more than 0 up to 600", cmd, seconds)
+	}
+	return nil
+}
+
 // takeSnapshot analyses up to seconds of INPUT (a CSV or WAV recording),
 // or of the config's source when inPath is empty, and aggregates every
 // window into one record (DESIGN Aggregation rules). The commissioning

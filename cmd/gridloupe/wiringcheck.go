@@ -53,15 +53,11 @@ func cmdWiring(ctx context.Context, args []string, stdout, stderr io.Writer) err
 	if err := parseFlags(fs, args, stdout); err != nil {
 		return err
 	}
-	switch {
-	case *cfgPath == "":
-		return usagef("wiring: --config FILE is required")
-	case fs.NArg() > 1:
-		return usagef("wiring: want at most one INPUT file, got %d", fs.NArg())
-	case *format != "text" && *format != "json":
+	if err := checkSnapshotFlags("wiring", *cfgPath, fs.NArg(), *seconds); err != nil {
+		return err
+	}
+	if *format != "text" && *format != "json" {
 		return usagef("wiring: --format %q: allowed are text, json", *format)
-	case !(*seconds > 0) || *seconds > 600:
-		return usagef("wiring: --seconds %v: allowed are more than 0 up to 600", *seconds)
 	}
 	cfg, err := config.Load(*cfgPath)
 	if err != nil {

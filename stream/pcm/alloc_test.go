@@ -7,18 +7,6 @@ import (
 	"testing"
 )
 
-// loop is a reader that replays the same bytes forever (an endless stream).
-type loop struct {
-	b   []byte
-	pos int
-}
-
-func (l *loop) Read(p []byte) (int, error) {
-	n := copy(p, l.b[l.pos:])
-	l.pos = (l.pos + n) % len(l.b)
-	return n, nil
-}
-
 // TestReadAllocs: steady-state reading allocates nothing per frame, for
 // raw and framed streams, gaps included (STYLE.md §5), and memory stays
 // constant on an endless stream.
