@@ -155,11 +155,14 @@ type Alarm struct {
 	OffDelay   time.Duration // sample time it must be clear before clearing
 	MinLoadPct float64       // quiet below this percentage of IL (or the current channel's full scale); 0 = off
 	Harmonic   int           // metrics pct and pct_il: the order, 2..50
+	RelativeTo string        // "" (absolute threshold) or RelativeBaseline: above/below are a rise/drop from the learned baseline
+	Learn      time.Duration // relative_to baseline: the commissioning period the baseline is learned over; default 168h
 	Line       int           // line of the rule's entry in the config file
 }
 
 // Spellings of enumerated values.
 const (
+	RelativeBaseline  = "baseline"
 	WiringSinglePhase = "single-phase"
 	WiringWye         = "wye"
 	WiringDelta       = "delta"

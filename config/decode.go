@@ -38,7 +38,7 @@ var sections = map[string][]string{
 	"demand":             {"interval", "method"},
 	"events":             {"dip_pct", "swell_pct", "interruption_pct", "hysteresis_pct", "pre_cycles", "post_cycles", "max_capture_s"},
 	"alarms[]": {"name", "metric", "channel", "phase", "level", "above", "below", "deadband",
-		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic", "circuit"},
+		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic", "circuit", "relative_to", "learn"},
 }
 
 // Bounds on list lengths keep a hostile file from costing much.
@@ -693,6 +693,10 @@ func (d *decoder) alarm(n *yaml.Node, path string, a *Alarm) *Error {
 			return d.float(v, p, &a.MinLoadPct)
 		case "harmonic":
 			return d.integer(v, p, 2, maxOrder, &a.Harmonic)
+		case "relative_to":
+			return d.enum(v, p, &a.RelativeTo, RelativeBaseline)
+		case "learn":
+			return d.duration(v, p, &a.Learn)
 		}
 		return d.errf(v, p, "internal: key has no decoder")
 	})

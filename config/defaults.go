@@ -20,8 +20,9 @@ func Defaults() string {
 // the per-channel and per-phase quantities, as comment lines.
 func alarmMetricsDoc() string {
 	const pad = "#                                  #   "
-	ch := append(quantity.AlarmChannelNames(), "pct", "pct_il")
-	rest := append(quantity.AlarmPhaseNames(), "freq_hz", "unbalance_voltage_pct", "unbalance_current_pct")
+	all := quantity.AlarmMetrics()
+	k := len(quantity.AlarmChannelNames()) + 2 // the per-channel ones and pct, pct_il on the first line
+	ch, rest := all[:k], all[k:]
 	var b strings.Builder
 	b.WriteString("#     metric: tdd_h50_pct          # required: " + strings.Join(ch, " | ") + "\n")
 	b.WriteString(pad + "| " + strings.Join(rest, " | ") + "\n")
@@ -145,6 +146,9 @@ alarms: []
 #     off_delay: 0s                # sample time it must be clear before clearing
 #     severity: warning            # info | warning | critical (default warning)
 #     min_load_pct: 0              # quiet below this % of il_a (or the current channel's full_scale); 0 = off
+#     relative_to: ""              # "" (above/below are absolute) | baseline: above/below are a rise/drop from the
+#                                  #   commissioning baseline learned per 10 % load bin (fundamental current, % of il_a)
+#     learn: 168h                  # relative_to baseline: how long the baseline is learned from the first value
 
 # modbus:                  # read-only Modbus TCP server for a BMS; off unless this section is given
 #   listen: 127.0.0.1:5020 # host:port; loopback by default (see the README before exposing it)

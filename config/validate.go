@@ -18,10 +18,8 @@ import (
 
 // Read-only tables of allowed values.
 var (
-	// metricNames: the per-channel and per-phase quantities alarms may
-	// watch (metrics/quantity's table), pct and pct_il, and the system-wide ones.
-	metricNames = slices.Concat(quantity.AlarmChannelNames(), []string{"pct", "pct_il"},
-		quantity.AlarmPhaseNames(), []string{"freq_hz", "unbalance_voltage_pct", "unbalance_current_pct"})
+	// metricNames: what alarm rules may watch (metrics/quantity, defined there once).
+	metricNames     = quantity.AlarmMetrics()
 	alarmLevels     = []string{"200ms", "3s", "10min", "2h"} // DESIGN "Time": the closed set of interval labels
 	telemetryLevels = []string{"3s", "10min", "2h"}
 )
@@ -631,7 +629,44 @@ func (v *validator) alarm(p string, a *Alarm) *Error {
 	case !isPct && v.has(p+".harmonic"):
 		return v.fail(p+".harmonic", "applies to metrics pct and pct_il only")
 	}
+	if e := v.relative(p, a); e != nil {
+		return e
+	}
 	return v.threshold(p, a, ch)
+}
+
+// defaultLearn is a baseline rule's commissioning period: a week, so every
+// load of the weekly cycle is seen (common practice, no source).
+const defaultLearn = 168 * time.Hour
+
+// relative checks the baseline keys of alarm a.
+func (v *validator) relative(p string, a *Alarm) *Error {
+	if a.RelativeTo == "" {
+		if v.has(p + ".learn") {
+			return v.fail(p+".learn", "applies to relative_to: baseline rules only")
+		}
+		return nil
+	}
+	if a.Learn == 0 {
+		a.Learn = defaultLearn
+	}
+	if a.Learn < 0 {
+		return v.fail(p+".learn", "must be a positive duration, e.g. 168h")
+	}
+	if a.Above != nil && *a.Above < 0 || a.Below != nil && *a.Below < 0 {
+		return v.fail(p+".metric", "with relative_to: baseline, above/below are the rise/drop from the baseline: give a positive amount")
+	}
+	c := v.c
+	if c.ILA == 0 && c.Nominal.CurrentA == 0 {
+		full := false
+		for _, ch := range c.Channels {
+			full = full || ch.Kind == KindCurrent && ch.FullScale > 0
+		}
+		if !full {
+			return v.fail(p+".relative_to", "the baseline's load bins are percentages of IL: set il_a (or nominal.current_a, or full_scale on the current channels)")
+		}
+	}
+	return nil
 }
 
 func (v *validator) pfPhase(p string, a *Alarm) *Error {

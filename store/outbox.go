@@ -82,22 +82,24 @@ type AlarmState struct {
 	Pending      bool      // a transition waits for its on/off delay
 	PendingSince time.Time // sample time the pending transition started
 	Seq          uint64    // outbox seq of the last transition message (set by CommitAlarm)
+	Baseline     []byte    // a baseline rule's learned commissioning baseline, JSON the caller defines; nil = none
 }
 
 type alarmJSON struct {
-	Name         string    `json:"name"`
-	Raised       bool      `json:"raised"`
-	Since        time.Time `json:"since"`
-	Value        *float64  `json:"value"`
-	Severity     string    `json:"severity,omitempty"`
-	Pending      bool      `json:"pending"`
-	PendingSince time.Time `json:"pending_since"`
-	Seq          uint64    `json:"seq"`
+	Name         string          `json:"name"`
+	Raised       bool            `json:"raised"`
+	Since        time.Time       `json:"since"`
+	Value        *float64        `json:"value"`
+	Severity     string          `json:"severity,omitempty"`
+	Pending      bool            `json:"pending"`
+	PendingSince time.Time       `json:"pending_since"`
+	Seq          uint64          `json:"seq"`
+	Baseline     json.RawMessage `json:"baseline,omitempty"`
 }
 
 func marshalAlarm(st AlarmState) ([]byte, error) {
 	a := alarmJSON{Name: st.Name, Raised: st.Raised, Since: st.Since, Severity: st.Severity,
-		Pending: st.Pending, PendingSince: st.PendingSince, Seq: st.Seq}
+		Pending: st.Pending, PendingSince: st.PendingSince, Seq: st.Seq, Baseline: st.Baseline}
 	if st.Value == st.Value {
 		v := st.Value
 		a.Value = &v
@@ -462,7 +464,7 @@ func (db *DB) AlarmStates() (map[string]AlarmState, error) {
 				return fmt.Errorf("alarm %q: %w: %w", k, ErrCorrupt, err)
 			}
 			st := AlarmState{Name: a.Name, Raised: a.Raised, Since: a.Since, Severity: a.Severity,
-				Pending: a.Pending, PendingSince: a.PendingSince, Seq: a.Seq, Value: nan()}
+				Pending: a.Pending, PendingSince: a.PendingSince, Seq: a.Seq, Value: nan(), Baseline: a.Baseline}
 			if a.Value != nil {
 				st.Value = *a.Value
 			}

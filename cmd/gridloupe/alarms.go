@@ -84,6 +84,9 @@ func alarmRules(cfg *config.Config, s *metrics.Setup) ([]alarm.Rule, error) {
 			}
 			r.MinLoad = a.MinLoadPct / 100 * base
 		}
+		if a.RelativeTo == config.RelativeBaseline {
+			r.Baseline = &alarm.Baseline{Learn: a.Learn, Base: baselineBase(cfg, s, ci)}
+		}
 		r.Text = alarmText(cfg, a)
 		out = append(out, r)
 	}
@@ -110,9 +113,33 @@ func alarmText(cfg *config.Config, a config.Alarm) string {
 	if a.Harmonic > 0 {
 		metric = fmt.Sprintf("h%d %s", a.Harmonic, a.Metric)
 	}
-	fmt.Fprintf(&b, "%s %s %s %g (%s values)", where, metric, dir, th, a.Level)
+	if a.RelativeTo == config.RelativeBaseline {
+		fmt.Fprintf(&b, "%s %s %g %s its commissioning baseline at the same load (%s values, learned over %v)", where, metric, th, dir, a.Level, a.Learn)
+	} else {
+		fmt.Fprintf(&b, "%s %s %s %g (%s values)", where, metric, dir, th, a.Level)
+	}
 	if distortionMetrics[a.Metric] {
 		b.WriteString(". " + alarm.PCCNote + " (" + limits.Edition + ")")
 	}
 	return b.String()
+}
+
+// baselineBase is the current, A, a baseline's load bins are percentages
+// of: il_a, else nominal.current_a, else the full scale of the rule's
+// current channel or of the first current channel that has one.
+func baselineBase(cfg *config.Config, s *metrics.Setup, ci int) float64 {
+	switch {
+	case cfg.ILA > 0:
+		return cfg.ILA
+	case cfg.Nominal.CurrentA > 0:
+		return cfg.Nominal.CurrentA
+	case ci >= 0 && s.Channels[ci].Kind == metrics.Current && s.Channels[ci].FullScale > 0:
+		return s.Channels[ci].FullScale
+	}
+	for _, ch := range s.Channels {
+		if ch.Kind == metrics.Current && ch.FullScale > 0 {
+			return ch.FullScale
+		}
+	}
+	return 0
 }

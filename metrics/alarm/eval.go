@@ -16,6 +16,7 @@ type State struct {
 	Pending      bool      `json:"pending"`       // the opposite state's condition holds, its delay is running
 	PendingSince time.Time `json:"pending_since"` // sample time the pending condition was first met
 	Value        float64   `json:"value"`         // last non-null value evaluated
+	Learned      Learned   `json:"learned"`       // baseline rules: the commissioning baseline
 }
 
 // Transition is one raise or clear.
@@ -133,17 +134,29 @@ func (e *Evaluator) step(i int, r *metrics.Record, t time.Time) (Transition, boo
 			return Transition{}, false // light load (or unknown): hold, pending untouched
 		}
 	}
+	x, thr, shown := v, ru.Threshold, ru.Threshold
+	if ru.Baseline != nil {
+		dev, mean, _ := e.relative(i, r, v, t)
+		if math.IsNaN(dev) {
+			return Transition{}, false // learning, or no baseline at this load: hold
+		}
+		x = dev
+		if !ru.Above {
+			thr = -ru.Threshold
+		}
+		shown = mean + thr // the threshold the value crossed, in metric units
+	}
 	var meets bool
 	var delay time.Duration
 	switch {
 	case !st.Raised && ru.Above:
-		meets, delay = v > ru.Threshold, ru.OnDelay
+		meets, delay = x > thr, ru.OnDelay
 	case !st.Raised:
-		meets, delay = v < ru.Threshold, ru.OnDelay
+		meets, delay = x < thr, ru.OnDelay
 	case ru.Above:
-		meets, delay = v < ru.Threshold-ru.Deadband, ru.OffDelay
+		meets, delay = x < thr-ru.Deadband, ru.OffDelay
 	default:
-		meets, delay = v > ru.Threshold+ru.Deadband, ru.OffDelay
+		meets, delay = x > thr+ru.Deadband, ru.OffDelay
 	}
 	if !meets {
 		st.Pending, st.PendingSince = false, time.Time{}
@@ -166,7 +179,7 @@ func (e *Evaluator) step(i int, r *metrics.Record, t time.Time) (Transition, boo
 		Raised:    st.Raised,
 		Time:      t,
 		Value:     v,
-		Threshold: ru.Threshold,
+		Threshold: shown,
 		Level:     ru.Level,
 		Severity:  ru.Severity,
 		Text:      ru.Text,

@@ -12,18 +12,18 @@ import (
 
 // Metric names a rule can watch. They are the record's JSON key names.
 const (
-	MetricRMS        = "rms"                   // channel RMS, V or A
-	MetricTHD        = "thd_pct"               // channel THD-F, all components, %
-	MetricTHDH50     = "thd_h50_pct"           // channel THD over orders 2..50, %
-	MetricTDD        = "tdd_pct"               // current TDD, all components, % of IL
-	MetricTDDH50     = "tdd_h50_pct"           // current TDD over orders 2..50, % of IL
-	MetricPct        = "pct"                   // one harmonic, % of the channel's fundamental
-	MetricPctIL      = "pct_il"                // one current harmonic, % of IL
-	MetricPF         = "pf"                    // power factor of a phase or the total
-	MetricDPF        = "dpf"                   // displacement power factor of a phase or the total
-	MetricFreq       = "freq_hz"               // line frequency, Hz
-	MetricUnbalanceV = "unbalance_voltage_pct" // voltage unbalance, %
-	MetricUnbalanceI = "unbalance_current_pct" // current unbalance, %
+	MetricRMS        = quantity.NameRMS        // channel RMS, V or A
+	MetricTHD        = quantity.NameTHD        // channel THD-F, all components, %
+	MetricTHDH50     = quantity.NameTHDH50     // channel THD over orders 2..50, %
+	MetricTDD        = quantity.NameTDD        // current TDD, all components, % of IL
+	MetricTDDH50     = quantity.NameTDDH50     // current TDD over orders 2..50, % of IL
+	MetricPct        = quantity.NamePct        // one harmonic, % of the channel's fundamental
+	MetricPctIL      = quantity.NamePctIL      // one current harmonic, % of IL
+	MetricPF         = quantity.NamePF         // power factor of a phase or the total
+	MetricDPF        = quantity.NameDPF        // displacement power factor of a phase or the total
+	MetricFreq       = quantity.NameFreq       // line frequency, Hz
+	MetricUnbalanceV = quantity.NameUnbalanceV // voltage unbalance, %
+	MetricUnbalanceI = quantity.NameUnbalanceI // current unbalance, %
 )
 
 type metric uint8
@@ -48,15 +48,9 @@ var metricNames = [...]string{mRMS: MetricRMS, mTHD: MetricTHD, mTHDH50: MetricT
 	mTDD: MetricTDD, mTDDH50: MetricTDDH50, mPct: MetricPct, mPctIL: MetricPctIL,
 	mPF: MetricPF, mDPF: MetricDPF, mFreq: MetricFreq, mUnbV: MetricUnbalanceV, mUnbI: MetricUnbalanceI}
 
-// Metrics lists every metric name a Rule may use, for help and error texts:
-// the per-channel quantities of metrics/quantity's table that alarms may
-// watch, then pct and pct_il, the per-phase ones, and the system-wide ones.
-func Metrics() []string {
-	out := quantity.AlarmChannelNames()
-	out = append(out, MetricPct, MetricPctIL)
-	out = append(out, quantity.AlarmPhaseNames()...)
-	return append(out, MetricFreq, MetricUnbalanceV, MetricUnbalanceI)
-}
+// Metrics lists every metric name a Rule may use, for help and error texts
+// (quantity.AlarmMetrics).
+func Metrics() []string { return quantity.AlarmMetrics() }
 
 // parseMetric returns the metric called s and, for a per-channel scalar,
 // its quantity in metrics/quantity's table.
@@ -120,6 +114,11 @@ type Rule struct {
 	LoadChannels []int // current channels compared with MinLoad (the rule's channel, or the phase currents)
 
 	Text string // human text for the alarm message
+
+	// Baseline, when set, makes Threshold and Deadband relative to the
+	// commissioning baseline the rule learns (baseline.go); the rule's
+	// MinLoad still applies, and nothing is learned at light load.
+	Baseline *Baseline
 }
 
 // compiled is a validated rule with its lookups resolved against the setup.
@@ -130,8 +129,9 @@ type compiled struct {
 	q     quantity.ID // per-channel scalars: the quantity in metrics/quantity's table
 	phase int         // index in Setup.Pairs / Record.Phases; −1 for the total
 	load  []int
-	delta bool // the total of a delta record, which has no phases
-	circ  int  // pf, dpf: index in Setup.Circuits; −1 for the bus itself
+	delta bool  // the total of a delta record, which has no phases
+	circ  int   // pf, dpf: index in Setup.Circuits; −1 for the bus itself
+	binCh []int // baseline rules: the currents whose fundamental picks the load bin
 }
 
 // compile validates r against s.
@@ -172,7 +172,38 @@ func compile(r *Rule, s *metrics.Setup) (compiled, error) {
 		}
 	}
 	c.load = slices.Clone(r.LoadChannels)
+	if r.Baseline != nil {
+		if err := c.baseline(r, s); err != nil {
+			return c, fmt.Errorf("rule %q: %w", r.Name, err)
+		}
+	}
 	return c, nil
+}
+
+// baseline validates r.Baseline and picks the currents of its load bins:
+// the load channels, else the rule's current channel, else every phase
+// current.
+func (c *compiled) baseline(r *Rule, s *metrics.Setup) error {
+	b := r.Baseline
+	if b.Learn <= 0 || !(b.Base > 0) || math.IsInf(b.Base, 0) {
+		return fmt.Errorf("baseline: learn %v must be positive and the load base %v A positive: %w", b.Learn, b.Base, ErrRule)
+	}
+	switch {
+	case len(c.load) > 0:
+		c.binCh = slices.Clone(c.load)
+	case c.ch >= 0 && s.Channels[c.ch].Kind == metrics.Current:
+		c.binCh = []int{c.ch}
+	default:
+		for _, i := range s.IIdx {
+			if i >= 0 {
+				c.binCh = append(c.binCh, i)
+			}
+		}
+	}
+	if len(c.binCh) == 0 {
+		return fmt.Errorf("baseline: no current channel to bin the load by: %w", ErrTarget)
+	}
+	return nil
 }
 
 func (c *compiled) target(r *Rule, s *metrics.Setup) error {
