@@ -20,8 +20,9 @@ func Defaults() string {
 // the per-channel and per-phase quantities, as comment lines.
 func alarmMetricsDoc() string {
 	const pad = "#                                  #   "
-	ch := append(quantity.AlarmChannelNames(), "pct", "pct_il")
-	rest := append(quantity.AlarmPhaseNames(), "freq_hz", "unbalance_voltage_pct", "unbalance_current_pct")
+	all := quantity.AlarmMetrics()
+	k := len(quantity.AlarmChannelNames()) + 2 // the per-channel ones and pct, pct_il on the first line
+	ch, rest := all[:k], all[k:]
 	var b strings.Builder
 	b.WriteString("#     metric: tdd_h50_pct          # required: " + strings.Join(ch, " | ") + "\n")
 	b.WriteString(pad + "| " + strings.Join(rest, " | ") + "\n")

@@ -18,10 +18,8 @@ import (
 
 // Read-only tables of allowed values.
 var (
-	// metricNames: the per-channel and per-phase quantities alarms may
-	// watch (metrics/quantity's table), pct and pct_il, and the system-wide ones.
-	metricNames = slices.Concat(quantity.AlarmChannelNames(), []string{"pct", "pct_il"},
-		quantity.AlarmPhaseNames(), []string{"freq_hz", "unbalance_voltage_pct", "unbalance_current_pct"})
+	// metricNames: what alarm rules may watch (metrics/quantity, defined there once).
+	metricNames     = quantity.AlarmMetrics()
 	alarmLevels     = []string{"200ms", "3s", "10min", "2h"} // DESIGN "Time": the closed set of interval labels
 	telemetryLevels = []string{"3s", "10min", "2h"}
 )

@@ -3,11 +3,14 @@ package metrics
 import (
 	"fmt"
 	"math"
+
+	"github.com/gridloupe/gridloupe/metrics/limits"
 )
 
-// MaxOrder is the highest harmonic order computed (IEEE 519 and
-// IEC 61000-4-7 assess orders up to the 50th).
-const MaxOrder = 50
+// MaxOrder is the highest harmonic order computed: the highest IEEE 519
+// assesses (limits.MaxOrder, defined there once; IEC 61000-4-7 also stops
+// at the 50th).
+const MaxOrder = limits.MaxOrder
 
 // NewSetup validates s and returns a copy with the derived fields filled:
 // Pairs, Neutral, VIdx, IIdx and AllOrders (true when Orders is exactly

@@ -49,6 +49,8 @@ Commands:
   run       run the gateway unattended (source, store, alarms, MQTT) until
             SIGINT or SIGTERM
   export    print stored 3 s, 10 min or 2 h aggregates (CSV or JSON Lines)
+  events    list the stored voltage dips, swells and interruptions
+  waveform  draw one stored event's waveform capture as an SVG
   evaluate  judge a stored week against the IEEE 519-2014 harmonic limits
   replay    analyse a recorded waveform file (CSV or WAV) and print one record
             per window or aggregation interval
@@ -95,6 +97,10 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 		err = cmdExport(rest, stdout, stderr)
 	case "evaluate":
 		err = cmdEvaluate(rest, stdout, stderr)
+	case "events":
+		err = cmdEvents(rest, stdout, stderr)
+	case "waveform":
+		err = cmdWaveform(rest, stdout, stderr)
 	case "simulate":
 		err = cmdSimulate(ctx, rest, stdout, stderr)
 	case "wiring":
@@ -109,7 +115,7 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 		err = cmdVersion(rest, stdout)
 	default:
 		fmt.Fprint(stderr, rootHelp)
-		return usagef("unknown command %q (commands: demo, run, export, evaluate, replay, simulate, modbus-map, report, wiring, calibrate, config, version)", cmd)
+		return usagef("unknown command %q (commands: demo, run, export, events, waveform, evaluate, replay, simulate, modbus-map, report, wiring, calibrate, config, version)", cmd)
 	}
 	if errors.Is(err, errHelp) {
 		return nil

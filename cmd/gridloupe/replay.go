@@ -231,13 +231,7 @@ func replayAnalyse(ctx context.Context, j replayJob, stdout, stderr io.Writer) e
 	return nil
 }
 
-// recordWriter is what replay needs of an encoder.
-type recordWriter interface {
-	Write(r *metrics.Record) error
-	Flush() error
-}
-
-func newEncoder(k encode.Format, w io.Writer, s *metrics.Setup, cfg *config.Config) (recordWriter, error) {
+func newEncoder(k encode.Format, w io.Writer, s *metrics.Setup, cfg *config.Config) (encode.Writer, error) {
 	enc, err := encode.New(k, w, s, encode.TableOptions{Title: cfg.Site, Reference: ieeeReference(cfg)})
 	if err != nil {
 		return nil, &usageError{err}

@@ -103,13 +103,12 @@ func resolveRate(cfg *config.Config, fromInput float64, inputPath string) (float
 	return 0, usagef("%s: %s carries no sample rate (no t column); set sample_rate_hz in the config", cfg.Path, inputPath)
 }
 
-// checkRate rejects rates too low for the requested orders: order h at up
-// to 1.15 × nominal (69 Hz on 60 Hz systems) needs fs above 2·h·f.
+// checkRate rejects rates too low for the requested orders by config's
+// one sample-rate rule (config.Config.CheckSampleRate: order h at up to
+// 1.15 × nominal needs fs above 2·h·1.15·f), as a usage error.
 func checkRate(cfg *config.Config, fs float64) error {
-	maxH := cfg.Harmonics.Orders[len(cfg.Harmonics.Orders)-1]
-	need := 2 * float64(maxH) * 1.15 * cfg.Nominal.FrequencyHz
-	if fs <= need {
-		return usagef("%s: sample rate %v Hz is too low for harmonic order %d (needs more than %.0f Hz); lower the orders in `harmonics` or record faster", cfg.Path, fs, maxH, need)
+	if err := cfg.CheckSampleRate(fs); err != nil {
+		return &usageError{err}
 	}
 	return nil
 }

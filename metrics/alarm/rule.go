@@ -12,18 +12,18 @@ import (
 
 // Metric names a rule can watch. They are the record's JSON key names.
 const (
-	MetricRMS        = "rms"                   // channel RMS, V or A
-	MetricTHD        = "thd_pct"               // channel THD-F, all components, %
-	MetricTHDH50     = "thd_h50_pct"           // channel THD over orders 2..50, %
-	MetricTDD        = "tdd_pct"               // current TDD, all components, % of IL
-	MetricTDDH50     = "tdd_h50_pct"           // current TDD over orders 2..50, % of IL
-	MetricPct        = "pct"                   // one harmonic, % of the channel's fundamental
-	MetricPctIL      = "pct_il"                // one current harmonic, % of IL
-	MetricPF         = "pf"                    // power factor of a phase or the total
-	MetricDPF        = "dpf"                   // displacement power factor of a phase or the total
-	MetricFreq       = "freq_hz"               // line frequency, Hz
-	MetricUnbalanceV = "unbalance_voltage_pct" // voltage unbalance, %
-	MetricUnbalanceI = "unbalance_current_pct" // current unbalance, %
+	MetricRMS        = quantity.NameRMS        // channel RMS, V or A
+	MetricTHD        = quantity.NameTHD        // channel THD-F, all components, %
+	MetricTHDH50     = quantity.NameTHDH50     // channel THD over orders 2..50, %
+	MetricTDD        = quantity.NameTDD        // current TDD, all components, % of IL
+	MetricTDDH50     = quantity.NameTDDH50     // current TDD over orders 2..50, % of IL
+	MetricPct        = quantity.NamePct        // one harmonic, % of the channel's fundamental
+	MetricPctIL      = quantity.NamePctIL      // one current harmonic, % of IL
+	MetricPF         = quantity.NamePF         // power factor of a phase or the total
+	MetricDPF        = quantity.NameDPF        // displacement power factor of a phase or the total
+	MetricFreq       = quantity.NameFreq       // line frequency, Hz
+	MetricUnbalanceV = quantity.NameUnbalanceV // voltage unbalance, %
+	MetricUnbalanceI = quantity.NameUnbalanceI // current unbalance, %
 )
 
 type metric uint8
@@ -48,15 +48,9 @@ var metricNames = [...]string{mRMS: MetricRMS, mTHD: MetricTHD, mTHDH50: MetricT
 	mTDD: MetricTDD, mTDDH50: MetricTDDH50, mPct: MetricPct, mPctIL: MetricPctIL,
 	mPF: MetricPF, mDPF: MetricDPF, mFreq: MetricFreq, mUnbV: MetricUnbalanceV, mUnbI: MetricUnbalanceI}
 
-// Metrics lists every metric name a Rule may use, for help and error texts:
-// the per-channel quantities of metrics/quantity's table that alarms may
-// watch, then pct and pct_il, the per-phase ones, and the system-wide ones.
-func Metrics() []string {
-	out := quantity.AlarmChannelNames()
-	out = append(out, MetricPct, MetricPctIL)
-	out = append(out, quantity.AlarmPhaseNames()...)
-	return append(out, MetricFreq, MetricUnbalanceV, MetricUnbalanceI)
-}
+// Metrics lists every metric name a Rule may use, for help and error texts
+// (quantity.AlarmMetrics).
+func Metrics() []string { return quantity.AlarmMetrics() }
 
 // parseMetric returns the metric called s and, for a per-channel scalar,
 // its quantity in metrics/quantity's table.

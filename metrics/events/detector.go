@@ -156,8 +156,9 @@ type Detector struct {
 	hasEnd  bool
 }
 
-// New validates cfg, applies defaults and allocates the ring.
-func New(cfg Config) (*Detector, error) {
+// WithDefaults returns cfg with the defaults of DefaultConfig in place of
+// zero thresholds and capture lengths, as New applies them.
+func WithDefaults(cfg Config) Config {
 	def := DefaultConfig()
 	setDef := func(v *float64, d float64) {
 		if *v == 0 {
@@ -170,6 +171,12 @@ func New(cfg Config) (*Detector, error) {
 	setDef(&cfg.MaxCaptureS, def.MaxCaptureS)
 	cfg.HysteresisPct = max(cfg.HysteresisPct, 0)
 	cfg.PreCycles, cfg.PostCycles = max(cfg.PreCycles, 0), max(cfg.PostCycles, 0)
+	return cfg
+}
+
+// New validates cfg, applies defaults and allocates the ring.
+func New(cfg Config) (*Detector, error) {
+	cfg = WithDefaults(cfg)
 	switch {
 	case !(cfg.SampleRate > 0) || math.IsInf(cfg.SampleRate, 0):
 		return nil, fmt.Errorf("%w: sample rate %v Hz", ErrConfig, cfg.SampleRate)

@@ -96,14 +96,44 @@ func (q Q) Applies(current, allOrders, hasIL bool) bool {
 	return (q.Need&AllOrders == 0 || allOrders) && (q.Need&Current == 0 || current) && (q.Need&IL == 0 || hasIL)
 }
 
+// Names of the quantities alarm rules may watch, defined here once
+// (metrics/alarm's Metric constants and config's allowed list use them).
+const (
+	NameRMS         = "rms"
+	NameTHD         = "thd_pct"
+	NameTHDH50      = "thd_h50_pct"
+	NameTDD         = "tdd_pct"
+	NameTDDH50      = "tdd_h50_pct"
+	NameCrestFactor = "crest_factor"
+	NamePF          = "pf"
+	NameDPF         = "dpf"
+	// Alarm metrics outside the two tables: one harmonic of a channel, and
+	// system-wide values.
+	NamePct        = "pct"    // one harmonic, % of the channel's fundamental
+	NamePctIL      = "pct_il" // one current harmonic, % of IL
+	NameFreq       = "freq_hz"
+	NameUnbalanceV = "unbalance_voltage_pct"
+	NameUnbalanceI = "unbalance_current_pct"
+)
+
+// AlarmMetrics lists every metric an alarm rule may watch, for validation
+// and help texts: the per-channel quantities alarms may watch, pct and
+// pct_il, the per-phase ones, then the system-wide ones.
+func AlarmMetrics() []string {
+	out := AlarmChannelNames()
+	out = append(out, NamePct, NamePctIL)
+	out = append(out, AlarmPhaseNames()...)
+	return append(out, NameFreq, NameUnbalanceV, NameUnbalanceI)
+}
+
 var channelTable = [NumChannel]Q{
-	RMS:         {Name: "rms", Unit: "V or A", Doc: "RMS value, DC included", Agg: Derived, Out: JSON | CSV | Store, Alarm: true, Since: 1},
+	RMS:         {Name: NameRMS, Unit: "V or A", Doc: "RMS value, DC included", Agg: Derived, Out: JSON | CSV | Store, Alarm: true, Since: 1},
 	DC:          {Name: "dc", Unit: "V or A", Doc: "mean value", Agg: Derived, Out: JSON | CSV | Store, Since: 1},
-	THD:         {Name: "thd_pct", Unit: "%", Doc: "THD-F, everything but DC and the fundamental", Agg: Derived, Out: JSON | CSV | Store, Alarm: true, Since: 1},
-	THDH50:      {Name: "thd_h50_pct", Unit: "%", Doc: "THD over orders 2..50", Agg: Derived, Out: JSON | CSV | Store, Need: AllOrders, Alarm: true, Since: 1},
-	TDD:         {Name: "tdd_pct", Unit: "% of IL", Doc: "TDD, everything but DC and the fundamental", Agg: Derived, Out: JSON | CSV | Store, Need: Current | IL, Alarm: true, Since: 1},
-	TDDH50:      {Name: "tdd_h50_pct", Unit: "% of IL", Doc: "TDD over orders 2..50", Agg: Derived, Out: JSON | CSV | Store, Need: AllOrders | Current | IL, Alarm: true, Since: 1},
-	CrestFactor: {Name: "crest_factor", Unit: "ratio", Doc: "peak |x| over RMS in the window; intervals keep the largest", Agg: Max, Out: JSON | CSV | Wide | Store, Alarm: true, Since: 4, Short: "CF"},
+	THD:         {Name: NameTHD, Unit: "%", Doc: "THD-F, everything but DC and the fundamental", Agg: Derived, Out: JSON | CSV | Store, Alarm: true, Since: 1},
+	THDH50:      {Name: NameTHDH50, Unit: "%", Doc: "THD over orders 2..50", Agg: Derived, Out: JSON | CSV | Store, Need: AllOrders, Alarm: true, Since: 1},
+	TDD:         {Name: NameTDD, Unit: "% of IL", Doc: "TDD, everything but DC and the fundamental", Agg: Derived, Out: JSON | CSV | Store, Need: Current | IL, Alarm: true, Since: 1},
+	TDDH50:      {Name: NameTDDH50, Unit: "% of IL", Doc: "TDD over orders 2..50", Agg: Derived, Out: JSON | CSV | Store, Need: AllOrders | Current | IL, Alarm: true, Since: 1},
+	CrestFactor: {Name: NameCrestFactor, Unit: "ratio", Doc: "peak |x| over RMS in the window; intervals keep the largest", Agg: Max, Out: JSON | CSV | Wide | Store, Alarm: true, Since: 4, Short: "CF"},
 }
 
 var phaseTable = [NumPhase]Q{
@@ -116,8 +146,8 @@ var phaseTable = [NumPhase]Q{
 	DI:  {Name: "di_var", Unit: "var", Doc: "current distortion power V1·IH", Agg: Derived, Out: JSON | CSV | Store, Since: 1},
 	DV:  {Name: "dv_var", Unit: "var", Doc: "voltage distortion power VH·I1", Agg: Derived, Out: JSON | CSV | Store, Since: 1},
 	SH:  {Name: "sh_va", Unit: "VA", Doc: "harmonic apparent power VH·IH", Agg: Derived, Out: JSON | CSV | Store, Since: 1},
-	PF:  {Name: "pf", Unit: "ratio", Doc: "power factor P/S with the sign of P", Agg: Derived, Out: JSON | CSV | Store, Alarm: true, Since: 1},
-	DPF: {Name: "dpf", Unit: "ratio", Doc: "displacement power factor with the sign of P1", Agg: Derived, Out: JSON | CSV | Store, Alarm: true, Since: 1},
+	PF:  {Name: NamePF, Unit: "ratio", Doc: "power factor P/S with the sign of P", Agg: Derived, Out: JSON | CSV | Store, Alarm: true, Since: 1},
+	DPF: {Name: NameDPF, Unit: "ratio", Doc: "displacement power factor with the sign of P1", Agg: Derived, Out: JSON | CSV | Store, Alarm: true, Since: 1},
 }
 
 // Channels returns the per-channel table, indexed by ID (a copy).

@@ -74,7 +74,11 @@ func FormatNames() []string { return []string{"jsonl", "csv", "table", "wide"} }
 
 // timeLayout is RFC 3339 in UTC with exactly six fractional digits (DESIGN
 // "Time"). The trailing Z is a literal: the time is converted to UTC first.
-const timeLayout = "2006-01-02T15:04:05.000000Z"
+const timeLayout = TimeLayout
+
+// TimeLayout is the record schema's time format (DESIGN "Time"): RFC 3339
+// in UTC with microseconds. Every JSON time gridloupe writes uses it.
+const TimeLayout = "2006-01-02T15:04:05.000000Z"
 
 // tableTimeLayout is the table's start column, to the millisecond.
 const tableTimeLayout = "2006-01-02T15:04:05.000Z"

@@ -30,6 +30,9 @@ type ExportRequest struct {
 	// of the site (the store alone does not know them).
 	Title     string            `json:"title,omitempty"`
 	Reference *encode.Reference `json:"reference,omitempty"`
+	// What is "" for aggregates, WhatEvents or WhatWaveform (with ID).
+	What string `json:"what,omitempty"`
+	ID   string `json:"id,omitempty"`
 }
 
 // exportFormat parses req.Format ("" is jsonl).
@@ -142,6 +145,17 @@ func serveOne(c net.Conn, db *store.DB, log *slog.Logger) {
 	var req ExportRequest
 	if err := json.Unmarshal([]byte(line), &req); err != nil {
 		fmt.Fprintf(c, "error: bad request: %v\n", err)
+		return
+	}
+	if req.What == WhatEvents || req.What == WhatWaveform {
+		bw := bufio.NewWriterSize(c, 64<<10)
+		bw.WriteString("ok\n")
+		if err := writeWhat(bw, db, req); err != nil {
+			fmt.Fprintf(bw, "%s%s\n", trailerErr, strings.ReplaceAll(err.Error(), "\n", " "))
+		} else {
+			bw.WriteString(trailerOK + "\n")
+		}
+		bw.Flush()
 		return
 	}
 	// validate before answering ok, so a bad request gets a clear error

@@ -12,6 +12,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/alarm"
+	"github.com/gridloupe/gridloupe/metrics/events"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream"
 	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
@@ -56,6 +57,9 @@ type Config struct {
 	// They must not keep the record.
 	OnRecord     func(r *metrics.Record, active []string)
 	OnTransition func(t alarm.Transition)
+	// OnEvent is called from the store goroutine with each stored voltage
+	// event (Pipeline.Events turns detection on). nil = none.
+	OnEvent func(r events.Record)
 	// OnWindow is called on the measurement goroutine with each window
 	// record (energy integration); it must not block, allocate or keep
 	// the record. nil = none.
@@ -122,6 +126,8 @@ type Gateway struct {
 	names []string
 
 	windows, aggregates, stored, dropped, transitions, queued, storeErrs atomic.Uint64
+	eventsLost                                                           atomic.Uint64
+	evq                                                                  chan eventItem // nil without event detection
 
 	// owned by the store goroutine
 	batch    []*metrics.Record
@@ -200,7 +206,12 @@ func (g *Gateway) Stats() Stats {
 // ErrSourceEnded (wrapping the reason) when a live or simulated source
 // stops, and the pipeline's error otherwise.
 func (g *Gateway) Run(ctx context.Context) error {
-	p, err := stream.New(g.cfg.Pipeline)
+	pc := g.cfg.Pipeline
+	if pc.Events != nil {
+		es := newEventSink(&pc, g.setup, g.cfg.Live, &g.eventsLost)
+		pc.EventSink, g.evq = es, es.q
+	}
+	p, err := stream.New(pc)
 	if err != nil {
 		return err
 	}
@@ -235,6 +246,9 @@ func (g *Gateway) Run(ctx context.Context) error {
 	if err := iv.Flush(send); err != nil && runErr == nil {
 		runErr = err
 	}
+	if g.evq != nil {
+		close(g.evq)
+	}
 	close(q)
 	wg.Wait()
 	switch {
@@ -256,15 +270,27 @@ func (g *Gateway) sink(q <-chan *metrics.Record) {
 	tick := time.NewTicker(g.cfg.CommitEvery)
 	defer tick.Stop()
 	lastPrune := g.now()
+	evq := g.evq
 	for {
 		select {
 		case r, ok := <-q:
 			if !ok {
+				if evq != nil {
+					for it := range evq {
+						g.storeEvent(it)
+					}
+				}
 				g.close2h(true)
 				g.commit()
 				return
 			}
 			g.handle(r)
+		case it, ok := <-evq:
+			if !ok {
+				evq = nil // closed: the pipeline is done, q closes next
+				continue
+			}
+			g.storeEvent(it)
 		case <-tick.C:
 			g.commit()
 			if g.cfg.Synced != nil && !g.cfg.Synced() {

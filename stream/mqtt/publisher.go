@@ -16,6 +16,7 @@ import (
 	paho "github.com/eclipse/paho.mqtt.golang"
 
 	"github.com/gridloupe/gridloupe/store"
+	"github.com/gridloupe/gridloupe/stream/encode"
 )
 
 // Outbox is what the publisher needs of the store's outbox; *store.DB
@@ -40,12 +41,11 @@ const (
 const (
 	keepAlive      = 30 * time.Second
 	connectTimeout = 10 * time.Second
-	maxInFlight    = 1024                          // well below MQTT's 65535 packet identifiers
-	offlineWait    = time.Second                   // for the shutdown status ack; keeps Run's return near 1.5 s
-	quiesceMs      = 250                           // paho Disconnect quiesce, milliseconds
-	errLogEvery    = time.Minute                   // repeated publish errors are logged at most this often
-	maxAckRetry    = 4096                          // delivered seqs kept for a retried Ack when the store fails
-	timeLayout     = "2006-01-02T15:04:05.000000Z" // RFC 3339, UTC, microseconds (DESIGN "Time")
+	maxInFlight    = 1024        // well below MQTT's 65535 packet identifiers
+	offlineWait    = time.Second // for the shutdown status ack; keeps Run's return near 1.5 s
+	quiesceMs      = 250         // paho Disconnect quiesce, milliseconds
+	errLogEvery    = time.Minute // repeated publish errors are logged at most this often
+	maxAckRetry    = 4096        // delivered seqs kept for a retried Ack when the store fails
 )
 
 // Config configures a Publisher.
@@ -266,7 +266,7 @@ func (p *Publisher) statusPayload(status, reason string, withTime bool) []byte {
 		}
 	}
 	if withTime {
-		s.Time = p.cfg.Now().UTC().Format(timeLayout)
+		s.Time = p.cfg.Now().UTC().Format(encode.TimeLayout)
 	}
 	b, _ := json.Marshal(s) // strings only: cannot fail (invalid UTF-8 becomes U+FFFD)
 	return b

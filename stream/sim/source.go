@@ -19,8 +19,8 @@ import (
 const BlockLen = 256
 
 // MaxOrder is the highest harmonic order the model generates (and the last
-// index of Truth's per-order arrays).
-const MaxOrder = 50
+// index of Truth's per-order arrays): the highest order measured.
+const MaxOrder = metrics.MaxOrder
 
 // pcgStream is the second PCG word; Config.Seed is the first.
 const pcgStream = 0x67726964 // "grid"

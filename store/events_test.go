@@ -1,0 +1,150 @@
+package store
+
+import (
+	"errors"
+	"math"
+	"testing"
+	"time"
+
+	"github.com/gridloupe/gridloupe/metrics/events"
+)
+
+func testWave(frames int) (*Waveform, func(i, c int) float32) {
+	meta := &Waveform{Start: time.Date(2026, 3, 1, 10, 0, 0, 312_207_000, time.UTC), SampleRate: 10240,
+		Channels:  []WaveChannel{{"va", true}, {"vb", true}, {"ia", false}},
+		DeclaredV: 230, NominalHz: 50, DipPct: 90, SwellPct: 110, IntPct: 5, HystPct: 2}
+	at := func(i, c int) float32 {
+		if c == 1 && i == 7 {
+			return float32(math.NaN())
+		}
+		a := []float64{325.27, 180.1, 56.6}[c]
+		return float32(a * math.Sin(2*math.Pi*50.02*float64(i)/10240+float64(c)))
+	}
+	return meta, at
+}
+
+// TestWaveformRoundTrip: int16 counts of a per-channel scale keep every
+// sample within half a count (peak/65534: closed form of rounding), NaN
+// survives as missing, and the size is 2 bytes per sample plus the header.
+func TestWaveformRoundTrip(t *testing.T) {
+	t.Parallel()
+	const frames = 4099
+	meta, at := testWave(frames)
+	b := EncodeWaveform(meta, frames, at)
+	header := 1 + 8 + 8 + 4 + 1 + 6*4 + (1+2+1+4)*3
+	if want := header + 2*frames*3; len(b) != want {
+		t.Fatalf("%d bytes, want %d (stated budget: 2 bytes per sample plus header)", len(b), want)
+	}
+	w, err := DecodeWaveform(b)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !w.Start.Equal(meta.Start) || w.SampleRate != 10240 || len(w.Channels) != 3 || w.Channels[2] != (WaveChannel{"ia", false}) || w.DipPct != 90 {
+		t.Fatalf("header %+v", w)
+	}
+	for c := range 3 {
+		peak := 0.0
+		for i := range frames {
+			if v := float64(at(i, c)); v == v {
+				peak = max(peak, math.Abs(v))
+			}
+		}
+		tol := peak/32767/2 + peak*1e-6 // half a count, plus float32 rounding of scale and output (2^-23 each, of the peak)
+		for i := range frames {
+			want, got := float64(at(i, c)), float64(w.Samples[c][i])
+			if math.IsNaN(want) != math.IsNaN(got) || (!math.IsNaN(want) && math.Abs(got-want) > tol) {
+				t.Fatalf("channel %d frame %d: %v, want %v ± %v", c, i, got, want, tol)
+			}
+		}
+	}
+}
+
+func TestEventsStored(t *testing.T) {
+	t.Parallel()
+	db := openTest(t, Options{})
+	base := time.Date(2026, 3, 1, 10, 0, 0, 0, time.UTC)
+	meta, at := testWave(2000)
+	var ids []string
+	for i := range 3 {
+		start := base.Add(time.Duration(i) * time.Minute)
+		r := events.Record{Kind: events.Dip, ID: events.ID(events.Dip, start), Start: start, DurationS: 0.12,
+			Channels: []string{"va"}, Worst: "va", ExtremeV: 138.3, ExtremePct: 60.13, WaveformSamples: 2000, WaveformStart: start}
+		msg := &Message{Class: ClassEvent, Topic: "gridloupe/s/g/event", Payload: []byte(`{"event":"dip"}`), QoS: 1}
+		seq, err := db.PutEvent(r, EncodeWaveform(meta, 2000, at), msg)
+		if err != nil || seq == 0 {
+			t.Fatalf("PutEvent: %d %v", seq, err)
+		}
+		ids = append(ids, r.ID)
+	}
+	var got []events.Record
+	if err := db.Events(base.Add(30*time.Second), time.Time{}, func(r events.Record) error { got = append(got, r); return nil }); err != nil {
+		t.Fatal(err)
+	}
+	if len(got) != 2 || got[0].ID != ids[1] || got[0].Seq == 0 || got[0].ExtremeV != 138.3 || got[1].Kind != events.Dip {
+		t.Fatalf("events from 10:00:30: %+v", got)
+	}
+	msgs, err := db.Pending(0, 10)
+	if err != nil || len(msgs) != 3 || msgs[0].Class != ClassEvent {
+		t.Fatalf("outbox %+v %v, want the three event messages", msgs, err)
+	}
+	rec, wave, err := db.Event(ids[2])
+	if err != nil || rec.ID != ids[2] {
+		t.Fatal(err)
+	}
+	if w, err := DecodeWaveform(wave); err != nil || len(w.Samples[0]) != 2000 {
+		t.Fatalf("waveform: %v", err)
+	}
+	if _, _, err := db.Event("dip-nope"); !errors.Is(err, ErrNoEvent) {
+		t.Fatalf("unknown id: %v, want ErrNoEvent", err)
+	}
+	checkBolt(t, db)
+}
+
+// TestWaveformCap: waveforms beyond a quarter of the usable file are
+// dropped oldest first and counted as event_waveform losses; the event
+// records stay.
+func TestWaveformCap(t *testing.T) {
+	t.Parallel()
+	db := openTest(t, Options{MaxSizeMB: 4})
+	meta, at := testWave(40960) // 4 s of 3 channels: 245,760 bytes each
+	wave := EncodeWaveform(meta, 40960, at)
+	base := time.Date(2026, 3, 1, 10, 0, 0, 0, time.UTC)
+	for i := range 12 {
+		start := base.Add(time.Duration(i) * time.Second)
+		r := events.Record{Kind: events.Swell, ID: events.ID(events.Swell, start), Start: start}
+		if _, err := db.PutEvent(r, wave, nil); err != nil {
+			t.Fatal(err)
+		}
+	}
+	lost := db.Losses()[ClassEventWaveform]
+	if lost == 0 {
+		t.Fatalf("no waveform dropped under a 4 MiB cap")
+	}
+	n := 0
+	_ = db.Events(time.Time{}, time.Time{}, func(events.Record) error { n++; return nil })
+	if n != 12 {
+		t.Fatalf("%d events kept, want all 12", n)
+	}
+	if _, _, err := db.Event(events.ID(events.Swell, base)); !errors.Is(err, ErrNoWaveform) {
+		t.Fatalf("oldest event: %v, want ErrNoWaveform", err)
+	}
+	if _, _, err := db.Event(events.ID(events.Swell, base.Add(11*time.Second))); err != nil {
+		t.Fatalf("newest event: %v", err)
+	}
+	if kept := 12 - int(lost); int64(kept*len(wave)) > db.usable/waveShare {
+		t.Fatalf("%d waveforms kept, over the budget", kept)
+	}
+}
+
+func FuzzDecodeWaveform(f *testing.F) {
+	meta, at := testWave(16)
+	f.Add(EncodeWaveform(meta, 16, at))
+	f.Add([]byte{1})
+	f.Fuzz(func(t *testing.T, b []byte) {
+		w, err := DecodeWaveform(b)
+		if err == nil && len(w.Samples) != len(w.Channels) {
+			t.Fatal("channels and samples disagree")
+		}
+		_, _ = decodeEvent(b)
+	})
+}
