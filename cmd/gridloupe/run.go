@@ -60,7 +60,9 @@ Samples a live source loses are flagged gap, never stitched.
 Exit status: 0 after a signal, 0 when a csv or wav source reaches its end
 (a pcm file or a COMTRADE recording too, and after --stop-after), 1 when the simulator stops
 otherwise, a pipe or standard input ends, a source fails or the store cannot
-be opened, 2 for config errors.
+be opened, 2 for config errors. A damaged store file is renamed to
+<path>.damaged-<UTC time> and a fresh one started (store.on_damage: fail
+exits 1 instead).
 
 Flags:
 `
