@@ -387,8 +387,9 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		}
 	}
 	if runErr != nil {
+		// Returned, not also logged: main prints it once (STYLE.md §4).
 		if errors.Is(runErr, gateway.ErrSourceEnded) || errors.Is(runErr, input.ErrData) || errors.Is(runErr, stream.ErrSource) {
-			log.Error("source stopped", "err", runErr)
+			return fmt.Errorf("source stopped: %w", runErr)
 		}
 		return runErr
 	}
