@@ -16,9 +16,18 @@ import (
 	"github.com/gridloupe/gridloupe/stream/live"
 )
 
-// energyCircuits are the circuits energy is counted for: the whole
-// metered point until circuits are configured.
-func energyCircuits(*config.Config) []string { return []string{energy.DefaultCircuit} }
+// energyCircuits are the circuits energy is counted for: the configured
+// circuits in config order, else the whole metered point.
+func energyCircuits(cfg *config.Config) []string {
+	if len(cfg.Circuits) == 0 {
+		return []string{energy.DefaultCircuit}
+	}
+	names := make([]string, len(cfg.Circuits))
+	for i, c := range cfg.Circuits {
+		names[i] = c.Name
+	}
+	return names
+}
 
 // energyKeeper integrates energy per window (on the measurement goroutine)
 // and computes demand, persists both and publishes them (on the store

@@ -59,7 +59,7 @@ func (c *Counters) Add(p, q, seconds float64) {
 }
 
 // Circuit names a set of counters. DefaultCircuit is the whole metered
-// point (the record's totals) until circuits are configured.
+// point (the record's totals) when no circuits are configured.
 const DefaultCircuit = "main"
 
 // Reading is one circuit's counters at a moment.
@@ -95,12 +95,22 @@ func NewMeter(circuits []string, restored []Reading) *Meter {
 	return m
 }
 
-// Window integrates one measurement window: today every circuit is the
-// record's total (one circuit per meter).
+// Window integrates one measurement window. With circuits configured each
+// circuit's counters take that circuit's own totals (r.Circuits, matched by
+// name); without, the one circuit takes the record's total.
 func (m *Meter) Window(r *metrics.Record) {
 	m.mu.Lock()
-	for i := range m.c {
-		m.c[i].Add(r.Total.P, r.Total.Q1, r.DurationS)
+	for i, name := range m.circuits {
+		if len(r.Circuits) == 0 {
+			m.c[i].Add(r.Total.P, r.Total.Q1, r.DurationS)
+			continue
+		}
+		for _, cv := range r.Circuits {
+			if cv.Name == name && cv.Rec != nil {
+				m.c[i].Add(cv.Rec.Total.P, cv.Rec.Total.Q1, r.DurationS)
+				break
+			}
+		}
 	}
 	m.mu.Unlock()
 }

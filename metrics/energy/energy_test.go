@@ -67,6 +67,46 @@ func TestMeterPerWindow(t *testing.T) {
 	}
 }
 
+func TestMeterPerCircuit(t *testing.T) {
+	// Two drives on one bus, one drawing and one feeding back: each
+	// circuit's counters take its own totals, a restored circuit resumes,
+	// and a circuit missing from a record adds nothing.
+	m := NewMeter([]string{"pump1", "pump2"}, []Reading{{Circuit: "pump2", Counters: Counters{ExportWh: 50}}})
+	const dur = 12 / 59.95 // 12 cycles at 59.95 Hz
+	circ := func(p, q float64) *metrics.Record {
+		return &metrics.Record{Total: metrics.TotalValues{P: p, Q1: q}}
+	}
+	r := &metrics.Record{DurationS: dur, Total: metrics.TotalValues{P: math.NaN(), Q1: math.NaN()}}
+	for range 40 {
+		r.Circuits = []metrics.CircuitValues{{Name: "pump1", Rec: circ(30000, 9000)}, {Name: "pump2", Rec: circ(-7500, -1200)}}
+		m.Window(r)
+	}
+	r.Circuits = []metrics.CircuitValues{{Name: "pump1", Rec: circ(30000, 9000)}}
+	m.Window(r)
+	got := m.Readings()
+	cases := []struct {
+		name     string
+		got      Counters
+		imp, exp float64
+		q        [4]float64
+		src      string
+	}{
+		{"pump1", got[0].Counters, 41 * 30000 * dur / 3600, 0, [4]float64{41 * 9000 * dur / 3600, 0, 0, 0},
+			"closed form: E = Σ P·Δt over 41 windows; P ≥ 0, Q ≥ 0 is quadrant 1"},
+		{"pump2", got[1].Counters, 0, 50 + 40*7500*dur/3600, [4]float64{0, 0, 40 * 1200 * dur / 3600, 0},
+			"closed form: restored 50 Wh plus 40 windows fed back; P < 0, Q < 0 is quadrant 3"},
+	}
+	for i, tc := range cases {
+		ok := got[i].Circuit == tc.name && near(tc.got.ImportWh, tc.imp) && near(tc.got.ExportWh, tc.exp)
+		for k := range tc.q {
+			ok = ok && near(tc.got.VarhQ[k], tc.q[k])
+		}
+		if !ok {
+			t.Errorf("%s: %+v, want import %v export %v varh %v (src: %s)", tc.name, got[i], tc.imp, tc.exp, tc.q, tc.src)
+		}
+	}
+}
+
 func setup(t testing.TB) *metrics.Setup {
 	t.Helper()
 	s, err := metrics.NewSetup(metrics.Setup{
