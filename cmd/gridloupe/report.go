@@ -130,8 +130,8 @@ func reportData(db *store.DB, cfg *config.Config, path string, from, now time.Ti
 		return nil, fmt.Errorf("report: %w", err)
 	}
 	d := &report.Data{Site: cfg.Site, Gateway: cfg.Gateway, Generated: now, Store: path, Cautions: evalCautions,
-		PCC: pccCaution, Result: res,
-		EventsNote: "this build does not record voltage events (dips, swells, interruptions) in the store"}
+		PCC: pccCaution, Result: res}
+	d.Events, d.EventsNote = reportEvents(db, res.Start, res.End)
 	shown := evalShown(res.Lines, false)
 	hidden := 0
 	for i, l := range res.Lines {

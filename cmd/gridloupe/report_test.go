@@ -222,7 +222,7 @@ func TestReport(t *testing.T) {
 	if want := fmt.Sprintf("moved %.2f points", reportTDD(60, 2)-reportTDD(60, 0)); !strings.Contains(html, want) {
 		t.Errorf("ageing trend: report lacks %q", want)
 	}
-	if !strings.Contains(html, "None listed: this build does not record voltage events") {
+	if !strings.Contains(html, "None listed: no voltage dip, swell or interruption is stored in this week") {
 		t.Error("an empty event list without its reason")
 	}
 	if !strings.Contains(html, "4200.0 / 0.0 kWh") || !strings.Contains(html, "131.0 / 131.5 / 130.2 A") {
