@@ -8,7 +8,7 @@ import (
 
 // Circuits follow the record's bus part (only for layouts with circuits,
 // so records without them keep their bytes): per circuit, the phase count
-// and phases (letter + 11 float32), the totals (11 float32) when the
+// and phases (letter + the stored per-phase quantities, float32), the totals (11 float32) when the
 // circuit has them, a presence byte for the current sequence, then the
 // sequence (3 float32 per order) and the current unbalance (float32).
 
@@ -24,14 +24,7 @@ func appendCircuits(b []byte, r *metrics.Record, s *metrics.Setup) ([]byte, erro
 		if cr == nil || len(cr.Phases) != len(c.Sub.Pairs) || (len(cr.SeqI) != 0 && len(cr.SeqI) != len(s.Orders)) {
 			return b, fmt.Errorf("circuit %q: values do not match its layout: %w", c.Name, ErrBadLayout)
 		}
-		b = append(b, byte(len(cr.Phases)))
-		for i := range cr.Phases {
-			p := &cr.Phases[i]
-			b = append(b, p.Phase)
-			for _, v := range [...]float64{p.P, p.P1, p.Q1, p.S, p.S1, p.SN, p.DI, p.DV, p.SH, p.PF, p.DPF} {
-				b = appendF32(b, v)
-			}
-		}
+		b = appendPhases(b, cr.Phases)
 		if c.Sub.HasTotal() {
 			t := &cr.Total
 			for _, v := range [...]float64{t.P, t.Q1, t.S, t.Se, t.Se1, t.Ve, t.Ie, t.PF, t.DPF, t.P1Pos, t.Q1Pos} {
@@ -53,7 +46,7 @@ func appendCircuits(b []byte, r *metrics.Record, s *metrics.Setup) ([]byte, erro
 	return b, nil
 }
 
-func readCircuits(rd *reader, r *metrics.Record, s *metrics.Setup) error {
+func readCircuits(rd *reader, r *metrics.Record, s *metrics.Setup, ver byte) error {
 	if len(s.Circuits) == 0 {
 		return nil
 	}
@@ -63,18 +56,9 @@ func readCircuits(rd *reader, r *metrics.Record, s *metrics.Setup) error {
 		for i := range cr.Channels {
 			copyChannel(&cr.Channels[i], &r.Channels[c.Map[i]])
 		}
-		np := int(rd.u8())
-		if np > 3 {
-			return fmt.Errorf("circuit %q: %d phases: %w", c.Name, np, ErrCorrupt)
-		}
-		if rd.err == nil && np > 0 {
-			cr.Phases = make([]metrics.PhaseValues, np)
-		}
-		for i := range cr.Phases {
-			p := &cr.Phases[i]
-			p.Phase = rd.u8()
-			p.P, p.P1, p.Q1, p.S, p.S1, p.SN = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
-			p.DI, p.DV, p.SH, p.PF, p.DPF = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
+		var err error
+		if cr.Phases, err = readPhases(rd, ver); err != nil {
+			return fmt.Errorf("circuit %q: %w", c.Name, err)
 		}
 		if c.Sub.HasTotal() {
 			t := &cr.Total
@@ -104,7 +88,8 @@ func copyChannel(dst, src *metrics.ChannelValues) {
 
 // circuitBytes is one circuit's part of a record.
 func circuitBytes(sub *metrics.Setup) int {
-	n := 1 + len(sub.Pairs)*(1+11*4) + 1 + 4
+	_, perPh := storedScalars()
+	n := 1 + len(sub.Pairs)*(1+perPh*4) + 1 + 4
 	if sub.HasTotal() {
 		n += 11 * 4
 	}

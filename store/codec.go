@@ -136,16 +136,7 @@ func encodeRec(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup, slim
 			b = appendPhase(b, c.H[j].PhaseDeg)
 		}
 	}
-	b = append(b, byte(len(r.Phases)))
-	for i := range r.Phases {
-		p := &r.Phases[i]
-		b = append(b, p.Phase)
-		for id := range quantity.NumPhase {
-			if quantity.Phase(id).Out&quantity.Store != 0 {
-				b = appendF32(b, *p.Field(id))
-			}
-		}
-	}
+	b = appendPhases(b, r.Phases)
 	if len(r.Phases) > 0 || deltaTotal {
 		t := &r.Total
 		for _, v := range [...]float64{t.P, t.Q1, t.S, t.Se, t.Se1, t.Ve, t.Ie, t.PF, t.DPF, t.P1Pos, t.Q1Pos} {
@@ -294,22 +285,11 @@ func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Rec
 		}
 		fillPct(c, f, s.Channels[i].Kind, s.IL(i))
 	}
-	np := int(rd.u8())
-	if np > 3 {
-		return nil, fmt.Errorf("%d phases: %w", np, ErrCorrupt)
+	var err error
+	if r.Phases, err = readPhases(rd, b[0]); err != nil {
+		return nil, err
 	}
-	if rd.err == nil && np > 0 {
-		r.Phases = make([]metrics.PhaseValues, np)
-	}
-	for i := range r.Phases {
-		p := &r.Phases[i]
-		p.Phase = rd.u8()
-		for id := range quantity.NumPhase {
-			if q := quantity.Phase(id); q.Out&quantity.Store != 0 {
-				*p.Field(id) = storedF32(rd, q, b[0])
-			}
-		}
-	}
+	np := len(r.Phases)
 	if np > 0 || pres&hasTotal != 0 {
 		t := &r.Total
 		t.P, t.Q1, t.S, t.Se, t.Se1 = rd.f32(), rd.f32(), rd.f32(), rd.f32(), rd.f32()
@@ -335,7 +315,7 @@ func decodeRecord(b []byte, iv metrics.Interval, s *metrics.Setup) (*metrics.Rec
 	}
 	r.UnbV = rd.f32()
 	r.UnbI = rd.f32()
-	if err := readCircuits(rd, r, s); err != nil {
+	if err := readCircuits(rd, r, s, b[0]); err != nil {
 		return nil, err
 	}
 	if rd.err != nil {
@@ -366,6 +346,44 @@ func nan() float64 { return math.NaN() }
 
 // storedF32 reads quantity q from a record of the given version: stored
 // since q.Since, null in older records.
+// appendPhases appends the phase count and each phase's letter and stored
+// quantities (the bus's, or one circuit's).
+func appendPhases(b []byte, ps []metrics.PhaseValues) []byte {
+	b = append(b, byte(len(ps)))
+	for i := range ps {
+		p := &ps[i]
+		b = append(b, p.Phase)
+		for id := range quantity.NumPhase {
+			if quantity.Phase(id).Out&quantity.Store != 0 {
+				b = appendF32(b, *p.Field(id))
+			}
+		}
+	}
+	return b
+}
+
+// readPhases reads what appendPhases wrote in record version ver.
+func readPhases(rd *reader, ver byte) ([]metrics.PhaseValues, error) {
+	np := int(rd.u8())
+	if np > 3 {
+		return nil, fmt.Errorf("%d phases: %w", np, ErrCorrupt)
+	}
+	if rd.err != nil || np == 0 {
+		return nil, nil
+	}
+	ps := make([]metrics.PhaseValues, np)
+	for i := range ps {
+		p := &ps[i]
+		p.Phase = rd.u8()
+		for id := range quantity.NumPhase {
+			if q := quantity.Phase(id); q.Out&quantity.Store != 0 {
+				*p.Field(id) = storedF32(rd, q, ver)
+			}
+		}
+	}
+	return ps, nil
+}
+
 func storedF32(rd *reader, q quantity.Q, version byte) float64 {
 	if version < q.Since {
 		return nan()

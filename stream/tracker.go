@@ -129,3 +129,13 @@ func (t *tracker) lost() {
 	t.locked = false
 	t.zc.resetCounts()
 }
+
+// CycleSamples returns the length of one cycle of the tracked frequency in
+// samples (fractional): the frequency the next window is cut for, nominal
+// while there is no lock. For per-cycle work on the per-sample path such as
+// Urms(1/2).
+func (p *Pipeline) CycleSamples() float64 { return p.trk.CycleSamples() }
+
+// Locked reports whether the last window finished was synchronized (no
+// no_lock flag).
+func (p *Pipeline) Locked() bool { return p.trk.Locked() }

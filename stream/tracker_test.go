@@ -284,3 +284,43 @@ func TestGentleRampSynchronized(t *testing.T) {
 	}
 	t.Logf("worst window frequency error on the ramp %.2g Hz", worst)
 }
+
+// TestCycleAndLockState: the cycle length and lock state the pipeline
+// exposes follow a steady 49.5 Hz supply (closed form: fs/f samples per
+// cycle) and drop to nominal and false after the signal is lost.
+func TestCycleAndLockState(t *testing.T) {
+	const fs = 10240.0
+	gain := func(t float64) float64 {
+		if t >= 1.5 {
+			return 0.02 // under lock_min_pct
+		}
+		return 1
+	}
+	v := synthChan{tones: []tone{{1, 230, 0}}, noise: 0.1, gain: gain}
+	p, err := New(Config{Setup: oneChannel(t), SampleRate: fs, NominalHz: 50})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var at1 struct {
+		cyc  float64
+		lock bool
+	}
+	err = p.Run(t.Context(), newSynth(fs, constFreq(49.5), 2.2, v), func(r *metrics.Record) error {
+		if st := r.Start.Sub(time.Unix(0, 0)).Seconds(); st > 1 && st < 1.2 {
+			at1.cyc, at1.lock = p.CycleSamples(), p.Locked()
+		}
+		return nil
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// cycTol: a window's frequency within the 2 mHz bound is fs/f within
+	// 8.4e-3 samples (closed form fs·Δf/f²)
+	const cycTol = 0.01
+	if want := fs / 49.5; !at1.lock || math.Abs(at1.cyc-want) > cycTol {
+		t.Errorf("locked at 49.5 Hz: cycle %v samples, lock %v; want %v, true", at1.cyc, at1.lock, want)
+	}
+	if p.Locked() || p.CycleSamples() != fs/50 {
+		t.Errorf("after the loss: cycle %v, lock %v; want %v (nominal), false", p.CycleSamples(), p.Locked(), fs/50)
+	}
+}

@@ -72,34 +72,9 @@ func cmdEvaluate(args []string, stdout, stderr io.Writer) error {
 	if *format != "table" && *format != "jsonl" {
 		return usagef("evaluate: --format %q: allowed are table, jsonl", *format)
 	}
-	var from time.Time
-	if *fromStr != "" {
-		t, err := time.Parse(time.RFC3339Nano, *fromStr)
-		if err != nil {
-			return usagef("evaluate: --from %q is not RFC 3339 (e.g. 2026-03-02T00:00:00Z)", *fromStr)
-		}
-		from = t.UTC()
-	}
-	if *timeout <= 0 {
-		return usagef("evaluate: --timeout %v: must be positive", *timeout)
-	}
-	cfg, err := config.Load(*cfgPath)
+	cfg, db, path, from, err := openWeek("evaluate", *cfgPath, *dbPath, *fromStr, *timeout)
 	if err != nil {
-		return &usageError{err}
-	}
-	path := *dbPath
-	if path == "" {
-		path = cfg.Store.Path
-	}
-	if path == "" {
-		return usagef("evaluate: no --store given and %s has no store.path", cfg.Path)
-	}
-	db, err := store.OpenReadOnly(path, *timeout)
-	if errors.Is(err, store.ErrLocked) {
-		return fmt.Errorf("evaluate: %w; %s", err, evalHeld)
-	}
-	if err != nil {
-		return fmt.Errorf("evaluate: %w", err)
+		return err
 	}
 	defer db.Close()
 	res, err := evaluateStore(db, cfg, from)

@@ -370,8 +370,8 @@ func TestEnergyAndDiagnosticsOverMQTT(t *testing.T) {
 	cfgText, _ := os.ReadFile(cfgPath)
 	cfgPath = writeFile(t, dir, "mqtt.yaml", strings.Replace(string(cfgText), "speed: 60", "speed: 0", 1)+
 		fmt.Sprintf("mqtt: {broker: %q}\n", mosq.URL()))
-	p := startDaemon(t, "run", "--config", cfgPath, "--stop-after", "21m")
-	msgs := sub.WaitFor(t, "energy and diagnostics", 90*time.Second, func(m []mqtttest.Message) bool {
+	p := startDaemon(t, "run", "--config", cfgPath, "--stop-after", "11m")
+	msgs := sub.WaitFor(t, "energy and diagnostics", 180*time.Second, func(m []mqtttest.Message) bool {
 		return count(m, base+"/energy", nil) >= 1 && count(m, base+"/diagnostics", nil) >= 1
 	})
 	for _, m := range msgs {
@@ -406,7 +406,7 @@ func TestEnergyAndDiagnosticsOverMQTT(t *testing.T) {
 			}
 		}
 	}
-	if code, _ := p.wait(t, 60*time.Second); code != 0 {
+	if code, _ := p.wait(t, 180*time.Second); code != 0 {
 		t.Errorf("exit %d; stderr:\n%s", code, p.stderr)
 	}
 }

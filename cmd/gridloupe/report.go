@@ -58,34 +58,9 @@ func cmdReport(args []string, stdout io.Writer) error {
 	if *cfgPath == "" || *outPath == "" || fs.NArg() != 0 {
 		return usagef("report: --config FILE and -o FILE.html are required; it takes no arguments")
 	}
-	var from time.Time
-	if *fromStr != "" {
-		t, err := time.Parse(time.RFC3339Nano, *fromStr)
-		if err != nil {
-			return usagef("report: --from %q is not RFC 3339 (e.g. 2026-03-02T00:00:00Z)", *fromStr)
-		}
-		from = t.UTC()
-	}
-	if *timeout <= 0 {
-		return usagef("report: --timeout %v: must be positive", *timeout)
-	}
-	cfg, err := config.Load(*cfgPath)
+	cfg, db, path, from, err := openWeek("report", *cfgPath, *dbPath, *fromStr, *timeout)
 	if err != nil {
-		return &usageError{err}
-	}
-	path := *dbPath
-	if path == "" {
-		path = cfg.Store.Path
-	}
-	if path == "" {
-		return usagef("report: no --store given and %s has no store.path", cfg.Path)
-	}
-	db, err := store.OpenReadOnly(path, *timeout)
-	if errors.Is(err, store.ErrLocked) {
-		return fmt.Errorf("report: %w; %s", err, evalHeld)
-	}
-	if err != nil {
-		return fmt.Errorf("report: %w", err)
+		return err
 	}
 	defer db.Close()
 	d, err := reportData(db, cfg, path, from, time.Now())

@@ -177,109 +177,19 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 			"needed_mb", need>>20, "max_size_mb", cfg.Store.MaxSizeMB)
 	}
 
-	rules, err := alarmRules(cfg, setup)
+	ev, err := loadAlarms(cfg, setup, db, log)
 	if err != nil {
 		return err
 	}
-	var ev *alarm.Evaluator
-	if len(rules) > 0 {
-		saved, err := db.AlarmStates()
-		if err != nil {
-			return fmt.Errorf("store: alarm states: %w", err)
-		}
-		ev, err = alarm.New(rules, setup, gateway.FromStore(saved))
-		if err != nil {
-			return usagef("%s: alarms: %v", cfg.Path, err)
-		}
-		if act := ev.Active(); len(act) > 0 {
-			log.Info("alarms still raised from before the restart", "alarms", act)
-		}
-	}
 
 	// Source.
-	var rate float64
-	var closer io.Closer
-	endIsError := true
-	liveSrc := false      // a live source never blocks: full sink queues drop (and flag gap)
-	var srcBase time.Time // a recording's own start time (COMTRADE); zero = the wall clock
-	switch cfg.Source.Kind {
-	case config.SourceSim:
-		rate = cfg.SampleRateHz
-		if rate == 0 {
-			rate = sim.DefaultSampleRate
-		}
-		sc := simConfig(cfg, rate)
-		sc.Speed = cfg.Source.Speed
-		sc.Start = simStart(db, now().UTC())
-		sc.Filter = sim.FilterProfile{Period: 6 * time.Hour, Worst: 0.3}
-		if o.simTweak != nil {
-			o.simTweak(&sc)
-		}
-		if o.stopAfter > 0 {
-			sc.Limit = uint64(o.stopAfter.Seconds() * rate)
-			endIsError = false
-		}
-		s, err := sim.New(sc)
-		if err != nil {
-			return usagef("%s: source: %v", cfg.Path, err)
-		}
-		d.source, d.sim = s, s
-	case config.SourceCSV, config.SourceWAV:
-		f, err := os.Open(cfg.Source.Path)
-		if err != nil {
-			return fmt.Errorf("source: %w", err)
-		}
-		closer = f
-		names := make([]string, len(setup.Channels))
-		for i, ch := range setup.Channels {
-			names[i] = ch.Name
-		}
-		src, inRate, _, err := openInput(cfg.Source.Path, f, names)
-		if err != nil {
-			f.Close()
-			return err
-		}
-		if rate, err = resolveRate(cfg, inRate, cfg.Source.Path); err != nil {
-			f.Close()
-			return err
-		}
-		d.source = src
-		endIsError = false
-	case config.SourceIIO:
-		in, first, err := openIIO(ctx, cfg, log.With("component", "source"))
-		if err != nil {
-			return err
-		}
-		defer func() {
-			if cerr := in.close(); cerr != nil {
-				log.Error("iio device not restored", "err", cerr)
-			}
-		}()
-		d.source, rate, endIsError, liveSrc, srcBase = in.src, in.src.SampleRate(), true, true, first
-	case config.SourceCOMTRADE:
-		rec, r, err := openCOMTRADE(cfg, cfg.Source.Path)
-		if err != nil {
-			return err
-		}
-		closer, d.source, rate, endIsError, srcBase = rec, rec.Data, r, false, rec.Start
-	case config.SourcePCM:
-		in, isLive, err := openPCMSource(ctx, cfg, len(setup.Channels), log.With("component", "source"))
-		if err != nil {
-			return err
-		}
-		defer func() {
-			if l := in.losses(); l != "" {
-				log.Warn("pcm stream losses", "summary", l)
-			}
-			_ = in.close()
-		}()
-		d.source, rate, endIsError, liveSrc = in.src, cfg.SampleRateHz, isLive, isLive
-	default:
-		return usagef("%s: source.kind %q: allowed are %s", cfg.Path, cfg.Source.Kind, strings.Join(config.SourceKinds(), ", "))
+	src, err := openDaemonSource(ctx, cfg, setup, db, o, now, log)
+	if err != nil {
+		return err
 	}
-	if closer != nil {
-		defer closer.Close()
-	}
+	defer src.close()
+	d.source, d.sim = src.source, src.sim
+	rate, endIsError, liveSrc, srcBase := src.rate, src.endIsError, src.live, src.base
 	if err := checkRate(cfg, rate); err != nil {
 		return err
 	}
@@ -558,4 +468,139 @@ func retentionBytes(s *metrics.Setup, ret map[metrics.Interval]time.Duration) in
 		}
 	}
 	return n
+}
+
+// runFilterProfile is how the simulator's input reactor wears and recovers
+// under run: a 6 h cycle, at worst 30 % of its filtering lost (the demo
+// uses a faster cycle so alarms raise and clear within a minute).
+func runFilterProfile() sim.FilterProfile {
+	return sim.FilterProfile{Period: 6 * time.Hour, Worst: 0.3}
+}
+
+// daemonSource is the opened source of run and what the gateway needs to
+// know about it.
+type daemonSource struct {
+	source     stream.FrameReader
+	sim        *sim.Source // the simulator, when the source is one
+	rate       float64     // sample rate, Hz
+	endIsError bool        // the source's end is a failure (live sources, the simulator without --stop-after)
+	live       bool        // a live source never blocks: full sink queues drop (and flag gap)
+	base       time.Time   // a recording's own start time (COMTRADE); zero = the wall clock
+	close      func()      // releases what was opened; called once by the owner
+}
+
+// openDaemonSource opens the configured source (sim, csv, wav, iio,
+// comtrade, pcm).
+func openDaemonSource(ctx context.Context, cfg *config.Config, setup *metrics.Setup, db *store.DB, o daemonOptions,
+	now func() time.Time, log *slog.Logger) (*daemonSource, error) {
+	ds := &daemonSource{endIsError: true, close: func() {}}
+	var closer io.Closer
+	var cleanup []func()
+	ds.close = func() {
+		if closer != nil {
+			closer.Close()
+		}
+		for _, f := range cleanup {
+			f()
+		}
+	}
+	var rate float64
+	switch cfg.Source.Kind {
+	case config.SourceSim:
+		rate = cfg.SampleRateHz
+		if rate == 0 {
+			rate = sim.DefaultSampleRate
+		}
+		sc := simConfig(cfg, rate)
+		sc.Speed = cfg.Source.Speed
+		sc.Start = simStart(db, now().UTC())
+		sc.Filter = runFilterProfile()
+		if o.simTweak != nil {
+			o.simTweak(&sc)
+		}
+		if o.stopAfter > 0 {
+			sc.Limit = uint64(o.stopAfter.Seconds() * rate)
+			ds.endIsError = false
+		}
+		s, err := sim.New(sc)
+		if err != nil {
+			return nil, usagef("%s: source: %v", cfg.Path, err)
+		}
+		ds.source, ds.sim = s, s
+	case config.SourceCSV, config.SourceWAV:
+		f, err := os.Open(cfg.Source.Path)
+		if err != nil {
+			return nil, fmt.Errorf("source: %w", err)
+		}
+		closer = f
+		names := make([]string, len(setup.Channels))
+		for i, ch := range setup.Channels {
+			names[i] = ch.Name
+		}
+		src, inRate, _, err := openInput(cfg.Source.Path, f, names)
+		if err != nil {
+			f.Close()
+			return nil, err
+		}
+		if rate, err = resolveRate(cfg, inRate, cfg.Source.Path); err != nil {
+			f.Close()
+			return nil, err
+		}
+		ds.source = src
+		ds.endIsError = false
+	case config.SourceIIO:
+		in, first, err := openIIO(ctx, cfg, log.With("component", "source"))
+		if err != nil {
+			return nil, err
+		}
+		cleanup = append(cleanup, func() {
+			if cerr := in.close(); cerr != nil {
+				log.Error("iio device not restored", "err", cerr)
+			}
+		})
+		ds.source, rate, ds.endIsError, ds.live, ds.base = in.src, in.src.SampleRate(), true, true, first
+	case config.SourceCOMTRADE:
+		rec, r, err := openCOMTRADE(cfg, cfg.Source.Path)
+		if err != nil {
+			return nil, err
+		}
+		closer, ds.source, rate, ds.endIsError, ds.base = rec, rec.Data, r, false, rec.Start
+	case config.SourcePCM:
+		in, isLive, err := openPCMSource(ctx, cfg, len(setup.Channels), log.With("component", "source"))
+		if err != nil {
+			return nil, err
+		}
+		cleanup = append(cleanup, func() {
+			if l := in.losses(); l != "" {
+				log.Warn("pcm stream losses", "summary", l)
+			}
+			_ = in.close()
+		})
+		ds.source, rate, ds.endIsError, ds.live = in.src, cfg.SampleRateHz, isLive, isLive
+	default:
+		return nil, usagef("%s: source.kind %q: allowed are %s", cfg.Path, cfg.Source.Kind, strings.Join(config.SourceKinds(), ", "))
+	}
+	ds.rate = rate
+	return ds, nil
+}
+
+// loadAlarms compiles the config's alarm rules with the states the store
+// kept across restarts; nil when there are no rules.
+func loadAlarms(cfg *config.Config, setup *metrics.Setup, db *store.DB, log *slog.Logger) (*alarm.Evaluator, error) {
+	rules, err := alarmRules(cfg, setup)
+	if err != nil || len(rules) == 0 {
+		return nil, err
+	}
+	saved, err := db.AlarmStates()
+	if err != nil {
+		return nil, fmt.Errorf("store: alarm states: %w", err)
+	}
+	ev, err := alarm.New(rules, setup, gateway.FromStore(saved))
+	if err != nil {
+		return nil, usagef("%s: alarms: %v", cfg.Path, err)
+	}
+	if act := ev.Active(); len(act) > 0 {
+		log.Info("alarms still raised from before the restart", "alarms", act)
+	}
+	return ev, nil
 }

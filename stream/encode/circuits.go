@@ -116,12 +116,7 @@ func csvCircuitHeader(h []string, s *metrics.Setup) []string {
 func appendCSVCircuits(b []byte, s *metrics.Setup, r *metrics.Record) []byte {
 	for k := range min(len(s.Circuits), len(r.Circuits)) {
 		sub, cr := s.Circuits[k].Sub, r.Circuits[k].Rec
-		for j := range cr.Phases {
-			p := &cr.Phases[j]
-			for _, v := range [...]float64{p.P, p.P1, p.Q1, p.S, p.S1, p.SN, p.DI, p.DV, p.SH, p.PF, p.DPF} {
-				b = cell(b, v)
-			}
-		}
+		b = appendCSVPhases(b, cr)
 		if sub.HasTotal() {
 			t := &cr.Total
 			for i, v := range [...]float64{t.P, t.Q1, t.S, t.Se, t.Se1, t.Ve, t.Ie, t.PF, t.DPF} {

@@ -212,14 +212,7 @@ func (c *CSV) appendRow(b []byte, r *metrics.Record) []byte {
 			b = cell(b, h.PhaseDeg)
 		}
 	}
-	for k := range r.Phases {
-		p := &r.Phases[k]
-		for id := range quantity.NumPhase {
-			if quantity.Phase(id).Out&quantity.CSV != 0 {
-				b = cell(b, *p.Field(id))
-			}
-		}
-	}
+	b = appendCSVPhases(b, r)
 	delta := s.Wiring == metrics.Delta
 	if s.HasTotal() {
 		t := &r.Total
@@ -277,4 +270,18 @@ func phaseCSVKeys() []string {
 		}
 	}
 	return out
+}
+
+// appendCSVPhases appends r's phase cells in the quantity table's order
+// (the bus's, or one circuit's).
+func appendCSVPhases(b []byte, r *metrics.Record) []byte {
+	for k := range r.Phases {
+		p := &r.Phases[k]
+		for id := range quantity.NumPhase {
+			if quantity.Phase(id).Out&quantity.CSV != 0 {
+				b = cell(b, *p.Field(id))
+			}
+		}
+	}
+	return b
 }

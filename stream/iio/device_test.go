@@ -266,3 +266,30 @@ func TestDeviceVanishes(t *testing.T) {
 		t.Errorf("read on a vanished device: %v, want ErrVanished saying it is gone", err)
 	}
 }
+
+// TestDeviceRestoredOnPanic: a panic in the goroutine that reads the
+// device unwinds through the owner's deferred Close (as runDaemon defers
+// it around the pipeline), so the buffer is disabled and the _en files are
+// restored before the panic goes on.
+func TestDeviceRestoredOnPanic(t *testing.T) {
+	sysfs, dev := fakeTree(t, func(p string) { os.WriteFile(p, make([]byte, 24*4), 0o644) })
+	d := filepath.Join(sysfs, "iio:device0")
+	func() {
+		defer func() { _ = recover() }()
+		s, err := Open(Config{Device: "dc2-adc", Channels: []string{"voltage0", "voltage1", "current0"}, Sysfs: sysfs, Dev: dev})
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer s.Close()
+		if read(t, filepath.Join(d, "buffer/enable")) != "1" {
+			t.Fatal("buffer not enabled")
+		}
+		panic("a programmer error mid-run")
+	}()
+	if got := read(t, filepath.Join(d, "buffer/enable")); got != "0" {
+		t.Errorf("buffer/enable = %q after the panic, want 0", got)
+	}
+	if got := read(t, filepath.Join(d, "scan_elements/in_voltage3_en")); got != "1" {
+		t.Errorf("in_voltage3_en = %q after the panic, want 1 restored", got)
+	}
+}
