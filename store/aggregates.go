@@ -172,15 +172,7 @@ func (db *DB) PutBatch(recs []*metrics.Record, msgs []Message) ([]uint64, error)
 		if db.hookMidBatch != nil {
 			db.hookMidBatch()
 		}
-		for i := range msgs {
-			m := msgs[i]
-			seq, err := db.enqueueTx(tx, &m, ot)
-			if err != nil {
-				return fmt.Errorf("message %d: %w", i, err)
-			}
-			seqs[i] = seq
-		}
-		return nil
+		return db.enqueueAll(tx, msgs, seqs, ot)
 	})
 	if err != nil {
 		return nil, fmt.Errorf("store: put %d records and %d messages: %w", len(recs), len(msgs), err)

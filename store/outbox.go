@@ -181,6 +181,19 @@ func (db *DB) enqueueTx(tx *bolt.Tx, m *Message, ot *outboxTx) (uint64, error) {
 	return seq, nil
 }
 
+// enqueueAll stores msgs under new sequence numbers, written to seqs.
+func (db *DB) enqueueAll(tx *bolt.Tx, msgs []Message, seqs []uint64, ot *outboxTx) error {
+	for i := range msgs {
+		m := msgs[i]
+		seq, err := db.enqueueTx(tx, &m, ot)
+		if err != nil {
+			return fmt.Errorf("message %d: %w", i, err)
+		}
+		seqs[i] = seq
+	}
+	return nil
+}
+
 // capTx applies the per-class caps inside tx: the byte share of the usable
 // file (classShare) and any message-count cap (OutboxCaps). Alarms are not
 // capped. It then persists the loss counters.
@@ -309,6 +322,8 @@ func (db *DB) dropOldest(c Class, limit int, ok func(k, v []byte) bool) (int, er
 // the cap, counted at once in Losses and LostRecords and persisted with the
 // next write that succeeds.
 func (db *DB) NoteUnstored(recs []*metrics.Record, msgs []Message) {
+	db.wmu.Lock() // not between a write's snapshot of the counters and its commit
+	defer db.wmu.Unlock()
 	db.mu.Lock()
 	defer db.mu.Unlock()
 	for _, r := range recs {
@@ -387,15 +402,7 @@ func (db *DB) Enqueue(msgs ...Message) ([]uint64, error) {
 	defer db.wmu.Unlock()
 	seqs := make([]uint64, len(msgs))
 	err := db.updateOutbox(msgSize(msgs), func(tx *bolt.Tx, ot *outboxTx) error {
-		for i := range msgs {
-			m := msgs[i]
-			seq, err := db.enqueueTx(tx, &m, ot)
-			if err != nil {
-				return fmt.Errorf("message %d: %w", i, err)
-			}
-			seqs[i] = seq
-		}
-		return nil
+		return db.enqueueAll(tx, msgs, seqs, ot)
 	})
 	if err != nil {
 		return nil, fmt.Errorf("store: enqueue: %w", err)

@@ -154,7 +154,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 			st.Windows, float64(st.Windows)*0.2/60, st.Aggregates)
 		fmt.Fprintf(stdout, "  stored:    %d records in %s\n", st.Stored, dbPath)
 		fmt.Fprintf(stdout, "  alarms:    %d raised, %d cleared (thresholds from %s)\n", raised, cleared, cfg.Path)
-		fmt.Fprintf(stdout, "  events:    %d voltage events stored with their waveforms (list: %s events --store %s)\n", nEvents, selfCommand(), dbPath)
+		fmt.Fprintf(stdout, "  events:    %d voltage events stored with their waveforms\n", nEvents)
 		if d.pub != nil {
 			ps := d.pub.Stats()
 			fmt.Fprintf(stdout, "  published: %d messages acknowledged by the broker (queued in the outbox: %d)\n", ps.Acked, st.Queued)
@@ -163,6 +163,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	self := selfCommand()
 	fmt.Fprintf(stdout, "  look back: %s export --store %s --interval 10min --format table --config %s\n", self, dbPath, cfg.Path)
 	fmt.Fprintf(stdout, "             %s evaluate --config %s --store %s\n", self, cfg.Path, dbPath)
+	fmt.Fprintf(stdout, "             %s events --store %s\n", self, dbPath)
 	if created {
 		fmt.Fprintf(stdout, "  clean up:  rm -r %s\n", *dir)
 	} else {

@@ -2,12 +2,14 @@ package main
 
 import (
 	"log/slog"
+	"slices"
 	"strconv"
 	"time"
 
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/energy"
+	"github.com/gridloupe/gridloupe/metrics/events"
 	"github.com/gridloupe/gridloupe/metrics/harmdiag"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/encode"
@@ -36,6 +38,41 @@ type energyKeeper struct {
 	site    string
 	gateway string
 	kick    func()
+	evAt    time.Time // wall time the event list was last read
+}
+
+// eventsEvery is how often the status page's event list is re-read from
+// the store (a read transaction; common practice, no source).
+const eventsEvery = 15 * time.Second
+
+// maxPageEvents is how many recent events the status page lists.
+const maxPageEvents = 10
+
+// refreshEvents puts the newest stored events on the board, at most every
+// eventsEvery.
+func (k *energyKeeper) refreshEvents() {
+	now := time.Now()
+	if now.Sub(k.evAt) < eventsEvery && !now.Before(k.evAt) {
+		return
+	}
+	k.evAt = now
+	var list []live.Event
+	err := k.db.Events(time.Time{}, time.Time{}, func(e events.Record) error {
+		list = append(list, live.Event{Kind: e.Kind.String(), Start: e.Start, DurationS: e.DurationS, ExtremePct: e.ExtremePct, Channels: e.Channels})
+		if len(list) > 4*maxPageEvents {
+			list = list[len(list)-maxPageEvents:]
+		}
+		return nil
+	})
+	if err != nil {
+		k.log.Warn("events not read for the status page", "err", err)
+		return
+	}
+	if len(list) > maxPageEvents {
+		list = list[len(list)-maxPageEvents:]
+	}
+	slices.Reverse(list)
+	k.board.SetEvents(list, "no voltage dip, swell or interruption stored")
 }
 
 func newEnergyKeeper(cfg *config.Config, setup *metrics.Setup, db *store.DB, board *live.Board, base string, kick func(), log *slog.Logger) (*energyKeeper, error) {
@@ -83,6 +120,7 @@ func (k *energyKeeper) record(r *metrics.Record) {
 	case metrics.Int3s:
 		k.demand.Add(r)
 		k.publishBoard(end)
+		k.refreshEvents()
 		if now := time.Now(); now.Sub(k.last) >= k.every || now.Before(k.last) {
 			k.last = now
 			k.save()

@@ -27,11 +27,7 @@ import (
 // or counted as dropped; it prints the figures the README quotes.
 func TestSIGKILLLoop(t *testing.T) {
 	const kills = 20
-	mosq := mqtttest.Start(t)
-	base := "gridloupe/test-bench/gw-test"
-	sub := mqtttest.Subscribe(t, mosq.URL(), base+"/telemetry/3s")
-	dir := t.TempDir()
-	cfg := daemonConfig(t, dir, mosq.URL())
+	_, sub, dir, cfg := telemetryRig(t)
 	path := filepath.Join(dir, "gl.db")
 	rng := rand.New(rand.NewPCG(20, 26))
 	for i := range kills {
@@ -122,11 +118,7 @@ func account(t *testing.T, db *store.DB, sub *mqtttest.Subscriber) (stored, deli
 // record's telemetry is delivered, queued or counted.
 func TestBrokerOutageLoop(t *testing.T) {
 	const outages = 6
-	mosq := mqtttest.Start(t)
-	base := "gridloupe/test-bench/gw-test"
-	sub := mqtttest.Subscribe(t, mosq.URL(), base+"/telemetry/3s")
-	dir := t.TempDir()
-	cfg := daemonConfig(t, dir, mosq.URL())
+	mosq, sub, dir, cfg := telemetryRig(t)
 	p := startDaemon(t, "run", "--config", cfg, "--log-level", "error")
 	for range outages {
 		time.Sleep(4 * time.Second)
@@ -210,4 +202,14 @@ func TestDiskFull(t *testing.T) {
 	if statuses > 1+2+2 { // connect, at most one change a minute over 90 s, the offline, slack
 		t.Errorf("%d status messages in 90 s: not debounced", statuses)
 	}
+}
+
+// telemetryRig starts a mosquitto, a subscriber to the test cabinet's 3 s
+// telemetry and writes the daemon config (3 s telemetry, 60x real time).
+func telemetryRig(t *testing.T) (mosq *mqtttest.Broker, sub *mqtttest.Subscriber, dir, cfg string) {
+	t.Helper()
+	mosq = mqtttest.Start(t)
+	sub = mqtttest.Subscribe(t, mosq.URL(), "gridloupe/test-bench/gw-test/telemetry/3s")
+	dir = t.TempDir()
+	return mosq, sub, dir, daemonConfig(t, dir, mosq.URL())
 }

@@ -9,12 +9,14 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strings"
 	"time"
 
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/compliance"
 	"github.com/gridloupe/gridloupe/metrics/energy"
+	"github.com/gridloupe/gridloupe/metrics/events"
 	"github.com/gridloupe/gridloupe/metrics/harmdiag"
 	"github.com/gridloupe/gridloupe/metrics/limits"
 	"github.com/gridloupe/gridloupe/store"
@@ -105,8 +107,8 @@ func reportData(db *store.DB, cfg *config.Config, path string, from, now time.Ti
 		return nil, fmt.Errorf("report: %w", err)
 	}
 	d := &report.Data{Site: cfg.Site, Gateway: cfg.Gateway, Generated: now, Store: path, Cautions: evalCautions,
-		PCC: pccCaution, Result: res}
-	d.Events, d.EventsNote = reportEvents(db, res.Start, res.End)
+		PCC: pccCaution, Result: res,
+		EventsNote: "no voltage dip, swell or interruption is stored for the week"}
 	shown := evalShown(res.Lines, false)
 	hidden := 0
 	for i, l := range res.Lines {
@@ -120,6 +122,13 @@ func reportData(db *store.DB, cfg *config.Config, path string, from, now time.Ti
 		d.HiddenNote = fmt.Sprintf("The table shows THD/TDD, every failed line and per channel and statistic the order closest to its threshold; %d more harmonic lines (none failed) are in the spectra below and in 'gridloupe evaluate --all'.", hidden)
 	}
 	d.Spectra, d.SpectraNote = reportSpectra(res)
+	if err := db.Events(res.Start, res.End, func(e events.Record) error {
+		d.Events = append(d.Events, report.Event{Kind: e.Kind.String(), Start: e.Start, DurationS: e.DurationS,
+			ExtremePct: e.ExtremePct, Channels: strings.Join(e.Channels, " ")})
+		return nil
+	}); err != nil {
+		return nil, fmt.Errorf("report: events: %w", err)
+	}
 
 	// One pass over the week's 10 min values: trends, week energy, directions.
 	week := newWeekTrends(setup, res.Start, res.End, cfg)

@@ -17,6 +17,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/events"
 	"github.com/gridloupe/gridloupe/store"
 )
 
@@ -136,6 +137,11 @@ func buildReportStore(t *testing.T) (cfgPath, dbPath string) {
 		}
 	}
 	flush()
+	dipAt := reportStart.Add(15*24*time.Hour + 9*time.Hour + 1234*time.Millisecond) // in the reported (third) week
+	if _, err := db.PutEvent(events.Record{Kind: events.Dip, ID: events.ID(events.Dip, dipAt), Start: dipAt, DurationS: 0.12,
+		Channels: []string{"va", "vb"}, Worst: "va", ExtremeV: 138.3, ExtremePct: 60.1}, nil, nil); err != nil {
+		t.Fatal(err)
+	}
 	if err := db.PutEnergy([]store.Energy{{Circuit: "main", ImportWh: 4.2e6, VarhQ: [4]float64{8.5e5, 0, 0, 1200}}},
 		[]store.DemandMonth{{Month: "2026-02", MaxA: [3]float64{131, 131.5, 130.2}, MaxW: 88000, At: reportStart}}); err != nil {
 		t.Fatal(err)
@@ -222,8 +228,8 @@ func TestReport(t *testing.T) {
 	if want := fmt.Sprintf("moved %.2f points", reportTDD(60, 2)-reportTDD(60, 0)); !strings.Contains(html, want) {
 		t.Errorf("ageing trend: report lacks %q", want)
 	}
-	if !strings.Contains(html, "None listed: no voltage dip, swell or interruption is stored in this week") {
-		t.Error("an empty event list without its reason")
+	if !strings.Contains(html, "<td>2026-03-03 09:00 UTC</td><td class=\"l\">dip</td><td>0.120</td><td>60.1</td><td class=\"l\">va vb</td>") {
+		t.Error("the stored dip of the week is not listed")
 	}
 	if !strings.Contains(html, "4200.0 / 0.0 kWh") || !strings.Contains(html, "131.0 / 131.5 / 130.2 A") {
 		t.Error("energy registers or the month's maximum demand missing")

@@ -61,7 +61,9 @@ Samples a live source loses are flagged gap, never stitched.
 Exit status: 0 after a signal, 0 when a csv or wav source reaches its end
 (a pcm file or a COMTRADE recording too, and after --stop-after), 1 when the simulator stops
 otherwise, a pipe or standard input ends, a source fails or the store cannot
-be opened, 2 for config errors.
+be opened, 2 for config errors. A damaged store file is renamed to
+<path>.damaged-<UTC time> and a fresh one started (store.on_damage: fail
+exits 1 instead).
 
 Flags:
 `
@@ -387,8 +389,9 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 		}
 	}
 	if runErr != nil {
+		// Returned, not also logged: main prints it once (STYLE.md §4).
 		if errors.Is(runErr, gateway.ErrSourceEnded) || errors.Is(runErr, input.ErrData) || errors.Is(runErr, stream.ErrSource) {
-			log.Error("source stopped", "err", runErr)
+			return fmt.Errorf("source stopped: %w", runErr)
 		}
 		return runErr
 	}

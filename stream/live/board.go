@@ -58,7 +58,7 @@ func New(s *metrics.Setup, now func() time.Time, health func() Health) *Board {
 	if now == nil {
 		now = time.Now
 	}
-	return &Board{setup: s, now: now, health: health, why: "voltage events are not recorded by this build"}
+	return &Board{setup: s, now: now, health: health, why: "no voltage dip, swell or interruption stored"}
 }
 
 // Setup returns the layout of the records.

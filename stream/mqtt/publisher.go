@@ -74,6 +74,7 @@ type Stats struct {
 	Published   uint64    // PUBLISH calls for queued messages, resends included
 	Acked       uint64    // messages delivered and deleted from the outbox
 	Dropped     uint64    // messages deleted unsent because their topic cannot be published
+	Direct      uint64    // messages handed to Direct and acknowledged by the broker
 	Reconnects  uint64    // connections after the first one
 	Failures    uint64    // publish, outbox and connection errors
 	LastError   string    // the most recent error, password masked; "" = none
@@ -324,7 +325,7 @@ func (p *Publisher) Connected() bool { return p.client.IsConnectionOpen() }
 func (p *Publisher) Stats() Stats {
 	s := Stats{
 		Connected: p.Connected(), Published: p.published.Load(), Acked: p.acked.Load(),
-		Dropped: p.dropped.Load(), Failures: p.failures.Load(),
+		Dropped: p.dropped.Load(), Failures: p.failures.Load(), Direct: p.directN.Load(),
 	}
 	if c := p.connects.Load(); c > 1 {
 		s.Reconnects = c - 1

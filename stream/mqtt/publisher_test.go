@@ -467,4 +467,7 @@ func TestDirect(t *testing.T) {
 	if q, _ := db.Pending(0, 10); len(q) != 0 {
 		t.Errorf("%d messages in the outbox, want none", len(q))
 	}
+	if n := p.Stats().Direct; n != 2 {
+		t.Errorf("Stats().Direct = %d, want the 2 sent", n)
+	}
 }
