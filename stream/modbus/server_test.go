@@ -67,7 +67,7 @@ type rig struct {
 	now   time.Time
 }
 
-func startServer(t *testing.T, lowFirst bool, alarms []string) *rig {
+func startServer(t testing.TB, lowFirst bool, alarms []string) *rig {
 	t.Helper()
 	s := wyeSetup(t)
 	rg := &rig{now: time.Date(2026, 3, 1, 10, 0, 10, 0, time.UTC)}
@@ -97,7 +97,7 @@ func startServer(t *testing.T, lowFirst bool, alarms []string) *rig {
 	return rg
 }
 
-func client(t *testing.T, addr string, lowFirst bool, unit uint8) *mb.ModbusClient {
+func client(t testing.TB, addr string, lowFirst bool, unit uint8) *mb.ModbusClient {
 	t.Helper()
 	c, err := mb.NewClient(&mb.ClientConfiguration{URL: "tcp://" + addr, Timeout: 2 * time.Second})
 	if err != nil {
