@@ -32,9 +32,12 @@ type Config struct {
 	MQTT         MQTT      // broker connection and topics
 	Alarms       []Alarm   // alarm rules in file order
 	Events       Events    // voltage-event detection
-	Modbus       Modbus    // read-only Modbus TCP server for a BMS; off unless the section is given
-	HTTP         HTTP      // Prometheus, JSON and status page; off unless the section is given
-	Demand       Demand    // demand interval and method
+	// Disturbances are source.disturbances: the voltage dips and swells a
+	// sim source injects (kept out of Source so Source stays comparable).
+	Disturbances []Disturbance
+	Modbus       Modbus // read-only Modbus TCP server for a BMS; off unless the section is given
+	HTTP         HTTP   // Prometheus, JSON and status page; off unless the section is given
+	Demand       Demand // demand interval and method
 }
 
 // Nominal holds the declared system values.

@@ -23,12 +23,13 @@ var sections = map[string][]string{
 	"": {"site", "gateway", "nominal", "wiring", "sample_rate_hz", "reference", "harmonics",
 		"il_a", "isc_a", "lock_min_pct", "channels", "circuits", "source", "store", "mqtt", "alarms",
 		"modbus", "http", "demand", "events"},
-	"nominal":         {"frequency_hz", "voltage_v", "current_a"},
-	"channels[]":      {"name", "kind", "phase", "scale", "offset", "full_scale", "delay_us", "comtrade", "iio"},
-	"circuits[]":      {"name", "currents", "il_a"},
-	"source":          {"kind", "speed", "path", "connect", "format", "framing", "device", "sysfs", "dev", "buffer_length"},
-	"store":           {"path", "commit_every", "max_size_mb", "retention", "on_damage"},
-	"store.retention": {"3s", "10min", "2h"},
+	"nominal":               {"frequency_hz", "voltage_v", "current_a"},
+	"channels[]":            {"name", "kind", "phase", "scale", "offset", "full_scale", "delay_us", "comtrade", "iio"},
+	"circuits[]":            {"name", "currents", "il_a"},
+	"source":                {"kind", "speed", "path", "connect", "format", "framing", "device", "sysfs", "dev", "buffer_length", "disturbances"},
+	"source.disturbances[]": {"at", "level_pct", "duration", "phases"},
+	"store":                 {"path", "commit_every", "max_size_mb", "retention", "on_damage"},
+	"store.retention":       {"3s", "10min", "2h"},
 	"mqtt": {"broker", "listen", "client_id", "username", "password_file", "password_env", "tls",
 		"topic_prefix", "telemetry", "telemetry_qos", "summary"},
 	"mqtt.tls":           {"ca", "cert", "key"},
@@ -60,6 +61,7 @@ type decoder struct {
 	root  *yaml.Node
 	nodes map[string]*yaml.Node // value node by key path (null values are not recorded)
 	keys  map[string]*yaml.Node // key node by key path
+	dist  []Disturbance         // source.disturbances, moved to Config.Disturbances
 }
 
 func (d *decoder) errf(n *yaml.Node, key, format string, args ...any) *Error {
@@ -557,6 +559,8 @@ func (d *decoder) source(n *yaml.Node, path string, s *Source) *Error {
 			return d.enum(v, p, &s.Format, PCMFormats()...)
 		case "framing":
 			return d.enum(v, p, &s.Framing, FramingRaw, FramingGLF1)
+		case "disturbances":
+			return d.disturbances(v, p, &d.dist)
 		case "device":
 			return d.str(v, p, &s.Device)
 		case "sysfs":

@@ -93,6 +93,11 @@ lock_min_pct: 10           # below this % of the nominal voltage the tracker rep
 #   sysfs: /sys/bus/iio/devices   # iio only: root of the devices (a fake tree for tests)
 #   dev: /dev              # iio only: root of the character devices
 #   buffer_length: 0       # iio only: scans in the kernel buffer; 0 = leave the device's
+#   disturbances:          # sim only: voltage dips and swells the simulator injects; default none
+#     - at: 10m            # simulated time since the source started
+#       level_pct: 55      # voltage during it, % of nominal (0..200): below 100 a dip, above a swell, 0 an interruption
+#       duration: 140ms    # more than 0, at most 1m
+#       phases: ab         # letters from a, b, c; "" = all three
 #                          # iio: sample_rate_hz, when set, is written to the device and read back
 
 store:

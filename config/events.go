@@ -1,6 +1,12 @@
 package config
 
-import "go.yaml.in/yaml/v3"
+import (
+	"fmt"
+	"strings"
+	"time"
+
+	"go.yaml.in/yaml/v3"
+)
 
 // Events configures voltage-event detection (DESIGN "Voltage events").
 // Percentages are of the declared voltage nominal.voltage_v. Detection is
@@ -60,6 +66,63 @@ func (v *validator) events() *Error {
 		return v.fail("events.swell_pct", "%g is out of range; allowed: swell_pct − hysteresis_pct more than 100, up to 1000", e.SwellPct)
 	case !(e.MaxCaptureS > 0 && e.MaxCaptureS <= maxCaptureS):
 		return v.fail("events.max_capture_s", "%g is out of range; allowed: more than 0, at most %d seconds", e.MaxCaptureS, maxCaptureS)
+	}
+	return nil
+}
+
+// Disturbance is a voltage dip or swell the simulator injects
+// (source.disturbances, kind sim only).
+type Disturbance struct {
+	At       time.Duration // simulated time since the source started
+	LevelPct float64       // voltage during it, % of nominal: below 100 a dip, above a swell, 0 an interruption
+	Duration time.Duration // > 0, at most 60 s
+	Phases   string        // letters from a, b, c; "" = all three
+	Line     int
+}
+
+// maxDisturbances bounds the list (common practice, no source).
+const maxDisturbances = 64
+
+func (d *decoder) disturbances(n *yaml.Node, path string, dst *[]Disturbance) *Error {
+	return d.sequence(n, path, "disturbances", maxDisturbances, func(_ int, v *yaml.Node, ip string) *Error {
+		x := Disturbance{Line: v.Line, LevelPct: -1}
+		e := d.mapping(v, ip, "source.disturbances[]", func(k string, v *yaml.Node, p string) *Error {
+			switch k {
+			case "at":
+				return d.duration(v, p, &x.At)
+			case "level_pct":
+				return d.float(v, p, &x.LevelPct)
+			case "duration":
+				return d.duration(v, p, &x.Duration)
+			case "phases":
+				return d.str(v, p, &x.Phases)
+			}
+			return d.errf(v, p, "internal: key has no decoder")
+		})
+		if e != nil {
+			return e
+		}
+		*dst = append(*dst, x)
+		return nil
+	})
+}
+
+func (v *validator) disturbances() *Error {
+	s := &v.c.Source
+	v.c.Disturbances = v.dist
+	if len(v.dist) > 0 && s.Kind != SourceSim {
+		return v.fail("source.disturbances", "applies to kind sim only")
+	}
+	for i, x := range v.dist {
+		p := fmt.Sprintf("source.disturbances[%d]", i)
+		switch {
+		case x.LevelPct < 0 || x.LevelPct > 200:
+			return v.fail(p+".level_pct", "required: the voltage during it in %% of nominal, 0 to 200 (90 or less is a dip, 110 or more a swell with the default thresholds)")
+		case x.Duration <= 0 || x.Duration > time.Minute:
+			return v.fail(p+".duration", "required: more than 0, at most 1m (such as 120ms)")
+		case strings.Trim(x.Phases, "abc") != "":
+			return v.fail(p+".phases", "%q: use letters from a, b, c (\"\" = all three)", x.Phases)
+		}
 	}
 	return nil
 }

@@ -124,6 +124,9 @@ var badCases = []badCase{
 	{name: "swell under 100", doc: hdr1 + "events: {swell_pct: 101}\n", line: 4, key: "events.swell_pct", phrase: "more than 100", src: srcDesign},
 	{name: "negative hysteresis", doc: hdr1 + "events: {hysteresis_pct: -1}\n", line: 4, key: "events.hysteresis_pct", phrase: "out of range", src: srcDesign},
 	{name: "capture too long", doc: hdr1 + "events: {max_capture_s: 61}\n", line: 4, key: "events.max_capture_s", phrase: "at most 60 seconds", src: "common practice, no source (60 s cap)"},
+	{name: "disturbance on csv", doc: hdr1 + "source: {kind: csv, path: x.csv, disturbances: [{at: 1s, level_pct: 50, duration: 1s}]}\n", line: 4, key: "source.disturbances", phrase: "kind sim only", src: srcDesign},
+	{name: "disturbance level missing", doc: hdr1 + "source: {kind: sim, disturbances: [{at: 1s, duration: 1s}]}\n", line: 4, key: "source.disturbances[0].level_pct", phrase: "0 to 200", src: srcDesign},
+	{name: "disturbance phase d", doc: hdr1 + "source: {kind: sim, disturbances: [{at: 1s, level_pct: 50, duration: 1s, phases: ad}]}\n", line: 4, key: "source.disturbances[0].phases", phrase: "letters from a, b, c", src: srcDesign},
 	{name: "events key typo", doc: hdr1 + "events: {dip_pc: 80}\n", line: 4, key: "events.dip_pc", phrase: "unknown key", src: srcDesign},
 
 	// harmonics.

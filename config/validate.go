@@ -358,6 +358,9 @@ func (v *validator) source() *Error {
 	case s.Speed < 0:
 		return v.fail("source.speed", "must not be negative (1 = real time, 0 = as fast as possible)")
 	}
+	if e := v.disturbances(); e != nil {
+		return e
+	}
 	if e := v.pcmSource(); e != nil {
 		return e
 	}

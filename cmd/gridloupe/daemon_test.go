@@ -387,6 +387,7 @@ func TestDemoRaisesAndClears(t *testing.T) {
 		t.Fatalf("demo: exit %d\n%s", r.code, r.stderr)
 	}
 	for _, want := range []string{"CAUTION", "RAISED  reactor-wear", "CLEARED reactor-wear", "summary", "tdd_h50_pct(I)", "freq_hz",
+		">> EVENT   dip", ">> EVENT   swell", "2 voltage events stored",
 		filepath.Join(dir, "gridloupe.db")} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("demo output lacks %q", want)

@@ -16,6 +16,7 @@ import (
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/alarm"
+	"github.com/gridloupe/gridloupe/metrics/events"
 	"github.com/gridloupe/gridloupe/stream/sim"
 )
 
@@ -98,7 +99,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	tab := &liveTable{w: stdout, every: 2 * time.Second, cells: alarmCells(cfg)}
 	tab.legend(cfg, rules)
 	var d *daemon
-	var raised, cleared int
+	var raised, cleared, nEvents int
 	runCtx, cancel := context.WithTimeout(ctx, *dur)
 	defer cancel()
 	lvl := slog.LevelError
@@ -111,6 +112,9 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 		simTweak: func(sc *sim.Config) {
 			// wear and recovery of the input reactor over 20 simulated minutes
 			sc.Filter = demoFilterProfile()
+			if len(cfg.Disturbances) == 0 {
+				sc.Dips = demoDisturbances()
+			}
 		},
 		onReady: func(dd *daemon) {
 			d = dd
@@ -123,6 +127,10 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 			}
 		},
 		onRecord: tab.record,
+		onEvent: func(r events.Record) {
+			nEvents++
+			tab.event(r)
+		},
 		onTransition: func(t alarm.Transition) {
 			if t.Raised {
 				raised++
@@ -146,6 +154,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 			st.Windows, float64(st.Windows)*0.2/60, st.Aggregates)
 		fmt.Fprintf(stdout, "  stored:    %d records in %s\n", st.Stored, dbPath)
 		fmt.Fprintf(stdout, "  alarms:    %d raised, %d cleared (thresholds from %s)\n", raised, cleared, cfg.Path)
+		fmt.Fprintf(stdout, "  events:    %d voltage events stored with their waveforms\n", nEvents)
 		if d.pub != nil {
 			ps := d.pub.Stats()
 			fmt.Fprintf(stdout, "  published: %d messages acknowledged by the broker (queued in the outbox: %d)\n", ps.Acked, st.Queued)
@@ -154,6 +163,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	self := selfCommand()
 	fmt.Fprintf(stdout, "  look back: %s export --store %s --interval 10min --format table --config %s\n", self, dbPath, cfg.Path)
 	fmt.Fprintf(stdout, "             %s evaluate --config %s --store %s\n", self, cfg.Path, dbPath)
+	fmt.Fprintf(stdout, "             %s events --store %s\n", self, dbPath)
 	if created {
 		fmt.Fprintf(stdout, "  clean up:  rm -r %s\n", *dir)
 	} else {

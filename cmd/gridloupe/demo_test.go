@@ -62,7 +62,7 @@ func TestDemoTeaches(t *testing.T) {
 			t.Errorf("printed command %q: exit %d, %d bytes out\n%s", cmd, res.code, len(res.stdout), res.stderr)
 		}
 	}
-	if ran != 2 {
-		t.Errorf("%d look-back commands printed, want 2 (export and evaluate):\n%s", ran, r.stdout)
+	if ran != 3 {
+		t.Errorf("%d look-back commands printed, want 3 (export, evaluate and events):\n%s", ran, r.stdout)
 	}
 }

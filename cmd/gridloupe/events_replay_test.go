@@ -174,3 +174,50 @@ func TestReplayEvents(t *testing.T) {
 		t.Errorf("%d flagged records, want at least 6 (one or two per dip and swell, four for the interruption)", flagged)
 	}
 }
+
+// TestSimulatorDisturbances: source.disturbances makes the simulator
+// inject a swell and an interruption, which replay --events reports with
+// their kind, channels, start and level (invented values; the level is the
+// simulator's own gain, so the extreme is within the simulated noise and
+// harmonics of it: IEC 61000-4-30 class A ±0.2 % of Udin, from memory,
+// would be too tight for a distorted simulated supply, so 1 % is used).
+func TestSimulatorDisturbances(t *testing.T) {
+	t.Parallel()
+	dir := t.TempDir()
+	cfg := writeFile(t, dir, "sw.yaml", eventsCfg+`source: {kind: sim, speed: 0, disturbances: [{at: 300ms, level_pct: 116, duration: 300ms, phases: c}, {at: 1500ms, level_pct: 0, duration: 400ms}]}
+`)
+	csv := filepath.Join(dir, "sw.csv")
+	if res := runCmd("simulate", "--config", cfg, "-o", csv, "--duration", "3s"); res.code != 0 {
+		t.Fatalf("simulate: %s", res.stderr)
+	}
+	ev := filepath.Join(dir, "ev.jsonl")
+	if res := runCmd("replay", "--config", cfg, "--events", ev, csv); res.code != 0 {
+		t.Fatalf("replay: %s", res.stderr)
+	}
+	data, err := os.ReadFile(ev)
+	if err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.Split(strings.TrimSpace(string(data)), "\n")
+	if len(lines) != 2 {
+		t.Fatalf("%d events, want 2:\n%s", len(lines), data)
+	}
+	for i, w := range []struct {
+		kind, channels string
+		at, pct        float64
+	}{{"swell", "vc", 0.3, 116}, {"interruption", "va,vb,vc", 1.5, 0}} {
+		var e struct {
+			Event      string   `json:"event"`
+			Start      string   `json:"start"`
+			Channels   []string `json:"channels"`
+			ExtremePct float64  `json:"extreme_pct"`
+		}
+		if err := json.Unmarshal([]byte(lines[i]), &e); err != nil {
+			t.Fatal(err)
+		}
+		st, _ := time.Parse(time.RFC3339Nano, e.Start)
+		if e.Event != w.kind || strings.Join(e.Channels, ",") != w.channels || math.Abs(st.Sub(time.Unix(0, 0)).Seconds()-w.at) > 0.01 || math.Abs(e.ExtremePct-w.pct) > 1 {
+			t.Errorf("event %d: %s, want %s on %s at %v s, extreme %v %%", i, lines[i], w.kind, w.channels, w.at, w.pct)
+		}
+	}
+}

@@ -22,6 +22,7 @@ import (
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/alarm"
+	"github.com/gridloupe/gridloupe/metrics/events"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream"
 	"github.com/gridloupe/gridloupe/stream/gateway"
@@ -74,6 +75,7 @@ type daemonOptions struct {
 	// demo hooks
 	onRecord     func(r *metrics.Record, active []string)
 	onTransition func(t alarm.Transition)
+	onEvent      func(r events.Record) // each stored voltage event (store goroutine)
 	onReady      func(d *daemon)
 	simTweak     func(sc *sim.Config)
 	now          func() time.Time
@@ -321,7 +323,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError, Live: liveSrc,
 		Store: db, Alarms: ev, Telemetry: tele, TelemetryQoS: teleQoS, Summary: summ, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
 		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("component", "gateway"),
-		OnRecord: integ.onRecord(onRecord), OnWindow: integ.onWindow, OnTransition: o.onTransition, OnStoreError: onStoreErr, Notice: storeNotice, PublishHealth: publishHealth})
+		OnRecord: integ.onRecord(onRecord), OnWindow: integ.onWindow, OnTransition: o.onTransition, OnEvent: integ.onEvent(o.onEvent), OnStoreError: onStoreErr, Notice: storeNotice, PublishHealth: publishHealth})
 	if err != nil {
 		return err
 	}

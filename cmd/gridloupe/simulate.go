@@ -43,6 +43,9 @@ func simConfig(cfg *config.Config, fs float64) sim.Config {
 	if sc.ILA == 0 {
 		sc.ILA = cfg.Nominal.CurrentA
 	}
+	for _, x := range cfg.Disturbances {
+		sc.Dips = append(sc.Dips, sim.Dip{At: x.At, Depth: x.LevelPct / 100, Duration: x.Duration, Phases: x.Phases})
+	}
 	if cfg.Wiring == config.WiringDelta {
 		// the simulator's VoltageV is phase-to-neutral; a three-wire feed
 		// has no neutral, so no zero-sequence 3rd from single-phase loads

@@ -47,11 +47,11 @@ type FilterProfile struct {
 	Worst  float64       // lowest condition, in [0, 1]
 }
 
-// Dip is a voltage dip: the voltage of the listed phases is multiplied by
-// Depth from At to At+Duration.
+// Dip is a voltage dip (Depth below 1) or swell (above 1): the voltage of
+// the listed phases is multiplied by Depth from At to At+Duration.
 type Dip struct {
 	At       time.Duration // since sample 0 (simulated time), ≥ 0
-	Depth    float64       // fraction of the voltage remaining, in [0, 1]
+	Depth    float64       // fraction of the voltage remaining, in [0, 2]; above 1 a swell
 	Duration time.Duration // > 0
 	Phases   string        // any of "a", "b", "c"; "" = "abc"
 }
@@ -222,8 +222,8 @@ func normalize(cfg Config) (Config, error) {
 		if d.Duration <= 0 {
 			return cfg, bad(field+".Duration", d.Duration, "want > 0")
 		}
-		if !finite(d.Depth) || d.Depth < 0 || d.Depth > 1 {
-			return cfg, bad(field+".Depth", d.Depth, "want the remaining fraction, 0..1")
+		if !finite(d.Depth) || d.Depth < 0 || d.Depth > 2 {
+			return cfg, bad(field+".Depth", d.Depth, "want the remaining fraction, 0..2 (above 1 a swell)")
 		}
 		if d.Phases == "" {
 			d.Phases = "abc"

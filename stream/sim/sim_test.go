@@ -609,7 +609,7 @@ func TestNewRejects(t *testing.T) {
 		{"phase x", func(c *sim.Config) { c.Channels = chans(func(c []sim.Chan) { c[3].Phase = 'x' }) }},
 		{"kind 0", func(c *sim.Config) { c.Channels = chans(func(c []sim.Chan) { c[3].Kind = 0 }) }},
 		{"scale Inf", func(c *sim.Config) { c.Channels = chans(func(c []sim.Chan) { c[3].Scale = math.Inf(-1) }) }},
-		{"dip depth 2", func(c *sim.Config) { c.Dips = []sim.Dip{{Depth: 2, Duration: time.Second}} }},
+		{"dip depth 2.5 (swells reach 2)", func(c *sim.Config) { c.Dips = []sim.Dip{{Depth: 2.5, Duration: time.Second}} }},
 		{"dip zero duration", func(c *sim.Config) { c.Dips = []sim.Dip{{Depth: 0.5}} }},
 		{"dip phase n", func(c *sim.Config) { c.Dips = []sim.Dip{{Depth: 0.5, Duration: time.Second, Phases: "an"}} }},
 	}

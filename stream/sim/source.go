@@ -420,7 +420,11 @@ func (s *Source) startBlock() {
 			}
 			g := s.gains[p][lo:hi]
 			for j := range g {
-				g[j] = math.Min(g[j], d.depth)
+				if d.depth > 1 { // a swell: the highest overlapping gain wins
+					g[j] = math.Max(g[j], d.depth)
+				} else { // a dip: the deepest wins
+					g[j] = math.Min(g[j], d.depth)
+				}
 			}
 		}
 	}
