@@ -51,8 +51,9 @@ type Demand struct {
 type Demander struct {
 	iv     time.Duration
 	method Method
-	phases [3]int // current channel index per phase, −1 none
-	months []Month
+	phases  [3]int // current channel index per phase, −1 none
+	circuit int    // with circuits: the record's circuit whose power counts (the first); −1 without
+	months  []Month
 
 	// fixed: the open block
 	blockStart time.Time
@@ -80,7 +81,20 @@ func NewDemander(s *metrics.Setup, iv time.Duration, method Method, months []Mon
 	if method != Fixed && method != Sliding {
 		return nil, fmt.Errorf("energy: unknown demand method %d", method)
 	}
-	d := &Demander{iv: iv, method: method, phases: s.IIdx, months: slices.Clone(months)}
+	d := &Demander{iv: iv, method: method, phases: s.IIdx, circuit: -1, months: slices.Clone(months)}
+	if len(s.Circuits) > 0 {
+		// Several circuits on one bus: the demand is the first circuit's
+		// (the README asks for the incomer first), its own phase currents
+		// and total power, never a sum that counts a feeder twice.
+		c := s.Circuits[0]
+		d.circuit = 0
+		for p, ci := range c.Sub.IIdx {
+			d.phases[p] = -1
+			if ci >= 0 {
+				d.phases[p] = c.Map[ci]
+			}
+		}
+	}
 	slices.SortFunc(d.months, func(a, b Month) int { return compareStr(a.Month, b.Month) })
 	d.cur = Demand{Interval: iv, Method: method, A: nan3(), W: math.NaN(), Month: Month{MaxA: nan3(), MaxW: math.NaN()}}
 	return d, nil
@@ -113,7 +127,14 @@ func (d *Demander) Add(r *metrics.Record) {
 			a[p] = zeroNull(r.Channels[ci].RMS)
 		}
 	}
-	w := zeroNull(r.Total.P)
+	pw := r.Total.P
+	if d.circuit >= 0 {
+		pw = math.NaN()
+		if d.circuit < len(r.Circuits) && r.Circuits[d.circuit].Rec != nil {
+			pw = r.Circuits[d.circuit].Rec.Total.P
+		}
+	}
+	w := zeroNull(pw)
 	if d.method == Sliding {
 		d.slide(sample{end: end, a: a, w: w, dur: r.DurationS})
 		return

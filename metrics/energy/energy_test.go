@@ -166,6 +166,42 @@ func TestFixedDemand(t *testing.T) {
 	}
 }
 
+func TestDemandFirstCircuit(t *testing.T) {
+	// A bus with an incomer and one drive (README Energy and demand: with
+	// circuits the demand is the first circuit's): the incomer's phase
+	// currents and total power count, not the drive's, and never their sum.
+	s, err := metrics.NewSetup(metrics.Setup{
+		Channels: []metrics.Channel{
+			{Name: "va", Kind: metrics.Voltage, Phase: 'a'}, {Name: "vb", Kind: metrics.Voltage, Phase: 'b'}, {Name: "vc", Kind: metrics.Voltage, Phase: 'c'},
+			{Name: "ia", Kind: metrics.Current, Phase: 'a'}, {Name: "ib", Kind: metrics.Current, Phase: 'b'}, {Name: "ic", Kind: metrics.Current, Phase: 'c'},
+			{Name: "da", Kind: metrics.Current, Phase: 'a'}, {Name: "db", Kind: metrics.Current, Phase: 'b'}, {Name: "dc", Kind: metrics.Current, Phase: 'c'}},
+		Orders: []int{1, 5, 7}, Wiring: metrics.Wye, NominalV: 230, ILA: 320,
+		Circuits: []metrics.Circuit{{Name: "incomer", Currents: []int{3, 4, 5}}, {Name: "drive", Currents: []int{6, 7, 8}}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	d, err := NewDemander(s, 15*time.Minute, Fixed, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	r := metrics.NewRecord(s)
+	r.Interval, r.DurationS = metrics.Int3s, 3
+	t0 := time.Date(2026, 3, 1, 10, 0, 0, 0, time.UTC)
+	for k := range 301 { // 15 min of 3 s values, then one that closes the block
+		r.Start = t0.Add(time.Duration(3*k) * time.Second)
+		for ci := 3; ci < 9; ci++ {
+			r.Channels[ci].RMS = 150 - 100*float64(ci/6) // incomer 150 A, drive 50 A
+		}
+		r.Total.P = math.NaN() // a bus has no single total
+		r.Circuits[0].Rec.Total.P, r.Circuits[1].Rec.Total.P = 100000, 33000
+		d.Add(r)
+	}
+	dm := d.Demand()
+	if !near(dm.A[0], 150) || !near(dm.A[2], 150) || !near(dm.W, 100000) {
+		t.Errorf("demand %+v, want the incomer's 150 A per phase and 100 kW (closed form: constant over the block)", dm)
+	}
+}
+
 func TestSlidingDemand(t *testing.T) {
 	s := setup(t)
 	d, err := NewDemander(s, 5*time.Minute, Sliding, nil)
