@@ -49,8 +49,8 @@ type Demand struct {
 
 // Demander averages 3 s records into demand. Not safe for concurrent use.
 type Demander struct {
-	iv     time.Duration
-	method Method
+	iv      time.Duration
+	method  Method
 	phases  [3]int // current channel index per phase, −1 none
 	circuit int    // with circuits: the record's circuit whose power counts (the first); −1 without
 	months  []Month
