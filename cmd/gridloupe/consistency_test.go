@@ -116,7 +116,8 @@ func TestRunFileSourceEnds(t *testing.T) {
 
 // TestREADMEStatesToday: the README's opening paragraph claims only source
 // kinds that `run` accepts today (config --defaults lists them): while no
-// live ADC source exists, it does not say the gateway samples an ADC.
+// live ADC source exists, it does not say the gateway samples an ADC; once
+// one does, it says so.
 func TestREADMEStatesToday(t *testing.T) {
 	first, _, _ := strings.Cut(strings.SplitN(readme(t), "\n\n", 3)[1], "\n## ")
 	live := false
@@ -127,6 +128,9 @@ func TestREADMEStatesToday(t *testing.T) {
 	}
 	if !live && (strings.Contains(first, "It samples") || strings.Contains(first, "from a small ARM gateway with a multi-channel ADC")) {
 		t.Errorf("README's opening paragraph claims live ADC sampling, which run does not offer yet:\n%s", first)
+	}
+	if live && !(strings.Contains(first, "IIO") && strings.Contains(first, "PCM")) {
+		t.Errorf("README's opening paragraph does not say that run reads live IIO and PCM inputs, which it does:\n%s", first)
 	}
 }
 
