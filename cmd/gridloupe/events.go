@@ -88,22 +88,12 @@ func cmdEvents(args []string, stdout, stderr io.Writer) error {
 		return usagef("events: --format %q: allowed are table, jsonl", *format)
 	}
 	req := gateway.ExportRequest{What: gateway.WhatEvents, Format: *format}
-	for _, x := range []struct {
-		s   string
-		dst *time.Time
-		n   string
-	}{{*from, &req.From, "--from"}, {*to, &req.To, "--to"}} {
-		if x.s == "" {
-			continue
-		}
-		t, err := time.Parse(time.RFC3339Nano, x.s)
-		if err != nil {
-			return usagef("events: %s %q is not RFC 3339 (e.g. 2026-03-01T10:00:00Z)", x.n, x.s)
-		}
-		*x.dst = t
+	var err error
+	if req.From, req.To, err = parseSpan("events", *from, *to); err != nil {
+		return err
 	}
 	out := bufio.NewWriterSize(stdout, 64<<10)
-	err := storeRequest("events", *dbPath, *timeout, req, out, func(db *store.DB) error { return gateway.WriteEvents(out, db, req) })
+	err = storeRequest("events", *dbPath, *timeout, req, out, func(db *store.DB) error { return gateway.WriteEvents(out, db, req) })
 	if ferr := out.Flush(); err == nil && ferr != nil {
 		err = fmt.Errorf("events: writing the output: %w", ferr)
 	}

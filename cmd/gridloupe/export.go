@@ -47,19 +47,9 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 		return usagef("export: --store FILE is required and takes no arguments")
 	}
 	req := gateway.ExportRequest{Interval: *iv, Format: *format}
-	for _, x := range []struct {
-		s   string
-		dst *time.Time
-		n   string
-	}{{*from, &req.From, "--from"}, {*to, &req.To, "--to"}} {
-		if x.s == "" {
-			continue
-		}
-		t, err := time.Parse(time.RFC3339Nano, x.s)
-		if err != nil {
-			return usagef("export: %s %q is not RFC 3339 (e.g. 2026-03-01T10:00:00Z)", x.n, x.s)
-		}
-		*x.dst = t
+	var err error
+	if req.From, req.To, err = parseSpan("export", *from, *to); err != nil {
+		return err
 	}
 	switch req.Interval {
 	case "3s", "10min", "2h":
@@ -113,4 +103,24 @@ func flushOut(w *bufio.Writer) error {
 		return fmt.Errorf("export: writing the output: %w", err)
 	}
 	return nil
+}
+
+// parseSpan reads the --from and --to flags of a store command (RFC 3339;
+// "" leaves that end open).
+func parseSpan(cmd, from, to string) (f, t time.Time, err error) {
+	for _, x := range []struct {
+		s   string
+		dst *time.Time
+		n   string
+	}{{from, &f, "--from"}, {to, &t, "--to"}} {
+		if x.s == "" {
+			continue
+		}
+		v, perr := time.Parse(time.RFC3339Nano, x.s)
+		if perr != nil {
+			return f, t, usagef("%s: %s %q is not RFC 3339 (e.g. 2026-03-01T10:00:00Z)", cmd, x.n, x.s)
+		}
+		*x.dst = v
+	}
+	return f, t, nil
 }
