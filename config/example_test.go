@@ -66,7 +66,6 @@ channels:
 	// true
 }
 
-
 func ExampleDefaults() {
 	doc := config.Defaults()
 	fmt.Println(strings.Contains(doc, "harmonics: all"), strings.Contains(doc, "commit_every: 60s"))
