@@ -12,6 +12,7 @@ import (
 	"github.com/gridloupe/gridloupe/stream/mqtt"
 	"github.com/gridloupe/gridloupe/stream/mqtt/broker"
 	"github.com/gridloupe/gridloupe/stream/mqtt/internal/testcert"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 // TestEmbeddedTLSCredentials runs publisher and subscriber through the
@@ -107,7 +108,7 @@ func TestTLSConfig(t *testing.T) {
 // (README, MQTT topics and payloads: embedded broker).
 func TestEmbeddedACL(t *testing.T) {
 	t.Parallel()
-	statusTopic := mqtt.StatusTopic(testBase)
+	statusTopic := topic.Status(testBase)
 	cases := []struct {
 		name        string
 		user, pass  string // the configured login; "" = none

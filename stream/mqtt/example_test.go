@@ -12,6 +12,7 @@ import (
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
 	"github.com/gridloupe/gridloupe/stream/mqtt/broker"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 func ExampleWithSeq() {
@@ -20,15 +21,6 @@ func ExampleWithSeq() {
 	// Output:
 	// {"seq":12,"name":"current-distortion","state":"raised"}
 	// [1,2]
-}
-
-func ExampleTelemetryTopic() {
-	base := "gridloupe/north-weir-dc2/dc2-gw1"
-	fmt.Println(mqtt.TelemetryTopic(base, "10min"))
-	fmt.Println(mqtt.StatusTopic(base))
-	// Output:
-	// gridloupe/north-weir-dc2/dc2-gw1/telemetry/10min
-	// gridloupe/north-weir-dc2/dc2-gw1/status
 }
 
 // ExamplePublisher_Run queues an alarm in a store, runs a publisher against
@@ -57,9 +49,9 @@ func ExamplePublisher_Run() {
 		return
 	}
 	defer sub.Disconnect(100)
-	sub.Subscribe(mqtt.AlarmTopic(base), 1, func(_ paho.Client, m paho.Message) { got <- string(m.Payload()) }).WaitTimeout(10 * time.Second)
+	sub.Subscribe(topic.Alarm(base), 1, func(_ paho.Client, m paho.Message) { got <- string(m.Payload()) }).WaitTimeout(10 * time.Second)
 
-	if _, err := db.Enqueue(store.Message{Class: store.ClassAlarm, Topic: mqtt.AlarmTopic(base), QoS: 1,
+	if _, err := db.Enqueue(store.Message{Class: store.ClassAlarm, Topic: topic.Alarm(base), QoS: 1,
 		Payload: []byte(`{"name":"current-distortion","state":"raised"}`)}); err != nil {
 		fmt.Println(err)
 		return
