@@ -85,9 +85,6 @@ func (b *Bank) Write(x []float64) {
 	}
 	m := len(b.orders)
 	i := 0
-	for ; i+8 <= m; i += 8 {
-		run8(x, b.coef[i:i+8:i+8], b.s1[i:i+8:i+8], b.s2[i:i+8:i+8])
-	}
 	for ; i+4 <= m; i += 4 {
 		run4(x, b.coef[i:i+4:i+4], b.s1[i:i+4:i+4], b.s2[i:i+4:i+4])
 	}
@@ -103,7 +100,13 @@ func (b *Bank) Write(x []float64) {
 }
 
 // run4 advances four independent Goertzel recurrences over x. c, p and q
-// (coefficients, s[n−1], s[n−2]) have length 4.
+// (coefficients, s[n−1], s[n−2]) have length 4. Each step is written
+// (x − s[n−2]) + c·s[n−1], so the subtraction does not wait for the
+// product. Four is the widest group that stays (almost) in registers on
+// amd64: Go leaves fifteen SSE registers, and eight orders (24 live values)
+// spilled to the stack in every step and cost about 30 % more CPU time for
+// 50 orders (user time of 10,000 windows, three alternating runs: 0.73 s vs
+// 0.56 s).
 func run4(x []float64, c, p, q []float64) {
 	c0, c1, c2, c3 := c[0], c[1], c[2], c[3]
 	a0, a1, a2, a3 := p[0], p[1], p[2], p[3]
@@ -118,30 +121,6 @@ func run4(x []float64, c, p, q []float64) {
 	}
 	p[0], p[1], p[2], p[3] = a0, a1, a2, a3
 	q[0], q[1], q[2], q[3] = b0, b1, b2, b3
-}
-
-// run8 is run4 for eight orders. Eight independent chains keep the
-// floating-point units busy where four leave them waiting on the latency of
-// each multiply-add chain; each step is written (x − s[n−2]) + c·s[n−1], so
-// the subtraction does not wait for the product.
-func run8(x []float64, c, p, q []float64) {
-	c0, c1, c2, c3, c4, c5, c6, c7 := c[0], c[1], c[2], c[3], c[4], c[5], c[6], c[7]
-	a0, a1, a2, a3, a4, a5, a6, a7 := p[0], p[1], p[2], p[3], p[4], p[5], p[6], p[7]
-	b0, b1, b2, b3, b4, b5, b6, b7 := q[0], q[1], q[2], q[3], q[4], q[5], q[6], q[7]
-	for _, v := range x {
-		t0 := (v - b0) + c0*a0
-		t1 := (v - b1) + c1*a1
-		t2 := (v - b2) + c2*a2
-		t3 := (v - b3) + c3*a3
-		t4 := (v - b4) + c4*a4
-		t5 := (v - b5) + c5*a5
-		t6 := (v - b6) + c6*a6
-		t7 := (v - b7) + c7*a7
-		b0, b1, b2, b3, b4, b5, b6, b7 = a0, a1, a2, a3, a4, a5, a6, a7
-		a0, a1, a2, a3, a4, a5, a6, a7 = t0, t1, t2, t3, t4, t5, t6, t7
-	}
-	p[0], p[1], p[2], p[3], p[4], p[5], p[6], p[7] = a0, a1, a2, a3, a4, a5, a6, a7
-	q[0], q[1], q[2], q[3], q[4], q[5], q[6], q[7] = b0, b1, b2, b3, b4, b5, b6, b7
 }
 
 // run3 is run4 for three orders.

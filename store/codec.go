@@ -61,42 +61,10 @@ func encodeRecord(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup) (
 // encodeRec appends r in the full form (recordVersion) or, with slim, in
 // the slim 3 s form (recordVersionSlim, codec3s.go).
 func encodeRec(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup, slim bool) ([]byte, error) {
-	no := len(s.Orders)
-	if len(r.Channels) != len(s.Channels) {
-		return dst, fmt.Errorf("%d channels, layout has %d: %w", len(r.Channels), len(s.Channels), ErrBadLayout)
+	if err := checkLayout(r, s); err != nil {
+		return dst, err
 	}
-	for i := range r.Channels {
-		h := r.Channels[i].H
-		if len(h) != no {
-			return dst, fmt.Errorf("channel %q: %d orders, layout has %d: %w", s.Channels[i].Name, len(h), no, ErrBadLayout)
-		}
-		for j := range h {
-			if h[j].H != s.Orders[j] {
-				return dst, fmt.Errorf("channel %q: order %d, layout has %d: %w", s.Channels[i].Name, h[j].H, s.Orders[j], ErrBadLayout)
-			}
-		}
-	}
-	if len(r.Phases) > 3 {
-		return dst, fmt.Errorf("%d phases: %w", len(r.Phases), ErrBadLayout)
-	}
-	var pres byte
-	if r.HasFreq10s {
-		pres |= hasFreq10s
-	}
-	for k, sq := range [2][]metrics.Seq{r.SeqV, r.SeqI} {
-		if len(sq) == 0 {
-			continue
-		}
-		if len(sq) != no {
-			return dst, fmt.Errorf("%d sequence orders, layout has %d: %w", len(sq), no, ErrBadLayout)
-		}
-		pres |= hasSeqV << k
-	}
-	// delta records carry totals without phases
-	deltaTotal := len(r.Phases) == 0 && s.Wiring == metrics.Delta && s.HasTotal()
-	if deltaTotal {
-		pres |= hasTotal
-	}
+	pres, deltaTotal := presence(r, s)
 	ver := byte(recordVersion)
 	if slim {
 		ver = recordVersionSlim
@@ -112,8 +80,85 @@ func encodeRec(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup, slim
 	if r.HasFreq10s {
 		b = appendF32(b, r.Freq10sHz)
 	}
+	b = appendChannels(b, r.Channels, slim)
+	b = appendPhases(b, r.Phases)
+	if len(r.Phases) > 0 || deltaTotal {
+		t := &r.Total
+		for _, v := range [...]float64{t.P, t.Q1, t.S, t.Se, t.Se1, t.Ve, t.Ie, t.PF, t.DPF, t.P1Pos, t.Q1Pos} {
+			b = appendF32(b, v)
+		}
+	}
+	for _, sq := range [2][]metrics.Seq{r.SeqV, r.SeqI} {
+		if slim && len(sq) > 0 {
+			sq = sq[:1] // the fundamental's only
+		}
+		for j := range sq {
+			b = appendF32(b, sq[j].Pos)
+			b = appendF32(b, sq[j].Neg)
+			b = appendF32(b, sq[j].Zero)
+		}
+	}
+	b = appendF32(b, r.UnbV)
+	b = appendF32(b, r.UnbI)
+	return appendCircuits(b, r, s)
+}
+
+// checkLayout returns an ErrBadLayout error unless r has s's channels, each
+// with s's orders in order, at most three phases, and sequences (when
+// present) over s's orders.
+func checkLayout(r *metrics.Record, s *metrics.Setup) error {
+	no := len(s.Orders)
+	if len(r.Channels) != len(s.Channels) {
+		return fmt.Errorf("%d channels, layout has %d: %w", len(r.Channels), len(s.Channels), ErrBadLayout)
+	}
 	for i := range r.Channels {
-		c := &r.Channels[i]
+		h := r.Channels[i].H
+		if len(h) != no {
+			return fmt.Errorf("channel %q: %d orders, layout has %d: %w", s.Channels[i].Name, len(h), no, ErrBadLayout)
+		}
+		for j := range h {
+			if h[j].H != s.Orders[j] {
+				return fmt.Errorf("channel %q: order %d, layout has %d: %w", s.Channels[i].Name, h[j].H, s.Orders[j], ErrBadLayout)
+			}
+		}
+	}
+	if len(r.Phases) > 3 {
+		return fmt.Errorf("%d phases: %w", len(r.Phases), ErrBadLayout)
+	}
+	for _, sq := range [2][]metrics.Seq{r.SeqV, r.SeqI} {
+		if len(sq) != 0 && len(sq) != no {
+			return fmt.Errorf("%d sequence orders, layout has %d: %w", len(sq), no, ErrBadLayout)
+		}
+	}
+	return nil
+}
+
+// presence returns the record's presence byte (the 10 s frequency, each
+// sequence, a delta circuit's totals without phases) and whether the
+// totals are stored for a delta record without phases.
+func presence(r *metrics.Record, s *metrics.Setup) (pres byte, deltaTotal bool) {
+	if r.HasFreq10s {
+		pres |= hasFreq10s
+	}
+	for k, sq := range [2][]metrics.Seq{r.SeqV, r.SeqI} {
+		if len(sq) > 0 {
+			pres |= hasSeqV << k
+		}
+	}
+	// delta records carry totals without phases
+	deltaTotal = len(r.Phases) == 0 && s.Wiring == metrics.Delta && s.HasTotal()
+	if deltaTotal {
+		pres |= hasTotal
+	}
+	return pres, deltaTotal
+}
+
+// appendChannels appends each channel's null flags, its stored quantities
+// (the quantity table's Out&Store rows, in table order) and its harmonics:
+// every order's RMS and phase, or in the slim form appendSlimHarmonics'.
+func appendChannels(b []byte, chans []metrics.ChannelValues, slim bool) []byte {
+	for i := range chans {
+		c := &chans[i]
 		var f byte
 		if c.H[0].Pct != c.H[0].Pct {
 			f |= chPctNull
@@ -136,26 +181,7 @@ func encodeRec(dst []byte, r *metrics.Record, lid uint16, s *metrics.Setup, slim
 			b = appendPhase(b, c.H[j].PhaseDeg)
 		}
 	}
-	b = appendPhases(b, r.Phases)
-	if len(r.Phases) > 0 || deltaTotal {
-		t := &r.Total
-		for _, v := range [...]float64{t.P, t.Q1, t.S, t.Se, t.Se1, t.Ve, t.Ie, t.PF, t.DPF, t.P1Pos, t.Q1Pos} {
-			b = appendF32(b, v)
-		}
-	}
-	for _, sq := range [2][]metrics.Seq{r.SeqV, r.SeqI} {
-		if slim && len(sq) > 0 {
-			sq = sq[:1] // the fundamental's only
-		}
-		for j := range sq {
-			b = appendF32(b, sq[j].Pos)
-			b = appendF32(b, sq[j].Neg)
-			b = appendF32(b, sq[j].Zero)
-		}
-	}
-	b = appendF32(b, r.UnbV)
-	b = appendF32(b, r.UnbI)
-	return appendCircuits(b, r, s)
+	return b
 }
 
 // reader consumes a byte slice; the first short read sets err and later reads return zero.

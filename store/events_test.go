@@ -6,6 +6,8 @@ import (
 	"testing"
 	"time"
 
+	bolt "go.etcd.io/bbolt"
+
 	"github.com/gridloupe/gridloupe/metrics/events"
 )
 
@@ -98,6 +100,56 @@ func TestEventsStored(t *testing.T) {
 		t.Fatalf("unknown id: %v, want ErrNoEvent", err)
 	}
 	checkBolt(t, db)
+}
+
+// TestEventLookupIsKeyed: among many events, Event finds each by its id
+// (which names the start to the microsecond, metrics/events.ID), including
+// two of different kinds in the same microsecond, without decoding the
+// others: a damaged record elsewhere in the bucket does not disturb it.
+func TestEventLookupIsKeyed(t *testing.T) {
+	t.Parallel()
+	db := openTest(t, Options{})
+	meta, at := testWave(64)
+	wave := EncodeWaveform(meta, 64, at)
+	base := time.Date(2026, 3, 1, 10, 0, 0, 123_456_789, time.UTC)
+	const n = 3000
+	var ids []string
+	for i := range n {
+		start := base.Add(time.Duration(i) * 1500 * time.Millisecond)
+		k := []events.Kind{events.Dip, events.Swell, events.Interruption}[i%3]
+		r := events.Record{Kind: k, ID: events.ID(k, start), Start: start, DurationS: float64(i)}
+		if _, err := db.PutEvent(r, wave, nil); err != nil {
+			t.Fatal(err)
+		}
+		ids = append(ids, r.ID)
+	}
+	// A second event in the same microsecond as the last one.
+	twin := events.Record{Kind: events.Dip, ID: events.ID(events.Dip, base.Add((n-1)*1500*time.Millisecond+300)),
+		Start: base.Add((n-1)*1500*time.Millisecond + 300), DurationS: -1}
+	if _, err := db.PutEvent(twin, nil, nil); err != nil {
+		t.Fatal(err)
+	}
+	// Damage a record between the first and the others.
+	err := db.bdb.Update(func(tx *bolt.Tx) error {
+		return tx.Bucket(bktEvents).Put(aggKey(nil, base.Add(time.Second), 1), []byte{9, 9})
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, i := range []int{0, 1, 2, n / 2, n - 2, n - 1} {
+		r, w, err := db.Event(ids[i])
+		if err != nil || r.ID != ids[i] || r.DurationS != float64(i) || len(w) != len(wave) {
+			t.Fatalf("Event(%s): %+v, %d bytes, %v", ids[i], r, len(w), err)
+		}
+	}
+	if r, _, err := db.Event(twin.ID); r.DurationS != -1 || !errors.Is(err, ErrNoWaveform) {
+		t.Fatalf("twin: %+v %v, want it, without a waveform", r, err)
+	}
+	for _, id := range []string{"dip-nope", "sag-20260301T100000.123456Z", events.ID(events.Dip, base.Add(time.Hour*1000))} {
+		if _, _, err := db.Event(id); !errors.Is(err, ErrNoEvent) {
+			t.Fatalf("Event(%q): %v, want ErrNoEvent", id, err)
+		}
+	}
 }
 
 // TestWaveformCap: waveforms beyond a quarter of the usable file are

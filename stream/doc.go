@@ -2,8 +2,9 @@
 // calibrates them, tracks the line frequency on the reference channel, cuts
 // gapless synchronized windows of 10 cycles (50 Hz systems) or 12 cycles
 // (60 Hz systems), accumulates per-window sums and harmonic phasors, and hands
-// each window to metrics.Compute. Intervals turns window records into 3 s and
-// 10 min aggregates on the clock rules of IEC 61000-4-30.
+// each window to metrics.Compute. Intervals turns window records into 3 s, 10
+// min and 2 h aggregates on the clock rules of IEC 61000-4-30, one
+// aggregation level type for all three.
 //
 // Sources, sinks and encoders live in sub-packages (stream/input,
 // stream/sim, stream/encode, ...). This package holds no electrical

@@ -237,3 +237,136 @@ func TestIntervalsEmitError(t *testing.T) {
 		t.Fatalf("Flush: %v, want the emit error", err)
 	}
 }
+
+// ivTenMin is a stored 10 min record of w windows starting at start, as a
+// restarted run reads it back from the store.
+func ivTenMin(s *metrics.Setup, start time.Time, w int, partial bool) *metrics.Record {
+	r := metrics.NewRecord(s)
+	r.Interval = metrics.Int10min
+	r.Start = start
+	r.DurationS = float64(w) * ivWinS
+	r.Samples = uint64(w * ivWinSamples)
+	r.FreqHz = 50
+	r.Channels[0].RMS = 230
+	if partial {
+		r.Flags |= metrics.FlagPartial
+	}
+	return r
+}
+
+// TestIntervalsTwoHour drives the 2 h level with window records (and, for
+// a restart, stored 10 min values) and checks every 2 h value emitted:
+// start, windows held and the flag partial.
+func TestIntervalsTwoHour(t *testing.T) {
+	t.Parallel()
+	s := setupOf(t, metrics.SinglePhase, 230, 0, false, []int{1},
+		metrics.Channel{Name: "v", Kind: metrics.Voltage, Phase: 'a'})
+	day := time.Date(2026, 3, 1, 0, 0, 0, 0, time.UTC)
+	const per10 = 3000 // windows of 0.2 s in 10 min
+	const per2hW = per2h * per10
+	oddHour := day.Add(time.Hour) // on a 1 h tick, not on a 2 h one
+	mid := day.Add(2*time.Hour + 37*time.Minute + 12200*time.Millisecond)
+	cases := []struct {
+		name    string
+		base    time.Time
+		n       int
+		seed    []*metrics.Record // stored 10 min values before base
+		skip    bool              // the 2 h value of base's interval is stored
+		suspend bool              // end with Suspend instead of Flush
+		want    []ivLevel         // every 2 h value, in order
+		src     string
+	}{
+		{
+			name: "start on an even UTC hour", base: day.Add(2 * time.Hour), n: per2hW + 5,
+			want: []ivLevel{
+				{metrics.Int2h, day.Add(2 * time.Hour), per2hW, false},
+				{metrics.Int2h, day.Add(4 * time.Hour), 5, true},
+			},
+			src: "IEC 61000-4-30 (2 h values on the clock, from twelve 10 min values, from memory); DESIGN \"Time\": a start on the boundary is not partial, the last at end of input is",
+		},
+		{
+			name: "start on an odd hour: the first closes at the next even hour", base: oddHour, n: per2hW/2 + per2hW,
+			want: []ivLevel{
+				{metrics.Int2h, oddHour, per2hW / 2, true},
+				{metrics.Int2h, day.Add(2 * time.Hour), per2hW, false},
+			},
+			src: "DESIGN \"Time\": 2 h intervals start on wall-clock ticks (even UTC hours, Tick since the epoch); the first after start-up is partial",
+		},
+		{
+			name: "start mid-interval", base: mid, n: 24839 + per2hW,
+			want: []ivLevel{
+				// 04:00:00 − 02:37:12.2 = 4967.8 s = 24839 windows; the last window ends on 06:00, so Flush closes a full one
+				{metrics.Int2h, mid, 24839, true},
+				{metrics.Int2h, mid.Add(24839 * ivWin), per2hW, false},
+			},
+			src: "DESIGN \"Time\": the first interval after start-up is partial, the second full; 4967.8 s / 0.2 s = 24839 windows",
+		},
+		{
+			name: "Flush emits the open 2 h value partial", base: day, n: 100,
+			want: []ivLevel{{metrics.Int2h, day, 100, true}},
+			src:  "DESIGN \"Time\": the last value when a replay's input ends is partial",
+		},
+		{
+			name: "Suspend keeps the open 2 h value back", base: day, n: per10 + 100, suspend: true,
+			want: nil,
+			src:  "Intervals.Suspend doc: the next run rebuilds the open 2 h value from the store",
+		},
+		{
+			name: "restart: stored 10 min values seed the interval", base: day.Add(44 * time.Minute), n: (120 - 44) * per10 / 10,
+			seed: []*metrics.Record{
+				ivTenMin(s, day, per10, false), ivTenMin(s, day.Add(10*time.Minute), per10, false),
+				ivTenMin(s, day.Add(20*time.Minute), per10, false), ivTenMin(s, day.Add(30*time.Minute), per10, false),
+				ivTenMin(s, day.Add(40*time.Minute), 1200, true), // the run stopped at 00:44
+			},
+			want: []ivLevel{
+				// 4 full + 1200 stored, then 00:44 → 02:00 of windows: 13 values in twelve slots
+				{metrics.Int2h, day, 4*per10 + 1200 + (120-44)*per10/10, true},
+			},
+			src: "DESIGN \"Time\": a restart mid-interval gives a partial value; the value closes with the last slot, not the twelfth record (common practice, no source)",
+		},
+		{
+			name: "restart in the last slot of a stored interval", base: day.Add(116 * time.Minute), n: 4*per10/10 + per10 + 10, skip: true,
+			want: []ivLevel{
+				{metrics.Int2h, day.Add(2 * time.Hour), per10 + 10, true}, // open at Flush
+			},
+			src: "DESIGN \"Time\" (one 2 h value per interval; common practice, no source): the stored interval gets no second value; the next opens on its tick",
+		},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			t.Parallel()
+			iv := NewIntervals(s, metrics.Int2h)
+			var got []ivLevel
+			emit := func(r *metrics.Record) error {
+				if r.Interval != metrics.Int2h {
+					t.Errorf("%v value emitted, only 2h asked for", r.Interval)
+				}
+				got = append(got, ivLevel{r.Interval, r.Start, int(r.Samples / ivWinSamples), r.Flags&metrics.FlagPartial != 0})
+				return nil
+			}
+			if tc.skip {
+				iv.SkipTwoHour(tc.base)
+			}
+			for _, r := range tc.seed {
+				if err := iv.Seed(r, emit); err != nil {
+					t.Fatal(err)
+				}
+			}
+			for _, r := range ivRecords(t, s, tc.base, tc.n) {
+				if err := iv.Add(r, emit); err != nil {
+					t.Fatal(err)
+				}
+			}
+			end := iv.Flush
+			if tc.suspend {
+				end = iv.Suspend
+			}
+			if err := end(emit); err != nil {
+				t.Fatal(err)
+			}
+			if fmt.Sprint(got) != fmt.Sprint(tc.want) {
+				t.Errorf("2 h values (%s):\ngot  %v\nwant %v", tc.src, got, tc.want)
+			}
+		})
+	}
+}

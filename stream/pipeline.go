@@ -116,30 +116,18 @@ type Pipeline struct {
 
 // New validates cfg and allocates every buffer the run needs.
 func New(cfg Config) (*Pipeline, error) {
+	if err := checkConfig(cfg); err != nil {
+		return nil, err
+	}
 	s := cfg.Setup
-	if s == nil || len(s.Channels) == 0 {
-		return nil, fmt.Errorf("%w: no channels", ErrConfig)
-	}
-	if !(cfg.SampleRate > 0) || math.IsInf(cfg.SampleRate, 0) {
-		return nil, fmt.Errorf("%w: sample rate %v Hz", ErrConfig, cfg.SampleRate)
-	}
-	if cfg.NominalHz != 50 && cfg.NominalHz != 60 {
-		return nil, fmt.Errorf("%w: nominal frequency %v Hz, want 50 or 60", ErrConfig, cfg.NominalHz)
-	}
-	if cfg.Cal != nil && len(cfg.Cal) != len(s.Channels) {
-		return nil, fmt.Errorf("%w: %d calibrations for %d channels", ErrConfig, len(cfg.Cal), len(s.Channels))
-	}
-	maxOrder := s.Orders[len(s.Orders)-1]
-	if float64(maxOrder)*cfg.NominalHz*measureHigh >= cfg.SampleRate/2 {
-		// still runs, but the top orders alias; config validation warns earlier
-		if cfg.Logger != nil {
-			cfg.Logger.Warn("sample rate too low for the highest order", "order", maxOrder, "sample_rate_hz", cfg.SampleRate)
-		}
-	}
 	p := &Pipeline{cfg: cfg, setup: s, fs: cfg.SampleRate, nomHz: cfg.NominalHz, nch: len(s.Channels), ref: s.Reference}
 	p.log = cfg.Logger
 	if p.log == nil {
 		p.log = slog.New(slog.DiscardHandler)
+	}
+	if maxOrder := s.Orders[len(s.Orders)-1]; float64(maxOrder)*cfg.NominalHz*measureHigh >= cfg.SampleRate/2 {
+		// still runs, but the top orders alias; config validation warns earlier
+		p.log.Warn("sample rate too low for the highest order", "order", maxOrder, "sample_rate_hz", cfg.SampleRate)
 	}
 	p.cycles = 10
 	if cfg.NominalHz == 60 {
@@ -158,6 +146,51 @@ func New(cfg Config) (*Pipeline, error) {
 	if bf <= 0 {
 		bf = 512
 	}
+	p.allocChannels(bf)
+	ex, err := newExact(cfg.SampleRate, p.cycles, p.nomHz*(1-trackRange), p.nch, s.Orders)
+	if err != nil {
+		return nil, fmt.Errorf("%w: %w", ErrConfig, err)
+	}
+	p.ex = ex
+	p.in.SumVI = make([]float64, len(s.Products))
+	p.rec = metrics.NewRecord(s)
+	p.trk = newTracker(cfg.SampleRate, cfg.NominalHz, p.lockV)
+	p.tenEnd = p.nextTenEnd(0)
+	p.trk.zc.setTen(p.tenEnd)
+	if err := p.initEvents(bf); err != nil {
+		return nil, err
+	}
+	p.startWindow()
+	return p, nil
+}
+
+// checkConfig returns an ErrConfig error naming the first setting New
+// cannot run with: no channels, a sample rate that is not a positive finite
+// number, a nominal frequency other than 50 or 60 Hz, or a calibration list
+// whose length is not the channel count.
+func checkConfig(cfg Config) error {
+	s := cfg.Setup
+	if s == nil || len(s.Channels) == 0 {
+		return fmt.Errorf("%w: no channels", ErrConfig)
+	}
+	if !(cfg.SampleRate > 0) || math.IsInf(cfg.SampleRate, 0) {
+		return fmt.Errorf("%w: sample rate %v Hz", ErrConfig, cfg.SampleRate)
+	}
+	if cfg.NominalHz != 50 && cfg.NominalHz != 60 {
+		return fmt.Errorf("%w: nominal frequency %v Hz, want 50 or 60", ErrConfig, cfg.NominalHz)
+	}
+	if cfg.Cal != nil && len(cfg.Cal) != len(s.Channels) {
+		return fmt.Errorf("%w: %d calibrations for %d channels", ErrConfig, len(cfg.Cal), len(s.Channels))
+	}
+	return nil
+}
+
+// allocChannels allocates the per-channel state for blocks of bf frames:
+// the raw block, the de-interleaved buffers, the calibration (scale 1 and
+// offset 0 where cfg.Cal gives none), the clip limits (±FullScale, or
+// infinite when it is 0) and the phasor sums.
+func (p *Pipeline) allocChannels(bf int) {
+	cfg, s := &p.cfg, p.setup
 	p.raw = make([]float64, bf*p.nch)
 	p.buf = make([][]float64, p.nch)
 	p.scale = make([]float64, p.nch)
@@ -180,21 +213,6 @@ func New(cfg Config) (*Pipeline, error) {
 		}
 		p.in.Ch[c].Phasors = make([]complex128, len(s.Orders))
 	}
-	ex, err := newExact(cfg.SampleRate, p.cycles, p.nomHz*(1-trackRange), p.nch, s.Orders)
-	if err != nil {
-		return nil, fmt.Errorf("%w: %w", ErrConfig, err)
-	}
-	p.ex = ex
-	p.in.SumVI = make([]float64, len(s.Products))
-	p.rec = metrics.NewRecord(s)
-	p.trk = newTracker(cfg.SampleRate, cfg.NominalHz, p.lockV)
-	p.tenEnd = p.nextTenEnd(0)
-	p.trk.zc.setTen(p.tenEnd)
-	if err := p.initEvents(bf); err != nil {
-		return nil, err
-	}
-	p.startWindow()
-	return p, nil
 }
 
 // nextTenEnd returns the sample index of the first 10 s wall-clock boundary

@@ -10,6 +10,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"runtime/pprof"
 	"strings"
 	"time"
 
@@ -72,6 +73,11 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 		return usagef("replay: want exactly one INPUT file, got %d", fs.NArg())
 	}
 	inPath := fs.Arg(0)
+	stopProfile, err := startCPUProfile()
+	if err != nil {
+		return err
+	}
+	defer stopProfile()
 	if *pcmFmt != "" {
 		if _, ok := pcm.ParseFormat(*pcmFmt); !ok {
 			return usagef("replay: --pcm %q: allowed are %s", *pcmFmt, strings.Join(pcm.FormatNames(), ", "))
@@ -141,6 +147,25 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 	}
 	return replayAnalyse(ctx, replayJob{cfg: cfg, setup: setup, cal: cal, rate: rate, base: base, iv: iv, format: fmtKind,
 		src: src, input: inPath, where: where, events: *eventsPath}, stdout, stderr)
+}
+
+// startCPUProfile writes a CPU profile of the replay to
+// $GRIDLOUPE_CPUPROFILE, if set (for speed investigations; see
+// DEVELOPERS.md). The returned function stops it.
+func startCPUProfile() (func(), error) {
+	path := os.Getenv("GRIDLOUPE_CPUPROFILE")
+	if path == "" {
+		return func() {}, nil
+	}
+	f, err := os.Create(path)
+	if err != nil {
+		return nil, fmt.Errorf("cpu profile: %w", err)
+	}
+	if err := pprof.StartCPUProfile(f); err != nil {
+		f.Close()
+		return nil, fmt.Errorf("cpu profile: %w", err)
+	}
+	return func() { pprof.StopCPUProfile(); f.Close() }, nil
 }
 
 // replayJob is one replay's analysis: an opened source and what to print.

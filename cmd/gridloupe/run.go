@@ -134,240 +134,96 @@ func newLogger(w io.Writer, format string, lvl slog.Level) *slog.Logger {
 	return slog.New(slog.NewTextHandler(w, opts))
 }
 
-// runDaemon wires the pieces and runs them until ctx ends or the source stops.
+// Daemon wiring constants: the figures runDaemon's steps would otherwise
+// carry as bare numbers.
+const (
+	// defaultEmbeddedAddr is where the embedded broker listens when
+	// mqtt.listen is empty: loopback, the standard MQTT port.
+	defaultEmbeddedAddr = "127.0.0.1:1883"
+	// recordsShareTenths is the part of store.max_size_mb, in tenths, the
+	// stored records may fill before run warns that retention will be
+	// trimmed; the rest is left to the outbox classes (store: classShare).
+	recordsShareTenths = 8
+	// simBlockFrames is how many frames the pipeline reads per call from
+	// the simulator (25 ms at its default 10 240 Hz); other sources use
+	// the pipeline's default (stream.Config.BlockFrames).
+	simBlockFrames = 256
+	// drainTimeout is how long a stopping gateway waits, at most, for the
+	// publisher to send what the last commit queued; drainPoll is how
+	// often it looks at the outbox meanwhile.
+	drainTimeout = 1500 * time.Millisecond
+	drainPoll    = 50 * time.Millisecond
+	// runFilterPeriod and runFilterWorst are the simulator's input-reactor
+	// wear cycle under run (see runFilterProfile).
+	runFilterPeriod = 6 * time.Hour
+	runFilterWorst  = 0.3
+)
+
+// runDaemon wires the pieces and runs them until ctx ends or the source
+// stops. Sinks first: store, publisher; then the source (STYLE.md §8);
+// teardown runs in the reverse order through the defers.
 func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr io.Writer) (err error) {
 	log := newLogger(stderr, o.logFormat, o.logLevel)
 	now := o.now
 	if now == nil {
 		now = time.Now
 	}
-	d := &daemon{}
 	setup, cal, err := setupFromConfig(cfg)
 	if err != nil {
 		return err
 	}
-	d.setup = setup
-	if cfg.Store.Path == "" {
-		return usagef("%s: store.path is required for run", cfg.Path)
+	if err := checkRunConfig(cfg); err != nil {
+		return err
 	}
-	if cfg.Source.Kind == "" {
-		return usagef("%s: source is required for run (kind: %s)", cfg.Path, strings.Join(config.SourceKinds(), ", "))
-	}
+	d := &daemon{setup: setup}
 
-	// Sinks first: store, publisher; then the source (STYLE.md §8).
-	if err := os.MkdirAll(filepath.Dir(cfg.Store.Path), 0o755); err != nil {
-		return fmt.Errorf("store: %w", err)
-	}
-	ret := map[metrics.Interval]time.Duration{}
-	for k, v := range cfg.Store.Retention {
-		if iv, ok := metrics.ParseInterval(k); ok {
-			ret[iv] = v
-		}
-	}
-	db, storeNotice, err := openRunStore(store.Options{Path: cfg.Store.Path, MaxSizeMB: cfg.Store.MaxSizeMB, Retention: ret,
-		Logger: log.With("component", "store"), Clock: now}, cfg.Store.OnDamage, now(), log)
+	db, storeNotice, err := openDaemonStore(cfg, setup, now, log)
 	if err != nil {
-		return fmt.Errorf("cannot open the store: %w", err)
+		return err
 	}
 	defer func() { err = errors.Join(err, db.Close()) }()
-	if err := db.SetLayout(setup); err != nil {
-		return fmt.Errorf("store: %w", err)
-	}
-	// The outbox classes' caps are shares of store.max_size_mb (store package: classShare).
-	if need := retentionBytes(setup, ret); need > int64(cfg.Store.MaxSizeMB)<<20*8/10 {
-		log.Warn("retention needs more room than store.max_size_mb: the oldest 3 s values will be trimmed before their retention ends",
-			"needed_mb", need>>20, "max_size_mb", cfg.Store.MaxSizeMB)
-	}
-
 	ev, err := loadAlarms(cfg, setup, db, log)
 	if err != nil {
 		return err
 	}
 
-	// Source.
 	src, err := openDaemonSource(ctx, cfg, setup, db, o, now, log)
 	if err != nil {
 		return err
 	}
 	defer src.close()
 	d.source, d.sim = src.source, src.sim
-	rate, endIsError, liveSrc, srcBase := src.rate, src.endIsError, src.live, src.base
-	if err := checkRate(cfg, rate); err != nil {
+	if err := checkRate(cfg, src.rate); err != nil {
 		return err
 	}
+	clk := newSampleClock(now, o.onRecord)
 
-	// One clock for every message's time: the sample clock (the newest
-	// record's end), the wall clock only before the first record.
-	var sampleNS atomic.Int64
-	sampleNow := func() time.Time {
-		if n := sampleNS.Load(); n != 0 {
-			return time.Unix(0, n).UTC()
-		}
-		return now()
+	var wg sync.WaitGroup // the publisher, export socket and watchdog goroutines
+	mq, err := startMQTT(cfg, o, db, storeNotice, clk.now, &wg, log)
+	if err != nil {
+		return err
 	}
-	onRecord := func(r *metrics.Record, active []string) {
-		sampleNS.Store(r.Start.Add(time.Duration(r.DurationS * float64(time.Second))).UnixNano())
-		if o.onRecord != nil {
-			o.onRecord(r, active)
-		}
-	}
+	defer mq.stop()
+	d.pub, d.brk = mq.pub, mq.brk
 
-	// MQTT: embedded broker and publisher.
-	pubCtx, stopPub := context.WithCancel(context.Background())
-	defer stopPub()
-	var wg sync.WaitGroup
-	base := ""
-	if cfg.MQTT.Broker != "" {
-		base = cfg.MQTT.Base
-		url := cfg.MQTT.Broker
-		pw, err := cfg.MQTT.Password()
-		if err != nil {
-			return usagef("%s: mqtt: %v", cfg.Path, err)
-		}
-		tlsCfg, err := mqttTLS(cfg)
-		if err != nil {
-			return err
-		}
-		user, pubTLS := cfg.MQTT.Username, tlsCfg
-		if url == config.BrokerEmbedded {
-			b, err := broker.Start(broker.Config{Addr: embeddedAddr(o, cfg), Username: cfg.MQTT.Username, Password: pw,
-				TLS: tlsCfg, Prefix: base, Logger: log})
-			if err != nil {
-				return fmt.Errorf("embedded broker: %w", err)
-			}
-			d.brk = b
-			defer b.Close()
-			// The gateway reaches its own broker on loopback with a login of
-			// its own: no certificate to match, the only publisher under base.
-			url, pubTLS = b.GatewayURL(), nil
-			user, pw = b.GatewayLogin()
-			log.Info("embedded MQTT broker listening", "addr", b.Addr())
-		}
-		pub, err := mqtt.New(mqtt.Config{Broker: url, ClientID: cfg.MQTT.ClientID, Username: user,
-			Password: pw, TLS: pubTLS, Base: base, Outbox: db, Logger: log, Now: sampleNow})
-		if err != nil {
-			return usagef("%s: mqtt: %v", cfg.Path, err)
-		}
-		d.pub = pub
-		if storeNotice != "" {
-			pub.SetNotice("store: " + storeNotice)
-		}
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			if err := pub.Run(pubCtx); err != nil {
-				log.Error("publisher stopped", "err", err)
-			}
-		}()
-	}
-	defer func() {
-		stopPub()
-		wg.Wait()
-	}()
-
-	var tele []metrics.Interval
-	for _, l := range cfg.MQTT.Telemetry {
-		if iv, ok := metrics.ParseInterval(l); ok {
-			tele = append(tele, iv)
-		}
-	}
-	var summ []metrics.Interval
-	for _, l := range cfg.MQTT.Summary {
-		if iv, ok := metrics.ParseInterval(l); ok {
-			summ = append(summ, iv)
-		}
-	}
-	teleQoS := map[metrics.Interval]byte{}
-	for l, q := range cfg.MQTT.TelemetryQoS {
-		if iv, ok := metrics.ParseInterval(l); ok {
-			teleQoS[iv] = byte(q)
-		}
-	}
-	pc := pipelineConfig(cfg, setup, cal, rate)
-	pc.Base = now().UTC()
-	if !srcBase.IsZero() {
-		pc.Base = srcBase
-	}
-	if d.sim != nil {
-		pc.Base = d.sim.Truth().Time
-	}
-	pc.Logger = log.With("component", "pipeline")
-	if cfg.Source.Kind == config.SourceSim {
-		pc.BlockFrames = 256
-	}
-	// Records carry clock_unsynced when their times come from an
-	// unsynchronised wall clock: a source paced in real time.
-	synced := func() bool { s, _ := sysclock.Synced(); return s }
-	if cfg.Source.Kind == config.SourceSim && cfg.Source.Speed == 1 {
-		pc.Unsynced = func() bool { return !synced() }
-	}
-	kick := func() {}
-	onStoreErr := func(error) {}
-	var publishHealth func(topic string, payload []byte)
-	if d.pub != nil {
-		kick = d.pub.Kick
-		publishHealth = d.pub.Direct
-		onStoreErr = func(err error) {
-			if err == nil {
-				d.pub.SetProblem("")
-				return
-			}
-			d.pub.SetProblem(gateway.ProblemText(err))
-		}
-	}
-	integ, err := startIntegration(cfg, setup, db, base, kick, func() live.Health { return daemonHealth(d, db) }, log)
+	integ, err := startIntegration(cfg, setup, db, mq.base, mq.kick(), func() live.Health { return daemonHealth(d, db) }, log)
 	if err != nil {
 		return err
 	}
 	defer integ.Close()
-	gw, err := gateway.New(gateway.Config{Pipeline: pc, Source: d.source, EndIsError: endIsError, Live: liveSrc,
-		Store: db, Alarms: ev, Telemetry: tele, TelemetryQoS: teleQoS, Summary: summ, Base: base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: kick,
-		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: synced, Logger: log.With("component", "gateway"),
-		OnRecord: integ.onRecord(onRecord), OnWindow: integ.onWindow, OnTransition: o.onTransition, OnEvent: integ.onEvent(o.onEvent), OnStoreError: onStoreErr, Notice: storeNotice, PublishHealth: publishHealth})
+	pc := daemonPipeline(cfg, setup, cal, src, now, log)
+	gw, err := newDaemonGateway(cfg, o, pc, src, db, ev, mq, integ, clk, storeNotice, now, log)
 	if err != nil {
 		return err
 	}
 	d.gw = gw
 
-	// Export socket for `gridloupe export` while this process holds the store.
-	expCtx, stopExp := context.WithCancel(context.Background())
-	wg.Add(1)
-	go func() {
-		defer wg.Done()
-		if err := gateway.ServeExport(expCtx, gateway.SocketPath(cfg.Store.Path), db, log); err != nil {
-			log.Warn("export socket unavailable", "err", err)
-		}
-	}()
-	defer stopExp()
-
-	// Service manager: ready, watchdog, stopping.
+	defer startExportSocket(cfg, db, &wg, log)()
 	sd := sdnotify.FromEnv()
 	_ = sd.Send("READY=1\nSTATUS=measuring")
-	if iv := sdnotify.WatchdogInterval(); iv > 0 {
-		wctx, stopW := context.WithCancel(ctx)
-		defer stopW()
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			t := time.NewTicker(iv)
-			defer t.Stop()
-			last := uint64(0)
-			for {
-				select {
-				case <-wctx.Done():
-					return
-				case <-t.C:
-					// only pet the watchdog while windows keep coming
-					if w := gw.Stats().Windows; w != last {
-						last = w
-						_ = sd.Send("WATCHDOG=1")
-					}
-				}
-			}
-		}()
-	}
+	defer startWatchdog(ctx, sd, gw, &wg)()
 	log.Info("gateway started", "site", cfg.Site, "gateway", cfg.Gateway, "source", cfg.Source.Kind,
-		"sample_rate_hz", rate, "store", cfg.Store.Path, "broker", cfg.MQTT.Broker)
+		"sample_rate_hz", src.rate, "store", cfg.Store.Path, "broker", cfg.MQTT.Broker)
 	if o.onReady != nil {
 		o.onReady(d)
 	}
@@ -375,27 +231,312 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	runErr := gw.Run(ctx)
 	_ = sd.Send("STOPPING=1")
 	writeHeapProfile(log)
+	logStopping(gw, log)
+	drainOutbox(mq.pub, db)
+	return runResult(runErr)
+}
+
+// checkRunConfig checks what run needs beyond a valid config: a store
+// path and a source.
+func checkRunConfig(cfg *config.Config) error {
+	if cfg.Store.Path == "" {
+		return usagef("%s: store.path is required for run", cfg.Path)
+	}
+	if cfg.Source.Kind == "" {
+		return usagef("%s: source is required for run (kind: %s)", cfg.Path, strings.Join(config.SourceKinds(), ", "))
+	}
+	return nil
+}
+
+// openDaemonStore opens (or, if damaged, replaces) the store at
+// store.path, sets its layout and warns when the retention periods need
+// more room than the records' share of store.max_size_mb. notice is what
+// a replaced store leaves for the status message.
+func openDaemonStore(cfg *config.Config, setup *metrics.Setup, now func() time.Time, log *slog.Logger) (db *store.DB, notice string, err error) {
+	if err := os.MkdirAll(filepath.Dir(cfg.Store.Path), 0o755); err != nil {
+		return nil, "", fmt.Errorf("store: %w", err)
+	}
+	ret := map[metrics.Interval]time.Duration{}
+	for k, v := range cfg.Store.Retention {
+		if iv, ok := metrics.ParseInterval(k); ok {
+			ret[iv] = v
+		}
+	}
+	db, notice, err = openRunStore(store.Options{Path: cfg.Store.Path, MaxSizeMB: cfg.Store.MaxSizeMB, Retention: ret,
+		Logger: log.With("component", "store"), Clock: now}, cfg.Store.OnDamage, now(), log)
+	if err != nil {
+		return nil, "", fmt.Errorf("cannot open the store: %w", err)
+	}
+	if err := db.SetLayout(setup); err != nil {
+		return nil, "", errors.Join(fmt.Errorf("store: %w", err), db.Close())
+	}
+	if need := retentionBytes(setup, ret); need > int64(cfg.Store.MaxSizeMB)<<20*recordsShareTenths/10 {
+		log.Warn("retention needs more room than store.max_size_mb: the oldest 3 s values will be trimmed before their retention ends",
+			"needed_mb", need>>20, "max_size_mb", cfg.Store.MaxSizeMB)
+	}
+	return db, notice, nil
+}
+
+// sampleClock is the one clock for every message's time: the sample
+// clock (the newest record's end), the wall clock only before the first
+// record.
+type sampleClock struct {
+	ns       atomic.Int64
+	wall     func() time.Time
+	onRecord func(r *metrics.Record, active []string) // the demo's hook, may be nil
+}
+
+func newSampleClock(wall func() time.Time, onRecord func(r *metrics.Record, active []string)) *sampleClock {
+	return &sampleClock{wall: wall, onRecord: onRecord}
+}
+
+// now is the newest record's end, or the wall clock before the first one.
+func (c *sampleClock) now() time.Time {
+	if n := c.ns.Load(); n != 0 {
+		return time.Unix(0, n).UTC()
+	}
+	return c.wall()
+}
+
+// record advances the clock to r's end and passes r on to the hook.
+func (c *sampleClock) record(r *metrics.Record, active []string) {
+	c.ns.Store(r.Start.Add(time.Duration(r.DurationS * float64(time.Second))).UnixNano())
+	if c.onRecord != nil {
+		c.onRecord(r, active)
+	}
+}
+
+// daemonMQTT is the running MQTT side: the publisher (nil without
+// mqtt.broker) and the embedded broker (nil unless mqtt.broker is
+// "embedded").
+type daemonMQTT struct {
+	pub  *mqtt.Publisher
+	brk  *broker.Broker
+	base string // topic base; "" without MQTT
+	stop func() // stops the publisher, waits for the run's goroutines, closes the broker
+}
+
+// kick wakes the publisher after a commit; a no-op without MQTT.
+func (m *daemonMQTT) kick() func() {
+	if m.pub == nil {
+		return func() {}
+	}
+	return m.pub.Kick
+}
+
+// startMQTT starts the embedded broker, if configured, and the publisher,
+// which runs in a goroutine on wg until stop. Without mqtt.broker it
+// starts nothing.
+func startMQTT(cfg *config.Config, o daemonOptions, db *store.DB, storeNotice string, now func() time.Time,
+	wg *sync.WaitGroup, log *slog.Logger) (*daemonMQTT, error) {
+	pubCtx, stopPub := context.WithCancel(context.Background())
+	m := &daemonMQTT{}
+	m.stop = func() {
+		stopPub()
+		wg.Wait()
+		if m.brk != nil {
+			m.brk.Close()
+		}
+	}
+	if cfg.MQTT.Broker == "" {
+		return m, nil
+	}
+	fail := func(err error) (*daemonMQTT, error) { m.stop(); return nil, err }
+	m.base = cfg.MQTT.Base
+	url := cfg.MQTT.Broker
+	pw, err := cfg.MQTT.Password()
+	if err != nil {
+		return fail(usagef("%s: mqtt: %v", cfg.Path, err))
+	}
+	tlsCfg, err := mqttTLS(cfg)
+	if err != nil {
+		return fail(err)
+	}
+	user, pubTLS := cfg.MQTT.Username, tlsCfg
+	if url == config.BrokerEmbedded {
+		b, err := broker.Start(broker.Config{Addr: embeddedAddr(o, cfg), Username: cfg.MQTT.Username, Password: pw,
+			TLS: tlsCfg, Prefix: m.base, Logger: log})
+		if err != nil {
+			return fail(fmt.Errorf("embedded broker: %w", err))
+		}
+		m.brk = b
+		// The gateway reaches its own broker on loopback with a login of
+		// its own: no certificate to match, the only publisher under base.
+		url, pubTLS = b.GatewayURL(), nil
+		user, pw = b.GatewayLogin()
+		log.Info("embedded MQTT broker listening", "addr", b.Addr())
+	}
+	pub, err := mqtt.New(mqtt.Config{Broker: url, ClientID: cfg.MQTT.ClientID, Username: user,
+		Password: pw, TLS: pubTLS, Base: m.base, Outbox: db, Logger: log, Now: now})
+	if err != nil {
+		return fail(usagef("%s: mqtt: %v", cfg.Path, err))
+	}
+	m.pub = pub
+	if storeNotice != "" {
+		pub.SetNotice("store: " + storeNotice)
+	}
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		if err := pub.Run(pubCtx); err != nil {
+			log.Error("publisher stopped", "err", err)
+		}
+	}()
+	return m, nil
+}
+
+// daemonPipeline is the pipeline configuration of run: the shared wiring
+// (pipelineConfig) plus where time starts and when records are flagged
+// clock_unsynced.
+func daemonPipeline(cfg *config.Config, setup *metrics.Setup, cal []stream.Cal, src *daemonSource,
+	now func() time.Time, log *slog.Logger) stream.Config {
+	pc := pipelineConfig(cfg, setup, cal, src.rate)
+	pc.Base = now().UTC()
+	if !src.base.IsZero() {
+		pc.Base = src.base
+	}
+	if src.sim != nil {
+		pc.Base = src.sim.Truth().Time
+	}
+	pc.Logger = log.With("component", "pipeline")
+	if cfg.Source.Kind == config.SourceSim {
+		pc.BlockFrames = simBlockFrames
+	}
+	// Records carry clock_unsynced when their times come from an
+	// unsynchronised wall clock: a source paced in real time.
+	if cfg.Source.Kind == config.SourceSim && cfg.Source.Speed == 1 {
+		pc.Unsynced = func() bool { return !clockSynced() }
+	}
+	return pc
+}
+
+// clockSynced reports whether the system clock is synchronised (false
+// when that cannot be told).
+func clockSynced() bool { s, _ := sysclock.Synced(); return s }
+
+// newDaemonGateway builds the gateway core from the opened pieces.
+func newDaemonGateway(cfg *config.Config, o daemonOptions, pc stream.Config, src *daemonSource, db *store.DB,
+	ev *alarm.Evaluator, mq *daemonMQTT, integ *integration, clk *sampleClock, storeNotice string,
+	now func() time.Time, log *slog.Logger) (*gateway.Gateway, error) {
+	onStoreErr := func(error) {}
+	var publishHealth func(topic string, payload []byte)
+	if mq.pub != nil {
+		publishHealth = mq.pub.Direct
+		onStoreErr = func(err error) {
+			if err == nil {
+				mq.pub.SetProblem("")
+				return
+			}
+			mq.pub.SetProblem(gateway.ProblemText(err))
+		}
+	}
+	return gateway.New(gateway.Config{Pipeline: pc, Source: src.source, EndIsError: src.endIsError, Live: src.live,
+		Store: db, Alarms: ev, Telemetry: parseLevels(cfg.MQTT.Telemetry), TelemetryQoS: parseLevelQoS(cfg.MQTT.TelemetryQoS),
+		Summary: parseLevels(cfg.MQTT.Summary), Base: mq.base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: mq.kick(),
+		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: clockSynced, Logger: log.With("component", "gateway"),
+		OnRecord: integ.onRecord(clk.record), OnWindow: integ.onWindow, OnTransition: o.onTransition,
+		OnEvent: integ.onEvent(o.onEvent), OnStoreError: onStoreErr, Notice: storeNotice, PublishHealth: publishHealth})
+}
+
+// parseLevels is the aggregation levels named in a config list ("3s",
+// "10min", "2h"); config validation has rejected any other name.
+func parseLevels(names []string) []metrics.Interval {
+	var ivs []metrics.Interval
+	for _, l := range names {
+		if iv, ok := metrics.ParseInterval(l); ok {
+			ivs = append(ivs, iv)
+		}
+	}
+	return ivs
+}
+
+// parseLevelQoS is mqtt.telemetry_qos keyed by aggregation level.
+func parseLevelQoS(byName map[string]int) map[metrics.Interval]byte {
+	q := map[metrics.Interval]byte{}
+	for l, v := range byName {
+		if iv, ok := metrics.ParseInterval(l); ok {
+			q[iv] = byte(v)
+		}
+	}
+	return q
+}
+
+// startExportSocket serves `gridloupe export` on the store's socket while
+// this process holds the store; the returned func stops it.
+func startExportSocket(cfg *config.Config, db *store.DB, wg *sync.WaitGroup, log *slog.Logger) (stop func()) {
+	ctx, stop := context.WithCancel(context.Background())
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		if err := gateway.ServeExport(ctx, gateway.SocketPath(cfg.Store.Path), db, log); err != nil {
+			log.Warn("export socket unavailable", "err", err)
+		}
+	}()
+	return stop
+}
+
+// startWatchdog pets the service manager's watchdog, when it set one,
+// while windows keep coming; the returned func stops it.
+func startWatchdog(ctx context.Context, sd sdnotify.Notifier, gw *gateway.Gateway, wg *sync.WaitGroup) (stop func()) {
+	iv := sdnotify.WatchdogInterval()
+	if iv <= 0 {
+		return func() {}
+	}
+	wctx, stop := context.WithCancel(ctx)
+	wg.Add(1)
+	go func() {
+		defer wg.Done()
+		t := time.NewTicker(iv)
+		defer t.Stop()
+		last := uint64(0)
+		for {
+			select {
+			case <-wctx.Done():
+				return
+			case <-t.C:
+				if w := gw.Stats().Windows; w != last {
+					last = w
+					_ = sd.Send("WATCHDOG=1")
+				}
+			}
+		}
+	}()
+	return stop
+}
+
+// logStopping logs the run's totals.
+func logStopping(gw *gateway.Gateway, log *slog.Logger) {
 	st := gw.Stats()
 	log.Info("gateway stopping", "windows", st.Windows, "aggregates", st.Aggregates, "stored", st.Stored,
 		"alarm_transitions", st.Transitions, "queued", st.Queued)
-	// Give the publisher a moment to send what the last commit queued.
-	if d.pub != nil {
-		deadline := time.Now().Add(1500 * time.Millisecond)
-		for time.Now().Before(deadline) && d.pub.Connected() {
-			if p, _ := db.Pending(0, 1); len(p) == 0 {
-				break
-			}
-			time.Sleep(50 * time.Millisecond)
-		}
+}
+
+// drainOutbox gives a connected publisher up to drainTimeout to send what
+// the last commit queued; nil pub (no MQTT) returns at once.
+func drainOutbox(pub *mqtt.Publisher, db *store.DB) {
+	if pub == nil {
+		return
 	}
-	if runErr != nil {
-		// Returned, not also logged: main prints it once (STYLE.md §4).
-		if errors.Is(runErr, gateway.ErrSourceEnded) || errors.Is(runErr, input.ErrData) || errors.Is(runErr, stream.ErrSource) {
-			return fmt.Errorf("source stopped: %w", runErr)
+	deadline := time.Now().Add(drainTimeout)
+	for time.Now().Before(deadline) && pub.Connected() {
+		if p, _ := db.Pending(0, 1); len(p) == 0 {
+			return
 		}
-		return runErr
+		time.Sleep(drainPoll)
 	}
-	return nil
+}
+
+// runResult is run's error for how the gateway stopped: nil after a
+// signal or a clean end, a source failure marked as such. It is
+// returned, not also logged: main prints it once (STYLE.md §4).
+func runResult(runErr error) error {
+	if runErr == nil {
+		return nil
+	}
+	if errors.Is(runErr, gateway.ErrSourceEnded) || errors.Is(runErr, input.ErrData) || errors.Is(runErr, stream.ErrSource) {
+		return fmt.Errorf("source stopped: %w", runErr)
+	}
+	return runErr
 }
 
 // embeddedAddr is where the embedded broker listens: mqtt.listen, else
@@ -407,7 +548,7 @@ func embeddedAddr(o daemonOptions, cfg *config.Config) string {
 	if cfg.MQTT.Listen != "" {
 		return cfg.MQTT.Listen
 	}
-	return "127.0.0.1:1883"
+	return defaultEmbeddedAddr
 }
 
 func mqttTLS(cfg *config.Config) (*tls.Config, error) {
@@ -474,10 +615,11 @@ func retentionBytes(s *metrics.Setup, ret map[metrics.Interval]time.Duration) in
 }
 
 // runFilterProfile is how the simulator's input reactor wears and recovers
-// under run: a 6 h cycle, at worst 30 % of its filtering lost (the demo
-// uses a faster cycle so alarms raise and clear within a minute).
+// under run: a runFilterPeriod (6 h) cycle, at worst runFilterWorst (30 %)
+// of its filtering lost (the demo uses a faster cycle so alarms raise and
+// clear within a minute).
 func runFilterProfile() sim.FilterProfile {
-	return sim.FilterProfile{Period: 6 * time.Hour, Worst: 0.3}
+	return sim.FilterProfile{Period: runFilterPeriod, Worst: runFilterWorst}
 }
 
 // daemonSource is the opened source of run and what the gateway needs to

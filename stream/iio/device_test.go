@@ -293,3 +293,82 @@ func TestDeviceRestoredOnPanic(t *testing.T) {
 		t.Errorf("in_voltage3_en = %q after the panic, want 1 restored", got)
 	}
 }
+
+// rateDevice turns the fake device's sampling_frequency into a FIFO served
+// by a goroutine that plays a driver which rounds a written rate to one it
+// supports: it takes the write, then answers the read-back with answer.
+// written receives what the source wrote.
+func rateDevice(t *testing.T, dir, answer string) (written chan string) {
+	t.Helper()
+	p := filepath.Join(dir, "sampling_frequency")
+	if err := os.Remove(p); err != nil {
+		t.Fatal(err)
+	}
+	if err := syscall.Mkfifo(p, 0o600); err != nil {
+		t.Skip("no FIFOs here:", err)
+	}
+	written = make(chan string, 1)
+	go func() {
+		r, err := os.Open(p) // waits for the source's write
+		if err != nil {
+			written <- "<" + err.Error() + ">"
+			return
+		}
+		b, _ := io.ReadAll(r)
+		r.Close()
+		written <- strings.TrimSpace(string(b))
+		w, err := os.OpenFile(p, os.O_WRONLY, 0) // waits for the read-back
+		if err != nil {
+			return
+		}
+		w.WriteString(answer + "\n")
+		w.Close()
+	}()
+	return written
+}
+
+// TestDeviceRateReadBack: a driver may round a written sampling frequency
+// to one its clock divider supports (sysfs-bus-iio, sampling_frequency:
+// the value read back is the one in use). Within 0.1 % of the configured
+// rate the source runs at the rate read back; further off, Open refuses
+// with the two rates named (README "Live inputs: a Linux IIO ADC",
+// sample_rate_hz).
+func TestDeviceRateReadBack(t *testing.T) {
+	cases := []struct {
+		name, answer string
+		want         float64 // rate in use; 0 = Open must fail
+		wantErr      string
+	}{
+		{"rounded within 0.1 %", "10245", 10245, ""},           // 0.049 % off: accepted
+		{"rounded exactly", "10240.000", 10240, ""},            // same rate, another spelling
+		{"divider too coarse", "10000", 0, "runs at 10000 Hz"}, // 2.3 % off
+		{"just over 0.1 %", "10251", 0, "more than 0.1 % off"}, // 0.107 % off
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			sysfs, dev := fakeTree(t, func(p string) {
+				if err := os.WriteFile(p, nil, 0o644); err != nil {
+					t.Fatal(err)
+				}
+			})
+			written := rateDevice(t, filepath.Join(sysfs, "iio:device0"), tc.answer)
+			s, err := Open(Config{Device: "dc2-adc", Channels: []string{"voltage0"}, SampleRate: 10240, Sysfs: sysfs, Dev: dev})
+			if got := <-written; got != "10240" {
+				t.Errorf("wrote %q to sampling_frequency, want 10240", got)
+			}
+			if tc.want == 0 {
+				if err == nil || !errors.Is(err, ErrDevice) || !strings.Contains(err.Error(), tc.wantErr) || !strings.Contains(err.Error(), "wrote 10240 Hz") {
+					t.Fatalf("Open: %v, want ErrDevice naming both rates and %q", err, tc.wantErr)
+				}
+				return
+			}
+			if err != nil {
+				t.Fatalf("Open: %v", err)
+			}
+			defer s.Close()
+			if got := s.SampleRate(); got != tc.want {
+				t.Errorf("SampleRate = %v, want the %v Hz read back", got, tc.want)
+			}
+		})
+	}
+}

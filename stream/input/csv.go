@@ -197,19 +197,36 @@ func (c *CSV) readHeader(want []string) error {
 	if err != nil {
 		return err
 	}
-	hl := clampInt(c.lineNo)
-	herr := func(col int, format string, a ...any) error {
-		return &HeaderError{File: c.path, Line: hl, Col: col, Msg: fmt.Sprintf(format, a...)}
+	at, err := c.parseHeader(b)
+	if err != nil {
+		return err
 	}
+	if err := c.mapChannels(want, at); err != nil {
+		return err
+	}
+	c.line, c.off = c.lineNo, c.readOff
+	return nil
+}
+
+// headerErr returns the HeaderError of the header row (the line just read)
+// at column col (1-based; 0 = the whole row).
+func (c *CSV) headerErr(col int, format string, a ...any) error {
+	return &HeaderError{File: c.path, Line: clampInt(c.lineNo), Col: col, Msg: fmt.Sprintf(format, a...)}
+}
+
+// parseHeader splits the header row b into c.cols (names trimmed of blanks
+// and of one pair of double quotes) and returns each name's column index.
+// It refuses bare CRs, ';' or tab separators, empty or duplicate names.
+func (c *CSV) parseHeader(b []byte) (map[string]int, error) {
 	if i := bytes.IndexByte(b, '\r'); i >= 0 {
-		return herr(0, "bare carriage return (CR) inside the line: use LF or CRLF line ends")
+		return nil, c.headerErr(0, "bare carriage return (CR) inside the line: use LF or CRLF line ends")
 	}
 	if bytes.IndexByte(b, ',') < 0 {
 		if i := bytes.IndexByte(b, ';'); i >= 0 {
-			return herr(0, "header row is separated by ';': comma-separated only, with '.' decimals")
+			return nil, c.headerErr(0, "header row is separated by ';': comma-separated only, with '.' decimals")
 		}
 		if i := bytes.IndexByte(b, '\t'); i >= 0 {
-			return herr(0, "header row is separated by tabs: comma-separated only, with '.' decimals")
+			return nil, c.headerErr(0, "header row is separated by tabs: comma-separated only, with '.' decimals")
 		}
 	}
 	fields := strings.Split(string(b), ",")
@@ -224,21 +241,29 @@ func (c *CSV) readHeader(want []string) error {
 		named = named || f != ""
 	}
 	if !named {
-		return herr(0, "empty header: the header row holds no column names")
+		return nil, c.headerErr(0, "empty header: the header row holds no column names")
 	}
 	at := make(map[string]int, len(c.cols))
 	for i, name := range c.cols {
 		switch {
 		case name == "":
-			return herr(i+1, "column %d has no name", i+1)
+			return nil, c.headerErr(i+1, "column %d has no name", i+1)
 		case strings.ContainsAny(name, ";\t"):
-			return herr(i+1, "column name %q holds ';' or a tab: comma-separated only, with '.' decimals", name)
+			return nil, c.headerErr(i+1, "column name %q holds ';' or a tab: comma-separated only, with '.' decimals", name)
 		}
 		if j, dup := at[name]; dup {
-			return herr(i+1, "column %q appears twice (columns %d and %d)", name, j+1, i+1)
+			return nil, c.headerErr(i+1, "column %q appears twice (columns %d and %d)", name, j+1, i+1)
 		}
 		at[name] = i
 	}
+	return at, nil
+}
+
+// mapChannels sets c.hasT, c.chOf (each column's channel index, colTime or
+// colSkip) and c.extra (the unrequested columns) from the requested channels
+// want and the header's column indices at. A missing channel's error lists
+// the columns found and a hint.
+func (c *CSV) mapChannels(want []string, at map[string]int) error {
 	c.hasT = c.cols[0] == timeColumn
 	c.chOf = make([]int, len(c.cols))
 	for i := range c.chOf {
@@ -250,7 +275,7 @@ func (c *CSV) readHeader(want []string) error {
 	var missing []string
 	for k, name := range want {
 		if name == timeColumn && c.hasT {
-			return herr(1, "channel %q: the first column t is the time in seconds and cannot be a channel", name)
+			return c.headerErr(1, "channel %q: the first column t is the time in seconds and cannot be a channel", name)
 		}
 		i, ok := at[name]
 		if !ok {
@@ -258,19 +283,18 @@ func (c *CSV) readHeader(want []string) error {
 			continue
 		}
 		if c.chOf[i] != colSkip {
-			return herr(i+1, "channel %q is requested twice", name)
+			return c.headerErr(i+1, "channel %q is requested twice", name)
 		}
 		c.chOf[i] = k
 	}
 	if len(missing) > 0 {
-		return herr(0, "%s (columns found: %s)%s", missingText(missing), strings.Join(c.cols, ", "), headerHint(c.cols, missing))
+		return c.headerErr(0, "%s (columns found: %s)%s", missingText(missing), strings.Join(c.cols, ", "), headerHint(c.cols, missing))
 	}
 	for i, k := range c.chOf {
 		if k == colSkip {
 			c.extra = append(c.extra, c.cols[i])
 		}
 	}
-	c.line, c.off = c.lineNo, c.readOff
 	return nil
 }
 

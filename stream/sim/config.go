@@ -117,40 +117,67 @@ func DefaultConfig() Config {
 
 func finite(v float64) bool { return !math.IsNaN(v) && !math.IsInf(v, 0) }
 
-// normalize fills defaults into a copy of cfg and validates it.
+// normalize fills defaults into a copy of cfg and validates it: the
+// ratings, the channels, the dips, then the pacing functions.
 func normalize(cfg Config) (Config, error) {
-	bad := func(field string, v any, why string) error {
-		return fmt.Errorf("sim: %s = %v: %s: %w", field, v, why, ErrConfig)
+	if err := normalizeRatings(&cfg); err != nil {
+		return cfg, err
 	}
+	chans, err := normalizeChannels(cfg.Channels)
+	if err != nil {
+		return cfg, err
+	}
+	cfg.Channels = chans
+	if cfg.Dips, err = normalizeDips(cfg.Dips); err != nil {
+		return cfg, err
+	}
+	if cfg.Sleep == nil {
+		cfg.Sleep = time.Sleep
+	}
+	if cfg.Now == nil {
+		cfg.Now = time.Now
+	}
+	return cfg, nil
+}
+
+// bad returns the ErrConfig of a field set to v, and why v is refused.
+func bad(field string, v any, why string) error {
+	return fmt.Errorf("sim: %s = %v: %s: %w", field, v, why, ErrConfig)
+}
+
+// normalizeRatings fills the defaults of, and checks, the scalar settings:
+// frequency, sample rate, voltage, IL, Isc, the neutral's 3rd, Speed and the
+// filter profile.
+func normalizeRatings(cfg *Config) error {
 	if cfg.FrequencyHz == 0 {
 		cfg.FrequencyHz = DefaultFrequency
 	}
 	if !finite(cfg.FrequencyHz) || cfg.FrequencyHz < 40 || cfg.FrequencyHz > 70 {
-		return cfg, bad("FrequencyHz", cfg.FrequencyHz, "want 40..70 Hz")
+		return bad("FrequencyHz", cfg.FrequencyHz, "want 40..70 Hz")
 	}
 	if cfg.SampleRate == 0 {
 		cfg.SampleRate = DefaultSampleRate
 	}
 	if !finite(cfg.SampleRate) || cfg.SampleRate <= 20*cfg.FrequencyHz || cfg.SampleRate > 1e7 {
-		return cfg, bad("SampleRate", cfg.SampleRate, "want more than 20 samples per cycle and at most 10 MHz")
+		return bad("SampleRate", cfg.SampleRate, "want more than 20 samples per cycle and at most 10 MHz")
 	}
 	if cfg.VoltageV == 0 {
 		cfg.VoltageV = DefaultVoltage
 	}
 	if !finite(cfg.VoltageV) || cfg.VoltageV <= 0 || cfg.VoltageV > 1e6 {
-		return cfg, bad("VoltageV", cfg.VoltageV, "want a positive voltage")
+		return bad("VoltageV", cfg.VoltageV, "want a positive voltage")
 	}
 	if cfg.ILA == 0 {
 		cfg.ILA = defaultRatedVA / (3 * cfg.VoltageV)
 	}
 	if !finite(cfg.ILA) || cfg.ILA <= 0 || cfg.ILA > 1e6 {
-		return cfg, bad("ILA", cfg.ILA, "want a positive current")
+		return bad("ILA", cfg.ILA, "want a positive current")
 	}
 	if cfg.IscA == 0 {
 		cfg.IscA = defaultIscPerIL * cfg.ILA
 	}
 	if !finite(cfg.IscA) || cfg.IscA < cfg.ILA || cfg.IscA > 1e9 {
-		return cfg, bad("IscA", cfg.IscA, "want a current at least ILA")
+		return bad("IscA", cfg.IscA, "want a current at least ILA")
 	}
 	switch {
 	case cfg.NeutralI3A == 0:
@@ -158,45 +185,51 @@ func normalize(cfg Config) (Config, error) {
 	case cfg.NeutralI3A < 0:
 		cfg.NeutralI3A = 0
 	case !finite(cfg.NeutralI3A) || cfg.NeutralI3A > cfg.ILA:
-		return cfg, bad("NeutralI3A", cfg.NeutralI3A, "want at most ILA")
+		return bad("NeutralI3A", cfg.NeutralI3A, "want at most ILA")
 	}
 	if !finite(cfg.Speed) || cfg.Speed < 0 {
-		return cfg, bad("Speed", cfg.Speed, "want 0 (as fast as possible) or a positive factor")
+		return bad("Speed", cfg.Speed, "want 0 (as fast as possible) or a positive factor")
 	}
 	if cfg.Filter.Period < 0 {
-		return cfg, bad("Filter.Period", cfg.Filter.Period, "want ≥ 0")
+		return bad("Filter.Period", cfg.Filter.Period, "want ≥ 0")
 	}
 	if !finite(cfg.Filter.Worst) || cfg.Filter.Worst < 0 || cfg.Filter.Worst > 1 {
-		return cfg, bad("Filter.Worst", cfg.Filter.Worst, "want 0..1")
+		return bad("Filter.Worst", cfg.Filter.Worst, "want 0..1")
 	}
-	if cfg.Channels == nil {
-		cfg.Channels = DefaultChannels()
+	return nil
+}
+
+// normalizeChannels returns a copy of chans with Scale and Share defaulted
+// (nil = DefaultChannels), after checking names, kinds and phases.
+func normalizeChannels(in []Chan) ([]Chan, error) {
+	if in == nil {
+		in = DefaultChannels()
 	}
-	if len(cfg.Channels) == 0 {
-		return cfg, bad("Channels", "[]", "want at least one channel")
+	if len(in) == 0 {
+		return nil, bad("Channels", "[]", "want at least one channel")
 	}
-	chans := make([]Chan, len(cfg.Channels))
+	chans := make([]Chan, len(in))
 	seen := make(map[string]bool, len(chans))
-	for i, c := range cfg.Channels {
+	for i, c := range in {
 		field := fmt.Sprintf("Channels[%d]", i)
 		if c.Name == "" || seen[c.Name] {
-			return cfg, bad(field+".Name", fmt.Sprintf("%q", c.Name), "want a unique non-empty name")
+			return nil, bad(field+".Name", fmt.Sprintf("%q", c.Name), "want a unique non-empty name")
 		}
 		seen[c.Name] = true
 		switch c.Kind {
 		case metrics.Voltage:
 			if c.Phase != 'a' && c.Phase != 'b' && c.Phase != 'c' {
-				return cfg, bad(field+".Phase", fmt.Sprintf("%q", c.Phase), "a voltage wants a, b or c")
+				return nil, bad(field+".Phase", fmt.Sprintf("%q", c.Phase), "a voltage wants a, b or c")
 			}
 			if c.To != 0 && (c.To < 'a' || c.To > 'c' || c.To == c.Phase) {
-				return cfg, bad(field+".To", fmt.Sprintf("%q", c.To), "a line-to-line voltage wants a second phase a, b or c other than Phase")
+				return nil, bad(field+".To", fmt.Sprintf("%q", c.To), "a line-to-line voltage wants a second phase a, b or c other than Phase")
 			}
 		case metrics.Current:
 			if c.Phase != 'a' && c.Phase != 'b' && c.Phase != 'c' && c.Phase != 'n' {
-				return cfg, bad(field+".Phase", fmt.Sprintf("%q", c.Phase), "a current wants a, b, c or n")
+				return nil, bad(field+".Phase", fmt.Sprintf("%q", c.Phase), "a current wants a, b, c or n")
 			}
 		default:
-			return cfg, bad(field+".Kind", c.Kind, "want voltage or current")
+			return nil, bad(field+".Kind", c.Kind, "want voltage or current")
 		}
 		if c.Scale == 0 {
 			c.Scale = 1
@@ -205,42 +238,40 @@ func normalize(cfg Config) (Config, error) {
 			c.Share = 1
 		}
 		if !finite(c.Share) || c.Share < 0 || c.Share > 1 {
-			return cfg, bad(field+".Share", c.Share, "want a fraction of the load current in (0, 1]")
+			return nil, bad(field+".Share", c.Share, "want a fraction of the load current in (0, 1]")
 		}
 		if !finite(c.Scale) || !finite(c.Offset) {
-			return cfg, bad(field+".Scale/Offset", fmt.Sprintf("%v/%v", c.Scale, c.Offset), "want finite numbers")
+			return nil, bad(field+".Scale/Offset", fmt.Sprintf("%v/%v", c.Scale, c.Offset), "want finite numbers")
 		}
 		chans[i] = c
 	}
-	cfg.Channels = chans
-	dips := make([]Dip, len(cfg.Dips))
-	for i, d := range cfg.Dips {
+	return chans, nil
+}
+
+// normalizeDips returns a copy of in with Phases defaulted ("" = "abc"),
+// after checking times, durations, depths and phase letters.
+func normalizeDips(in []Dip) ([]Dip, error) {
+	dips := make([]Dip, len(in))
+	for i, d := range in {
 		field := fmt.Sprintf("Dips[%d]", i)
 		if d.At < 0 {
-			return cfg, bad(field+".At", d.At, "want ≥ 0")
+			return nil, bad(field+".At", d.At, "want ≥ 0")
 		}
 		if d.Duration <= 0 {
-			return cfg, bad(field+".Duration", d.Duration, "want > 0")
+			return nil, bad(field+".Duration", d.Duration, "want > 0")
 		}
 		if !finite(d.Depth) || d.Depth < 0 || d.Depth > 2 {
-			return cfg, bad(field+".Depth", d.Depth, "want the remaining fraction, 0..2 (above 1 a swell)")
+			return nil, bad(field+".Depth", d.Depth, "want the remaining fraction, 0..2 (above 1 a swell)")
 		}
 		if d.Phases == "" {
 			d.Phases = "abc"
 		}
 		for j := 0; j < len(d.Phases); j++ {
 			if p := d.Phases[j]; p != 'a' && p != 'b' && p != 'c' {
-				return cfg, bad(field+".Phases", fmt.Sprintf("%q", d.Phases), "want letters from a, b, c")
+				return nil, bad(field+".Phases", fmt.Sprintf("%q", d.Phases), "want letters from a, b, c")
 			}
 		}
 		dips[i] = d
 	}
-	cfg.Dips = dips
-	if cfg.Sleep == nil {
-		cfg.Sleep = time.Sleep
-	}
-	if cfg.Now == nil {
-		cfg.Now = time.Now
-	}
-	return cfg, nil
+	return dips, nil
 }

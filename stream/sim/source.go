@@ -302,27 +302,16 @@ func (s *Source) generate(dst []float64, k int) {
 }
 
 // startBlock recomputes the model for the block starting at sample s.n
-// (s.pos == 0) with fundamental phase s.phi.
+// (s.pos == 0) with fundamental phase s.phi: the block's conditions, each
+// order's phasors on every channel, the dip gains, and the Truth of it all.
 func (s *Source) startBlock() {
 	cfg := &s.cfg
 	s.blockGen = s.overrides.Load()
 	t := float64(s.n) / s.fs
 
-	f := cfg.FrequencyHz
-	if !cfg.NoWander {
-		f += wanderHz(t, s.wph)
-	}
+	f, load, cond := s.conditions(t)
 	w := 2 * math.Pi * f / s.fs
 	s.dphi = w * BlockLen
-
-	load := math.Float64frombits(s.loadOverride.Load())
-	if math.IsNaN(load) {
-		load = loadAtHour((s.s0 + t) / 3600)
-	}
-	cond := math.Float64frombits(s.condOverride.Load())
-	if math.IsNaN(cond) {
-		cond = conditionAt(cfg.Filter, t)
-	}
 
 	var tr Truth
 	tr.SampleIndex, tr.FreqHz, tr.Load, tr.Condition = s.n, f, load, cond
@@ -335,28 +324,8 @@ func (s *Source) startBlock() {
 	lag := math.Acos(tr.DPF)
 	var sumI2, sumV2 float64
 	for o, h := range s.orders {
-		hf := float64(h)
-		var ih complex128
-		switch {
-		case h == 1:
-			ih = cmplx.Rect(tr.I1, -lag)
-		case h == 3:
-			ih = complex(cfg.NeutralI3A/3, 0)
-		default:
-			ang := -hf * lag
-			if h%6 == 5 {
-				ang += math.Pi
-			}
-			ih = cmplx.Rect(harmonicRatio(h, load, cond)*tr.I1, ang)
-		}
-		vh := complex(cfg.VoltageV, 0)
+		ih, vh := s.orderPhasors(h, lag, load, cond, tr.I1)
 		if h > 1 {
-			vh = complex(0, -hf*s.x) * ih
-			if h == 5 {
-				// Background 5th in the direction of the local drop.
-				ang := -hf*lag + math.Pi - math.Pi/2
-				vh += cmplx.Rect(backgroundV5*cfg.VoltageV, ang)
-			}
 			sumI2 += real(ih)*real(ih) + imag(ih)*imag(ih)
 			sumV2 += real(vh)*real(vh) + imag(vh)*imag(vh)
 		}
@@ -364,28 +333,9 @@ func (s *Source) startBlock() {
 			tr.IhPct[h] = 100 * cmplx.Abs(ih) / tr.I1
 		}
 		tr.VhPct[h] = 100 * cmplx.Abs(vh) / cfg.VoltageV
+		s.setChannelPhasors(o, h, ih, vh)
 
-		for c := range s.chans {
-			ch := &s.chans[c]
-			var p complex128
-			if ch.phase == 3 {
-				for ph := range 3 {
-					p += ih * phaseShift(h, ph)
-				}
-			} else if ch.isV && ch.to >= 0 {
-				p = vh * (phaseShift(h, ch.phase) - phaseShift(h, ch.to))
-			} else if ch.isV {
-				p = vh * phaseShift(h, ch.phase)
-			} else {
-				p = ih * phaseShift(h, ch.phase)
-			}
-			if !ch.isV {
-				p *= complex(cfg.Channels[c].Share, 0)
-			}
-			p *= complex(math.Sqrt2/cfg.Channels[c].Scale, 0)
-			ch.cr[o], ch.ci[o] = real(p), imag(p)
-		}
-
+		hf := float64(h)
 		sn, cs := math.Sincos(hf * s.phi)
 		s.zr[o], s.zi[o] = cs, sn
 		sn, cs = math.Sincos(hf * w)
@@ -397,7 +347,99 @@ func (s *Source) startBlock() {
 	tr.TDDPct = 100 * math.Sqrt(sumI2) / cfg.ILA
 	tr.THDVPct = 100 * math.Sqrt(sumV2) / cfg.VoltageV
 
-	// Dip gains over the block, sample-accurate.
+	s.dipGains()
+	tr.Dip = s.dipBlk
+
+	s.mu.Lock()
+	s.truth = tr
+	s.mu.Unlock()
+}
+
+// conditions returns the fundamental frequency, the load (fraction of IL)
+// and the filter condition at t seconds after sample 0: the profiles, unless
+// SetLoad or SetFilterCondition overrides them.
+func (s *Source) conditions(t float64) (f, load, cond float64) {
+	f = s.cfg.FrequencyHz
+	if !s.cfg.NoWander {
+		f += wanderHz(t, s.wph)
+	}
+	load = math.Float64frombits(s.loadOverride.Load())
+	if math.IsNaN(load) {
+		load = loadAtHour((s.s0 + t) / 3600)
+	}
+	cond = math.Float64frombits(s.condOverride.Load())
+	if math.IsNaN(cond) {
+		cond = conditionAt(s.cfg.Filter, t)
+	}
+	return f, load, cond
+}
+
+// orderPhasors returns phase a's current and voltage RMS phasors of order h
+// at the block's reference (φ = 0), for a fundamental current i1 lagging by
+// lag rad: the drive's characteristic harmonics (5th, 11th, … reversed), the
+// neutral's 3rd shared by the phases, the voltage drop of each current
+// harmonic across the source reactance, and the background 5th.
+func (s *Source) orderPhasors(h int, lag, load, cond, i1 float64) (ih, vh complex128) {
+	cfg := &s.cfg
+	hf := float64(h)
+	switch {
+	case h == 1:
+		ih = cmplx.Rect(i1, -lag)
+	case h == 3:
+		ih = complex(cfg.NeutralI3A/3, 0)
+	default:
+		ang := -hf * lag
+		if h%6 == 5 {
+			ang += math.Pi
+		}
+		ih = cmplx.Rect(harmonicRatio(h, load, cond)*i1, ang)
+	}
+	vh = complex(cfg.VoltageV, 0)
+	if h > 1 {
+		vh = complex(0, -hf*s.x) * ih
+		if h == 5 {
+			// Background 5th in the direction of the local drop.
+			ang := -hf*lag + math.Pi - math.Pi/2
+			vh += cmplx.Rect(backgroundV5*cfg.VoltageV, ang)
+		}
+	}
+	return ih, vh
+}
+
+// setChannelPhasors stores order h (index o in s.orders) of every channel as
+// a peak phasor in raw units, from phase a's current ih and voltage vh: each
+// phase shifted by its sequence, line-to-line voltages as the difference of
+// two phases, the neutral as the sum of the three phase currents, and a
+// current channel scaled by its share of the phase current.
+func (s *Source) setChannelPhasors(o, h int, ih, vh complex128) {
+	for c := range s.chans {
+		ch := &s.chans[c]
+		cc := &s.cfg.Channels[c]
+		var p complex128
+		switch {
+		case ch.phase == 3:
+			for ph := range 3 {
+				p += ih * phaseShift(h, ph)
+			}
+		case ch.isV && ch.to >= 0:
+			p = vh * (phaseShift(h, ch.phase) - phaseShift(h, ch.to))
+		case ch.isV:
+			p = vh * phaseShift(h, ch.phase)
+		default:
+			p = ih * phaseShift(h, ch.phase)
+		}
+		if !ch.isV {
+			p *= complex(cc.Share, 0)
+		}
+		p *= complex(math.Sqrt2/cc.Scale, 0)
+		ch.cr[o], ch.ci[o] = real(p), imag(p)
+	}
+}
+
+// dipGains sets s.dipBlk and, when a dip or swell overlaps the block, each
+// phase's voltage gain per sample of it, sample-accurate: where events
+// overlap, the deepest dip or the highest swell wins.
+func (s *Source) dipGains() {
 	s.dipBlk = false
 	end := s.n + BlockLen
 	for _, d := range s.dips {
@@ -428,11 +470,6 @@ func (s *Source) startBlock() {
 			}
 		}
 	}
-	tr.Dip = s.dipBlk
-
-	s.mu.Lock()
-	s.truth = tr
-	s.mu.Unlock()
 }
 
 // offset returns the simulated time of sample n after sample 0, by quotient

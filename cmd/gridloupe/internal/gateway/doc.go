@@ -5,8 +5,9 @@
 // telemetry queued in the outbox, retention). They meet at one bounded
 // channel: replay and the simulator block on it (back-pressure, nothing
 // lost); a live source never blocks and counts what it drops. 2 h values
-// are aggregated from the twelve 10 min records of each 2 h clock interval
-// (seeded from the store after a restart).
+// come from stream.Intervals like the 3 s and 10 min ones; after a restart
+// the gateway seeds the open 2 h interval with its stored 10 min records
+// (twohour.go).
 //
 // gateway builds the JSON payloads it queues; it never talks to a broker
 // (the MQTT publisher drains the outbox) and holds no electrical rules

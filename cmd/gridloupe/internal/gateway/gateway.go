@@ -133,14 +133,6 @@ type Gateway struct {
 	batch    []*metrics.Record
 	msgs     []store.Message
 	trans    []alarm.Transition
-	a2h      *metrics.Aggregator
-	n2h      int
-	tick2h   int64
-	done2h   int64 // a 2 h interval already stored before a restart
-	start2h  time.Time
-	full2h   bool
-	seen2h   bool
-	rec2h    *metrics.Record
 	lastErr  string
 	alarmQ   []pendingAlarm // transitions whose commit failed, retried in order
 	telem    [5]bool
@@ -182,9 +174,6 @@ func New(cfg Config) (*Gateway, error) {
 			g.summ[iv] = true
 		}
 	}
-	g.done2h = -1 << 62
-	g.a2h = metrics.NewAggregator(g.setup)
-	g.rec2h = metrics.NewRecord(g.setup)
 	g.persistS = map[string]alarm.State{}
 	if cfg.Alarms != nil {
 		for k, v := range cfg.Alarms.States() {
@@ -215,8 +204,8 @@ func (g *Gateway) Run(ctx context.Context) error {
 	if err != nil {
 		return err
 	}
-	g.seed2h()
-	iv := stream.NewIntervals(g.setup, metrics.Int3s, metrics.Int10min)
+	iv := stream.NewIntervals(g.setup, metrics.Int3s, metrics.Int10min, metrics.Int2h)
+	g.seed2h(iv)
 	q := make(chan *metrics.Record, g.cfg.QueueLen)
 	var wg sync.WaitGroup
 	wg.Add(1)
@@ -243,7 +232,8 @@ func (g *Gateway) Run(ctx context.Context) error {
 		}
 		return iv.Add(r, send)
 	})
-	if err := iv.Flush(send); err != nil && runErr == nil {
+	// the open 2 h value stays open: the next run reseeds it from the store
+	if err := iv.Suspend(send); err != nil && runErr == nil {
 		runErr = err
 	}
 	if g.evq != nil {
@@ -280,7 +270,6 @@ func (g *Gateway) sink(q <-chan *metrics.Record) {
 						g.storeEvent(it)
 					}
 				}
-				g.close2h(true)
 				g.commit()
 				return
 			}
@@ -342,7 +331,6 @@ func (g *Gateway) handle(r *metrics.Record) {
 		if g.cfg.Base != "" {
 			g.health(r.Start.Add(time.Duration(r.DurationS * float64(time.Second))))
 		}
-		g.add2h(r)
 	}
 }
 

@@ -217,75 +217,6 @@ func TestWallClockSteps(t *testing.T) {
 	}
 }
 
-// TestTwoHourFromTenMinute: twelve 10 min records aggregate into one full
-// 2 h value on the clock tick; a run starting mid-interval gives a partial.
-func TestTwoHourFromTenMinute(t *testing.T) {
-	r := newRig(t, filepath.Join(t.TempDir(), "g.db"), 1)
-	g := r.gateway(t, nil, nil, nil)
-	var got []*metrics.Record
-	g.cfg.OnRecord = func(rec *metrics.Record, _ []string) {
-		if rec.Interval == metrics.Int2h {
-			c := *rec
-			got = append(got, &c)
-		}
-	}
-	mk := func(start time.Time, rms float64) *metrics.Record {
-		rec := metrics.NewRecord(r.setup)
-		rec.Interval = metrics.Int10min
-		rec.Start = start
-		rec.Samples = 3840000
-		rec.DurationS = 600
-		rec.FreqHz = 50
-		rec.Channels[0].RMS = rms
-		return rec
-	}
-	base := time.Date(2026, 3, 1, 2, 0, 0, 0, time.UTC) // on a 2 h tick
-	for i := range 13 {
-		g.handle(mk(base.Add(time.Duration(i)*10*time.Minute), 230+float64(i%2)))
-	}
-	if len(got) != 1 {
-		t.Fatalf("%d 2 h records after 13 ten-minute records, want 1", len(got))
-	}
-	if got[0].Flags&metrics.FlagPartial != 0 || !got[0].Start.Equal(base) {
-		t.Errorf("2 h record start %v flags %v, want %v and not partial", got[0].Start, got[0].Flags.Names(), base)
-	}
-	if got[0].Samples != 12*3840000 {
-		t.Errorf("2 h samples %d, want the sum of twelve 10 min records", got[0].Samples)
-	}
-}
-
-// TestTwoHourAfterRestart: a restart mid-interval leaves two partial 10 min
-// values in one slot; the 2 h value still closes at the interval's last
-// slot (not at the twelfth record) and is flagged partial.
-func TestTwoHourAfterRestart(t *testing.T) {
-	r := newRig(t, filepath.Join(t.TempDir(), "g.db"), 1)
-	g := r.gateway(t, nil, nil, nil)
-	var got []*metrics.Record
-	g.cfg.OnRecord = func(rec *metrics.Record, _ []string) {
-		if rec.Interval == metrics.Int2h {
-			got = append(got, rec.Clone())
-		}
-	}
-	base := time.Date(2026, 3, 1, 4, 0, 0, 0, time.UTC)
-	for i := range 12 {
-		starts := []time.Duration{time.Duration(i) * 10 * time.Minute}
-		if i == 4 { // the restart: the slot holds two partial values
-			starts = append(starts, time.Duration(i)*10*time.Minute+4*time.Minute)
-		}
-		for _, s := range starts {
-			rec := metrics.NewRecord(r.setup)
-			rec.Interval, rec.Start, rec.DurationS, rec.Samples = metrics.Int10min, base.Add(s), 300, 1920000
-			g.handle(rec)
-		}
-	}
-	if len(got) != 1 {
-		t.Fatalf("%d 2 h records, want 1 closed by the last slot (common practice, no source)", len(got))
-	}
-	if got[0].Flags&metrics.FlagPartial == 0 {
-		t.Errorf("2 h record with a restart inside is not flagged partial")
-	}
-}
-
 // failingStore fails CommitAlarm a number of times, then behaves like the
 // real store it wraps (a card that returns write errors for a while).
 type failingStore struct {
@@ -381,19 +312,23 @@ func TestTwoHourNotDuplicatedAfterRestart(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	var twoH int
+	var twoH []*metrics.Record
 	g.cfg.OnRecord = func(rec *metrics.Record, _ []string) {
 		if rec.Interval == metrics.Int2h {
-			twoH++
+			twoH = append(twoH, rec.Clone())
 		}
 	}
-	g.seed2h()
-	g.handle(mk(metrics.Int10min, 116*time.Minute, 240)) // the restarted run's partial last slot
-	g.handle(mk(metrics.Int10min, 120*time.Minute, 600)) // the next interval opens normally
-	if twoH != 0 {
-		t.Errorf("%d 2 h values emitted for an interval already stored", twoH)
+	iv := stream.NewIntervals(r.setup, metrics.Int2h)
+	g.seed2h(iv)
+	emit := func(rec *metrics.Record) error { g.handle(rec.Clone()); return nil }
+	// the restarted run's 10 min values reach the 2 h level as Intervals closes them
+	_ = iv.Seed(mk(metrics.Int10min, 116*time.Minute, 240), emit) // its partial last slot
+	_ = iv.Seed(mk(metrics.Int10min, 120*time.Minute, 600), emit) // the next interval opens normally
+	if len(twoH) != 0 {
+		t.Errorf("%d 2 h values emitted for an interval already stored", len(twoH))
 	}
-	if g.n2h != 1 {
-		t.Errorf("next interval holds %d 10 min values, want 1", g.n2h)
+	_ = iv.Flush(emit)
+	if len(twoH) != 1 || !twoH[0].Start.Equal(start.Add(2*time.Hour)) || twoH[0].Samples != 600*6400 {
+		t.Errorf("after Flush: %d 2 h values, want the next interval's, holding one 10 min value", len(twoH))
 	}
 }
