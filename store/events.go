@@ -31,27 +31,8 @@ const (
 	maxEvents = 20000
 )
 
-type eventJSON struct {
-	Kind            string    `json:"event"`
-	ID              string    `json:"id"`
-	Start           time.Time `json:"start"`
-	DurationS       float64   `json:"duration_s"`
-	Channels        []string  `json:"channels"`
-	Worst           string    `json:"worst_channel"`
-	ExtremeV        float64   `json:"extreme_v"`
-	ExtremePct      float64   `json:"extreme_pct"`
-	WaveformSamples int       `json:"waveform_samples"`
-	WaveformStart   time.Time `json:"waveform_start"`
-	Unfinished      bool      `json:"unfinished,omitempty"`
-	WaveformCut     bool      `json:"waveform_cut,omitempty"`
-	Seq             uint64    `json:"seq,omitempty"`
-}
-
 func encodeEvent(r *events.Record) ([]byte, error) {
-	b, err := json.Marshal(eventJSON{Kind: r.Kind.String(), ID: r.ID, Start: r.Start.UTC(), DurationS: r.DurationS,
-		Channels: r.Channels, Worst: r.Worst, ExtremeV: r.ExtremeV, ExtremePct: r.ExtremePct,
-		WaveformSamples: r.WaveformSamples, WaveformStart: r.WaveformStart.UTC(), Unfinished: r.Unfinished,
-		WaveformCut: r.WaveformCut, Seq: r.Seq})
+	b, err := json.Marshal(r)
 	if err != nil {
 		return nil, fmt.Errorf("store: encode event: %w", err)
 	}
@@ -59,20 +40,14 @@ func encodeEvent(r *events.Record) ([]byte, error) {
 }
 
 func decodeEvent(v []byte) (events.Record, error) {
+	var r events.Record
 	if len(v) < 2 || v[0] != eventVersion {
-		return events.Record{}, fmt.Errorf("event record: %w", ErrCorrupt)
+		return r, fmt.Errorf("event record: %w", ErrCorrupt)
 	}
-	var e eventJSON
-	if err := json.Unmarshal(v[1:], &e); err != nil {
-		return events.Record{}, fmt.Errorf("event record: %w: %w", ErrCorrupt, err)
+	if err := json.Unmarshal(v[1:], &r); err != nil {
+		return r, fmt.Errorf("%w: %w", ErrCorrupt, err)
 	}
-	k, ok := events.ParseKind(e.Kind)
-	if !ok {
-		return events.Record{}, fmt.Errorf("event kind %q: %w", e.Kind, ErrCorrupt)
-	}
-	return events.Record{Kind: k, ID: e.ID, Start: e.Start.UTC(), DurationS: e.DurationS, Channels: e.Channels,
-		Worst: e.Worst, ExtremeV: e.ExtremeV, ExtremePct: e.ExtremePct, WaveformSamples: e.WaveformSamples,
-		WaveformStart: e.WaveformStart.UTC(), Unfinished: e.Unfinished, WaveformCut: e.WaveformCut, Seq: e.Seq}, nil
+	return r, nil
 }
 
 // PutEvent stores an event, its waveform (nil = none) and, when msg is not
@@ -158,12 +133,70 @@ func (db *DB) capEvents(eb, wb *bolt.Bucket, ot *outboxTx) error {
 				if err := wb.Delete(k); err != nil {
 					return err
 				}
+				ot.losses[ClassEventWaveform]++
 			}
 			ot.losses[ClassEvent]++
 			n--
 		}
 	}
 	return nil
+}
+
+// storedKind names the stored voltage-event data the size cap may delete.
+type storedKind uint8
+
+const (
+	storedWaveforms storedKind = iota + 1 // the oldest captures; their event records stay
+	storedEvents                          // the oldest event records, with any capture still kept
+)
+
+// deleteStoredEvents deletes up to limit of the oldest stored waveforms or
+// event records (with their waveforms) while ok holds, in one transaction,
+// counting each as an event_waveform or event loss, as capEvents does.
+func (db *DB) deleteStoredEvents(kind storedKind, limit int, ok func(k, v []byte) bool) (int, error) {
+	var ot outboxTx
+	n := 0
+	err := db.update(func(tx *bolt.Tx) error {
+		n, ot = 0, outboxTx{}
+		eb, wb := tx.Bucket(bktEvents), tx.Bucket(bktWaveforms)
+		b := wb
+		if kind == storedEvents {
+			b = eb
+		}
+		if b == nil {
+			return nil
+		}
+		c := b.Cursor()
+		for k, v := c.First(); k != nil && n < limit && ok(k, v); k, v = c.First() {
+			if kind == storedEvents && wb != nil {
+				if w := wb.Get(k); w != nil {
+					ok(k, w)
+					if err := wb.Delete(k); err != nil {
+						return err
+					}
+					ot.losses[ClassEventWaveform]++
+				}
+			}
+			if err := c.Delete(); err != nil {
+				return err
+			}
+			n++
+			if kind == storedEvents {
+				ot.losses[ClassEvent]++
+			} else {
+				ot.losses[ClassEventWaveform]++
+			}
+		}
+		if n == 0 {
+			return nil
+		}
+		return db.persistLosses(tx, &ot)
+	})
+	if err != nil {
+		return 0, err
+	}
+	db.commitOutbox(&ot)
+	return n, nil
 }
 
 // Events calls fn for each stored event starting in [from, to) (zero
@@ -206,23 +239,30 @@ var ErrNoWaveform = errors.New("store: the event's waveform is not kept")
 
 // Event returns the event with the given id and its encoded waveform (see
 // DecodeWaveform; nil with ErrNoWaveform when it was not kept). The bytes
-// are a copy.
+// are a copy. The id names the kind and the start to the microsecond, so
+// the lookup seeks to that microsecond's keys and decodes only those.
 func (db *DB) Event(id string) (events.Record, []byte, error) {
 	var rec events.Record
 	var wave []byte
 	found := false
+	_, start, ok := events.ParseID(id)
+	if !ok {
+		return rec, nil, fmt.Errorf("%w: %q (an id is KIND-YYYYMMDDTHHMMSS.ffffffZ, as gridloupe events lists it)", ErrNoEvent, id)
+	}
 	err := db.view(func(tx *bolt.Tx) error {
 		b := tx.Bucket(bktEvents)
 		if b == nil {
 			return nil
 		}
-		return b.ForEach(func(k, v []byte) error {
-			if found {
-				return nil
-			}
+		end := start.Add(time.Microsecond).UnixNano()
+		c := b.Cursor()
+		for k, v := c.Seek(aggKey(nil, start, 0)); k != nil && keyStart(k) < end; k, v = c.Next() {
 			r, err := decodeEvent(v)
-			if err != nil || r.ID != id {
+			if err != nil {
 				return err
+			}
+			if r.ID != id {
+				continue
 			}
 			found, rec = true, r
 			if wb := tx.Bucket(bktWaveforms); wb != nil {
@@ -231,7 +271,8 @@ func (db *DB) Event(id string) (events.Record, []byte, error) {
 				}
 			}
 			return nil
-		})
+		}
+		return nil
 	})
 	switch {
 	case err != nil:

@@ -335,99 +335,21 @@ func (n jsonNum) MarshalJSON() ([]byte, error) {
 
 func writeEvalJSONL(w io.Writer, cfg *config.Config, path string, res *compliance.Result) error {
 	enc := json.NewEncoder(w)
-	type header struct {
-		Type        string   `json:"type"`
-		Site        string   `json:"site"`
-		Store       string   `json:"store"`
-		Edition     string   `json:"edition"`
-		Start       string   `json:"start"`
-		End         string   `json:"end"`
-		NominalV    float64  `json:"nominal_v"`
-		BusV        float64  `json:"bus_v"`
-		T1IndivPct  float64  `json:"table1_individual_pct"`
-		T1THDPct    float64  `json:"table1_thd_pct"`
-		ILA         float64  `json:"il_a"`
-		IscA        float64  `json:"isc_a"`
-		Ratio       jsonNum  `json:"isc_il"`
-		Row         string   `json:"table2_row,omitempty"`
-		TDDPct      float64  `json:"table2_tdd_pct,omitempty"`
-		MinCoverage float64  `json:"min_coverage"`
-		Safety      []string `json:"safety"`
-		Notes       []string `json:"notes"`
-	}
-	type period struct {
-		Type     string  `json:"type"`
-		Start    string  `json:"start"`
-		Expected int     `json:"expected"`
-		Records  int     `json:"records"`
-		Event    int     `json:"event"`
-		NoLock   int     `json:"no_lock"`
-		Partial  int     `json:"partial"`
-		Used     int     `json:"used"`
-		Covered  float64 `json:"covered_s"`
-		Coverage float64 `json:"coverage"`
-		NoData   bool    `json:"no_data"`
-		Overfull bool    `json:"overfull"`
-		Complete bool    `json:"complete"`
-	}
-	type line struct {
-		Type       string    `json:"type"`
-		Channel    string    `json:"channel"`
-		Kind       string    `json:"kind"`
-		Quantity   string    `json:"quantity"`
-		Order      int       `json:"h,omitempty"`
-		Basis      string    `json:"basis"`
-		Statistic  string    `json:"statistic"`
-		Value      jsonNum   `json:"value_pct"`
-		WorstDay   *string   `json:"worst_day,omitempty"`
-		Daily      []jsonNum `json:"daily_pct,omitempty"`
-		Limit      float64   `json:"limit_pct"`
-		Multiplier float64   `json:"multiplier"`
-		Threshold  float64   `json:"threshold_pct"`
-		Coverage   float64   `json:"coverage"`
-		DaysJudged *int      `json:"days_judged,omitempty"`
-		Values     int       `json:"values"`
-		Nulls      int       `json:"nulls"`
-		Verdict    string    `json:"verdict"`
-	}
-	h := header{Type: "evaluation", Site: cfg.Site, Store: path, Edition: res.Edition,
-		Start: res.Start.Format(time.RFC3339), End: res.End.Format(time.RFC3339),
-		NominalV: res.NominalV, BusV: res.BusV, T1IndivPct: res.VIndivLimit, T1THDPct: res.VTHDLimit,
-		ILA: res.IL, IscA: res.Isc, Ratio: jsonNum(res.Ratio), MinCoverage: res.MinCoverage,
-		Safety: evalCautions, Notes: res.Notes}
-	if res.IL > 0 {
-		h.Row, h.TDDPct = res.Row, res.TDDLimit
-	}
-	if err := enc.Encode(h); err != nil {
+	if err := enc.Encode(evalHeader(cfg, path, res)); err != nil {
 		return fmt.Errorf("evaluate: %w", err)
 	}
 	for _, d := range res.Days {
-		p := period{"day_3s", d.Start.Format(time.RFC3339), d.Expected, d.Records, d.Event, d.NoLock, d.Partial, d.Used, d.Covered, d.Coverage, d.NoData(), d.Overfull, d.Complete}
+		p := evalPeriodJSON{"day_3s", d.Start.Format(time.RFC3339), d.Expected, d.Records, d.Event, d.NoLock, d.Partial, d.Used, d.Covered, d.Coverage, d.NoData(), d.Overfull, d.Complete}
 		if err := enc.Encode(p); err != nil {
 			return fmt.Errorf("evaluate: %w", err)
 		}
 	}
 	wk := res.Week
-	if err := enc.Encode(period{"week_10min", res.Start.Format(time.RFC3339), wk.Expected, wk.Records, wk.Event, wk.NoLock, wk.Partial, wk.Used, wk.Covered, wk.Coverage, wk.NoData(), wk.Overfull, wk.Complete}); err != nil {
+	if err := enc.Encode(evalPeriodJSON{"week_10min", res.Start.Format(time.RFC3339), wk.Expected, wk.Records, wk.Event, wk.NoLock, wk.Partial, wk.Used, wk.Covered, wk.Coverage, wk.NoData(), wk.Overfull, wk.Complete}); err != nil {
 		return fmt.Errorf("evaluate: %w", err)
 	}
 	for _, l := range res.Lines {
-		o := line{Type: "line", Channel: l.Channel, Kind: l.Kind.String(), Quantity: l.Quantity, Order: l.Order,
-			Basis: l.Basis, Statistic: l.Statistic.String(), Value: jsonNum(l.Value), Limit: l.Limit,
-			Multiplier: l.Multiplier, Threshold: l.Threshold, Coverage: l.Coverage, Values: l.Values,
-			Nulls: l.Nulls, Verdict: l.Verdict.String()}
-		if l.Statistic == compliance.DailyP99 {
-			o.DaysJudged = &l.DaysJudged
-			if l.WorstDay >= 0 {
-				s := res.Days[l.WorstDay].Start.Format(dayFmt)
-				o.WorstDay = &s
-			}
-			o.Daily = make([]jsonNum, len(l.Daily))
-			for i, v := range l.Daily {
-				o.Daily[i] = jsonNum(v)
-			}
-		}
-		if err := enc.Encode(o); err != nil {
+		if err := enc.Encode(evalLine(l, res)); err != nil {
 			return fmt.Errorf("evaluate: %w", err)
 		}
 	}
@@ -443,4 +365,103 @@ func writeEvalJSONL(w io.Writer, cfg *config.Config, path string, res *complianc
 		return fmt.Errorf("evaluate: %w", err)
 	}
 	return nil
+}
+
+// evalHeaderJSON is the first JSONL line of evaluate: the site, the
+// span, the limits that apply and the cautions.
+type evalHeaderJSON struct {
+	Type        string   `json:"type"`
+	Site        string   `json:"site"`
+	Store       string   `json:"store"`
+	Edition     string   `json:"edition"`
+	Start       string   `json:"start"`
+	End         string   `json:"end"`
+	NominalV    float64  `json:"nominal_v"`
+	BusV        float64  `json:"bus_v"`
+	T1IndivPct  float64  `json:"table1_individual_pct"`
+	T1THDPct    float64  `json:"table1_thd_pct"`
+	ILA         float64  `json:"il_a"`
+	IscA        float64  `json:"isc_a"`
+	Ratio       jsonNum  `json:"isc_il"`
+	Row         string   `json:"table2_row,omitempty"`
+	TDDPct      float64  `json:"table2_tdd_pct,omitempty"`
+	MinCoverage float64  `json:"min_coverage"`
+	Safety      []string `json:"safety"`
+	Notes       []string `json:"notes"`
+}
+
+// evalPeriodJSON is one JSONL coverage line: a day of 3 s values or the
+// week of 10 min values.
+type evalPeriodJSON struct {
+	Type     string  `json:"type"`
+	Start    string  `json:"start"`
+	Expected int     `json:"expected"`
+	Records  int     `json:"records"`
+	Event    int     `json:"event"`
+	NoLock   int     `json:"no_lock"`
+	Partial  int     `json:"partial"`
+	Used     int     `json:"used"`
+	Covered  float64 `json:"covered_s"`
+	Coverage float64 `json:"coverage"`
+	NoData   bool    `json:"no_data"`
+	Overfull bool    `json:"overfull"`
+	Complete bool    `json:"complete"`
+}
+
+// evalLineJSON is one JSONL judgement line: a quantity on a channel
+// against its limit.
+type evalLineJSON struct {
+	Type       string    `json:"type"`
+	Channel    string    `json:"channel"`
+	Kind       string    `json:"kind"`
+	Quantity   string    `json:"quantity"`
+	Order      int       `json:"h,omitempty"`
+	Basis      string    `json:"basis"`
+	Statistic  string    `json:"statistic"`
+	Value      jsonNum   `json:"value_pct"`
+	WorstDay   *string   `json:"worst_day,omitempty"`
+	Daily      []jsonNum `json:"daily_pct,omitempty"`
+	Limit      float64   `json:"limit_pct"`
+	Multiplier float64   `json:"multiplier"`
+	Threshold  float64   `json:"threshold_pct"`
+	Coverage   float64   `json:"coverage"`
+	DaysJudged *int      `json:"days_judged,omitempty"`
+	Values     int       `json:"values"`
+	Nulls      int       `json:"nulls"`
+	Verdict    string    `json:"verdict"`
+}
+
+// evalHeader is the header line for res; the Table 2 row and TDD limit
+// only when a load current is known.
+func evalHeader(cfg *config.Config, path string, res *compliance.Result) evalHeaderJSON {
+	h := evalHeaderJSON{Type: "evaluation", Site: cfg.Site, Store: path, Edition: res.Edition,
+		Start: res.Start.Format(time.RFC3339), End: res.End.Format(time.RFC3339),
+		NominalV: res.NominalV, BusV: res.BusV, T1IndivPct: res.VIndivLimit, T1THDPct: res.VTHDLimit,
+		ILA: res.IL, IscA: res.Isc, Ratio: jsonNum(res.Ratio), MinCoverage: res.MinCoverage,
+		Safety: evalCautions, Notes: res.Notes}
+	if res.IL > 0 {
+		h.Row, h.TDDPct = res.Row, res.TDDLimit
+	}
+	return h
+}
+
+// evalLine is the JSONL line for l; a daily 99th percentile also carries
+// its worst day, the days judged and each day's value.
+func evalLine(l compliance.Line, res *compliance.Result) evalLineJSON {
+	o := evalLineJSON{Type: "line", Channel: l.Channel, Kind: l.Kind.String(), Quantity: l.Quantity, Order: l.Order,
+		Basis: l.Basis, Statistic: l.Statistic.String(), Value: jsonNum(l.Value), Limit: l.Limit,
+		Multiplier: l.Multiplier, Threshold: l.Threshold, Coverage: l.Coverage, Values: l.Values,
+		Nulls: l.Nulls, Verdict: l.Verdict.String()}
+	if l.Statistic == compliance.DailyP99 {
+		o.DaysJudged = &l.DaysJudged
+		if l.WorstDay >= 0 {
+			s := res.Days[l.WorstDay].Start.Format(dayFmt)
+			o.WorstDay = &s
+		}
+		o.Daily = make([]jsonNum, len(l.Daily))
+		for i, v := range l.Daily {
+			o.Daily[i] = jsonNum(v)
+		}
+	}
+	return o
 }

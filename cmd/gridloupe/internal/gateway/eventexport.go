@@ -7,7 +7,6 @@ import (
 	"fmt"
 	"io"
 	"strings"
-	"time"
 
 	"github.com/gridloupe/gridloupe/metrics/events"
 	"github.com/gridloupe/gridloupe/store"
@@ -89,36 +88,13 @@ func ReadWaveform(rd io.Reader) (events.Record, *store.Waveform, error) {
 	return rec, w, err
 }
 
-// eventLine is the JSON form AppendEvent writes.
-type eventLine struct {
-	Kind            string    `json:"event"`
-	ID              string    `json:"id"`
-	Start           time.Time `json:"start"`
-	DurationS       float64   `json:"duration_s"`
-	Channels        []string  `json:"channels"`
-	Worst           string    `json:"worst_channel"`
-	ExtremeV        float64   `json:"extreme_v"`
-	ExtremePct      float64   `json:"extreme_pct"`
-	WaveformSamples int       `json:"waveform_samples"`
-	WaveformStart   time.Time `json:"waveform_start"`
-	Unfinished      bool      `json:"unfinished"`
-	WaveformCut     bool      `json:"waveform_cut"`
-	Seq             uint64    `json:"seq"`
-}
-
 // ParseEvent parses one event line (AppendEvent's form).
 func ParseEvent(b []byte) (events.Record, error) {
-	var e eventLine
-	if err := json.Unmarshal(b, &e); err != nil {
+	var r events.Record
+	if err := json.Unmarshal(b, &r); err != nil {
 		return events.Record{}, fmt.Errorf("%w: event line: %w", ErrExportCut, err)
 	}
-	k, ok := events.ParseKind(e.Kind)
-	if !ok {
-		return events.Record{}, fmt.Errorf("%w: event kind %q", ErrExportCut, e.Kind)
-	}
-	return events.Record{Kind: k, ID: e.ID, Start: e.Start, DurationS: e.DurationS, Channels: e.Channels, Worst: e.Worst,
-		ExtremeV: e.ExtremeV, ExtremePct: e.ExtremePct, WaveformSamples: e.WaveformSamples, WaveformStart: e.WaveformStart,
-		Unfinished: e.Unfinished, WaveformCut: e.WaveformCut, Seq: e.Seq}, nil
+	return r, nil
 }
 
 // writeWhat answers the event requests of the export socket.
