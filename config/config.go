@@ -79,7 +79,7 @@ type Channel struct {
 	Comtrade  int     // COMTRADE input: 1-based analog channel index; 0 = match Name to the channel id
 	IIO       string  // iio source: the scan element, e.g. "voltage0" for scan_elements/in_voltage0_*; required there
 	Line      int     // line of the channel's entry in the config file
-	Level     string  // Name sanitized as an MQTT topic level (added; see Sanitize)
+	Level     string  // Name sanitized as an MQTT topic level (added; see sanitize in sanitize.go)
 }
 
 // Source is the daemon's input.

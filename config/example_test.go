@@ -66,18 +66,6 @@ channels:
 	// true
 }
 
-func ExampleSanitize() {
-	for _, name := range []string{"north-weir-dc2", "DC#2/left", "$gw", ""} {
-		level, err := config.Sanitize(name)
-		fmt.Printf("%q %v\n", level, err != nil)
-	}
-	// Output:
-	// "north-weir-dc2" false
-	// "DC_2_left" false
-	// "_gw" false
-	// "" true
-}
-
 func ExampleDefaults() {
 	doc := config.Defaults()
 	fmt.Println(strings.Contains(doc, "harmonics: all"), strings.Contains(doc, "commit_every: 60s"))

@@ -12,21 +12,13 @@ import (
 // (common practice, no source).
 const maxLevelBytes = 128
 
-// Sanitize turns a name (site, gateway, channel) into an MQTT topic level:
-// '+', '#' and '/' become '_', and so does a leading '$' (MQTT 3.1.1
-// §4.7.1–4.7.2: wildcards, level separators and broker-reserved topics).
-// Empty names, invalid UTF-8, control characters (MQTT 3.1.1 §1.5.3) and
-// names over 128 bytes are errors wrapping ErrInvalid. Distinct names can
-// sanitize to the same level; Parse reports such collisions.
-func Sanitize(level string) (string, error) {
-	s, why := sanitize(level)
-	if why != "" {
-		return "", fmt.Errorf("%w: topic level %q: %s", ErrInvalid, level, why)
-	}
-	return s, nil
-}
-
-// sanitize returns the level, or why there is none.
+// sanitize turns a name (site, gateway, channel, circuit) into an MQTT
+// topic level: '+', '#' and '/' become '_', and so does a leading '$' (MQTT
+// 3.1.1 §4.7.1–4.7.2: wildcards, level separators and broker-reserved
+// topics). It returns the level, or why there is none: an empty name,
+// invalid UTF-8, control characters (MQTT 3.1.1 §1.5.3) or a name over
+// maxLevelBytes. Distinct names can sanitize to the same level; Parse
+// reports such collisions.
 func sanitize(level string) (string, string) {
 	switch {
 	case level == "":

@@ -413,19 +413,22 @@ func (db *DB) makeRoom(add int64) error {
 // victim is one kind of data the size cap may delete: an outbox class's
 // messages, or a level's records.
 type victim struct {
-	class Class
-	level metrics.Interval // 0 = the class
+	class  Class
+	level  metrics.Interval // 0 = the class (or stored)
+	stored storedKind       // stored voltage-event data rather than a queue; 0 = none
 }
 
 // sacrifice is the order in which the size cap gives data up (README, The
 // store): queued 3 s telemetry (and superseded summaries), then queued
 // 10 min and 2 h telemetry and event waveforms, then the oldest 3 s records,
 // then events, and last the 10 min and 2 h history and the alarm messages.
+// Event waveforms and events are both the queued messages and the stored
+// captures and records (events.go), the stored ones after the queued.
 var sacrifice = [...]victim{
 	{class: ClassSummary}, {class: ClassTelemetry},
-	{class: ClassTelemetryCoarse}, {class: ClassEventWaveform},
+	{class: ClassTelemetryCoarse}, {class: ClassEventWaveform}, {stored: storedWaveforms},
 	{level: metrics.Int3s},
-	{class: ClassEvent},
+	{class: ClassEvent}, {stored: storedEvents},
 	{level: metrics.Int10min}, {level: metrics.Int2h},
 	{class: ClassAlarm},
 }
@@ -463,9 +466,12 @@ func (db *DB) trim(target int64) error {
 		for _, v := range sacrifice {
 			var n int
 			var err error
-			if v.level != 0 {
+			switch {
+			case v.stored != 0:
+				n, err = db.deleteStoredEvents(v.stored, maxDeletesPerTx, est)
+			case v.level != 0:
 				n, err = db.deleteOldest(v.level, maxDeletesPerTx, est, true)
-			} else {
+			default:
 				n, err = db.dropOldest(v.class, maxDeletesPerTx, est)
 			}
 			deleted += n

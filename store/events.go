@@ -133,12 +133,70 @@ func (db *DB) capEvents(eb, wb *bolt.Bucket, ot *outboxTx) error {
 				if err := wb.Delete(k); err != nil {
 					return err
 				}
+				ot.losses[ClassEventWaveform]++
 			}
 			ot.losses[ClassEvent]++
 			n--
 		}
 	}
 	return nil
+}
+
+// storedKind names the stored voltage-event data the size cap may delete.
+type storedKind uint8
+
+const (
+	storedWaveforms storedKind = iota + 1 // the oldest captures; their event records stay
+	storedEvents                          // the oldest event records, with any capture still kept
+)
+
+// deleteStoredEvents deletes up to limit of the oldest stored waveforms or
+// event records (with their waveforms) while ok holds, in one transaction,
+// counting each as an event_waveform or event loss, as capEvents does.
+func (db *DB) deleteStoredEvents(kind storedKind, limit int, ok func(k, v []byte) bool) (int, error) {
+	var ot outboxTx
+	n := 0
+	err := db.update(func(tx *bolt.Tx) error {
+		n, ot = 0, outboxTx{}
+		eb, wb := tx.Bucket(bktEvents), tx.Bucket(bktWaveforms)
+		b := wb
+		if kind == storedEvents {
+			b = eb
+		}
+		if b == nil {
+			return nil
+		}
+		c := b.Cursor()
+		for k, v := c.First(); k != nil && n < limit && ok(k, v); k, v = c.First() {
+			if kind == storedEvents && wb != nil {
+				if w := wb.Get(k); w != nil {
+					ok(k, w)
+					if err := wb.Delete(k); err != nil {
+						return err
+					}
+					ot.losses[ClassEventWaveform]++
+				}
+			}
+			if err := c.Delete(); err != nil {
+				return err
+			}
+			n++
+			if kind == storedEvents {
+				ot.losses[ClassEvent]++
+			} else {
+				ot.losses[ClassEventWaveform]++
+			}
+		}
+		if n == 0 {
+			return nil
+		}
+		return db.persistLosses(tx, &ot)
+	})
+	if err != nil {
+		return 0, err
+	}
+	db.commitOutbox(&ot)
+	return n, nil
 }
 
 // Events calls fn for each stored event starting in [from, to) (zero

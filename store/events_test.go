@@ -8,6 +8,7 @@ import (
 
 	bolt "go.etcd.io/bbolt"
 
+	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/events"
 )
 
@@ -199,4 +200,85 @@ func FuzzDecodeWaveform(f *testing.F) {
 		}
 		_, _ = decodeEvent(b)
 	})
+}
+
+// TestTrimTakesStoredEvents: the whole-file cap gives stored event data up
+// in the order of sacrifice (README "The store": event waveforms before the
+// oldest 3 s records, events after them): waveforms first, each counted
+// under event_waveform, then 3 s records, then event records with any
+// waveform still kept, counted under event; no waveform outlives its event.
+func TestTrimTakesStoredEvents(t *testing.T) {
+	t.Parallel()
+	db := openTest(t, Options{MaxSizeMB: 16})
+	s := setup1([]int{1, 3, 5})
+	if err := db.SetLayout(s); err != nil {
+		t.Fatal(err)
+	}
+	var recs []*metrics.Record
+	for i := range 300 {
+		recs = append(recs, smallRecord(s, metrics.Int3s, t0.Add(time.Duration(i)*3*time.Second), uint64(i)))
+	}
+	if err := db.PutAggregates(recs); err != nil {
+		t.Fatal(err)
+	}
+	meta, at := testWave(2000) // 12 kB each: an overflow run of its own
+	wave := EncodeWaveform(meta, 2000, at)
+	const nev = 20
+	for i := range nev {
+		start := t0.Add(time.Duration(i) * time.Minute)
+		r := events.Record{Kind: events.Dip, ID: events.ID(events.Dip, start), Start: start}
+		if _, err := db.PutEvent(r, wave, nil); err != nil {
+			t.Fatal(err)
+		}
+	}
+	counts := func() (evs, waves int) {
+		_ = db.bdb.View(func(tx *bolt.Tx) error {
+			evs, waves = tx.Bucket(bktEvents).Stats().KeyN, tx.Bucket(bktWaveforms).Stats().KeyN
+			return nil
+		})
+		return
+	}
+	trimBy := func(n int64) {
+		db.wmu.Lock()
+		defer db.wmu.Unlock()
+		if err := db.trim(db.inUse() - n); err != nil {
+			t.Fatal(err)
+		}
+	}
+	// 1. About half the waveforms' bytes: only waveforms go.
+	trimBy(int64(nev/2) * int64(len(wave)))
+	evs, waves := counts()
+	if evs != nev || waves == nev || waves == 0 || db.Stats().Records[metrics.Int3s] != 300 {
+		t.Fatalf("after a small trim: %d events, %d waveforms, %d 3 s records; want all events and records, some waveforms gone",
+			evs, waves, db.Stats().Records[metrics.Int3s])
+	}
+	if got := db.Losses()[ClassEventWaveform]; got != uint64(nev-waves) {
+		t.Fatalf("event_waveform losses %d, want %d", got, nev-waves)
+	}
+	if _, _, err := db.Event(events.ID(events.Dip, t0)); !errors.Is(err, ErrNoWaveform) {
+		t.Fatalf("oldest event after the trim: %v, want ErrNoWaveform", err)
+	}
+	// 2. Enough to take every waveform and then some 3 s records, not events.
+	trimBy(int64(waves)*int64(len(wave)) + 20_000)
+	evs, waves = counts()
+	if evs != nev || waves != 0 || db.Stats().Records[metrics.Int3s] == 300 {
+		t.Fatalf("after a larger trim: %d events, %d waveforms, %d 3 s records", evs, waves, db.Stats().Records[metrics.Int3s])
+	}
+	if got := db.Losses()[ClassEventWaveform]; got != nev {
+		t.Fatalf("event_waveform losses %d, want %d", got, nev)
+	}
+	// 3. Past every 3 s record: the oldest events go, counted.
+	for range 200 {
+		if evs, _ = counts(); evs < nev {
+			break
+		}
+		trimBy(20_000)
+	}
+	if db.Stats().Records[metrics.Int3s] != 0 || evs == nev {
+		t.Fatalf("after trimming everything: %d 3 s records, %d events", db.Stats().Records[metrics.Int3s], evs)
+	}
+	if got := db.Losses()[ClassEvent]; got != uint64(nev-evs) {
+		t.Fatalf("event losses %d, want %d", got, nev-evs)
+	}
+	checkBolt(t, db)
 }
