@@ -9,8 +9,9 @@
 // Sources, sinks and encoders live in sub-packages (stream/input,
 // stream/sim, stream/encode, ...). This package holds no electrical
 // business rules: those belong in metrics. This package imports goertzel
-// and metrics, never config, store or an MQTT client; of its sub-packages
-// only stream/gateway (the daemon core, which owns the store goroutine) and
-// stream/mqtt (which drains the store's outbox) import store
-// (DEVELOPERS.md, "Where the daemon core lives").
+// and metrics, never config, store or an MQTT client. Of its sub-packages
+// only stream/mqtt (whose Outbox still speaks store.Message) imports store;
+// the daemon core that owns the store goroutine is
+// cmd/gridloupe/internal/gateway (DEVELOPERS.md, "Where the daemon core
+// lives").
 package stream

@@ -10,9 +10,9 @@ import (
 	"os"
 	"time"
 
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/gateway"
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/wavesvg"
 	"github.com/gridloupe/gridloupe/store"
-	"github.com/gridloupe/gridloupe/stream/gateway"
-	"github.com/gridloupe/gridloupe/stream/wavesvg"
 )
 
 const eventsHelp = `Usage: gridloupe events --store DB [--from T] [--to T] [--format table|jsonl]

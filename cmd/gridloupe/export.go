@@ -10,10 +10,10 @@ import (
 	"strings"
 	"time"
 
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/gateway"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/encode"
-	"github.com/gridloupe/gridloupe/stream/gateway"
 )
 
 const exportHelp = `Usage: gridloupe export --store FILE --interval 3s|10min|2h [flags]

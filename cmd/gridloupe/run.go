@@ -17,6 +17,8 @@ import (
 	"sync/atomic"
 	"time"
 
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/broker"
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/gateway"
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/sdnotify"
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/sysclock"
 	"github.com/gridloupe/gridloupe/config"
@@ -25,11 +27,9 @@ import (
 	"github.com/gridloupe/gridloupe/metrics/events"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream"
-	"github.com/gridloupe/gridloupe/stream/gateway"
 	"github.com/gridloupe/gridloupe/stream/input"
 	"github.com/gridloupe/gridloupe/stream/live"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
-	"github.com/gridloupe/gridloupe/stream/mqtt/broker"
 	"github.com/gridloupe/gridloupe/stream/sim"
 )
 

@@ -29,7 +29,7 @@ type readmeTopic struct {
 // "QoS[, retained]" in the second, an example payload in the third.
 func readmeTopics(t *testing.T, base string) []readmeTopic {
 	t.Helper()
-	b, err := os.ReadFile(filepath.Join("..", "..", "README.md"))
+	b, err := os.ReadFile(filepath.Join("..", "..", "..", "..", "README.md"))
 	if err != nil {
 		t.Fatal(err)
 	}

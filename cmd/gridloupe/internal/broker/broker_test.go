@@ -11,8 +11,8 @@ import (
 	"testing"
 	"time"
 
-	"github.com/gridloupe/gridloupe/stream/mqtt/broker"
-	"github.com/gridloupe/gridloupe/stream/mqtt/internal/testcert"
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/broker"
+	"github.com/gridloupe/gridloupe/stream/mqtt/mqtttest/testcert"
 )
 
 // ioTimeout bounds each network exchange; generous for a loaded machine.
