@@ -14,7 +14,7 @@ import (
 // REFERENCE 1.3 and 1.5).
 var northWeirRef = &Reference{Edition: "IEEE 519-2014", BusV: 398, VTHDPct: 8, IRow: "20<50", TDDPct: 8, IRowWhy: "ISC/IL 38.1"}
 
-// maxTermWidth: the target terminal, 80 columns (the widest block
+// maxTermWidth: the classic terminal width, 80 columns (the widest block
 // layout must fit it; common practice, no source).
 const maxTermWidth = 80
 
