@@ -50,62 +50,20 @@ Flags:
 `
 
 func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.Writer) error {
-	fs := flag.NewFlagSet("replay", flag.ContinueOnError)
-	cfgPath := fs.String("config", "", "config `FILE` (YAML); required")
-	ivName := fs.String("interval", "200ms", "interval to print: "+strings.Join(metrics.IntervalLabels()[:3], ", "))
-	format := fs.String("format", "jsonl", "output format: jsonl (unrounded), csv, table (per-phase blocks for people, with the IEEE 519 reference) or wide (one row per record)")
-	startStr := fs.String("start", "", "wall time of the first sample, RFC 3339 (default 1970-01-01T00:00:00Z)")
-	eventsPath := fs.String("events", "", "also write the voltage events (dips, swells, interruptions) to `FILE`, as JSON Lines")
-	progress := fs.Bool("progress", true, "show a progress bar on stderr when it is a terminal")
-	pcmFmt := fs.String("pcm", "", "INPUT is a raw PCM stream in `FORMAT`: "+strings.Join(pcm.FormatNames(), ", "))
-	framing := fs.String("framing", "raw", "with --pcm: raw (bare samples) or glf1 (frames with sample index and CRC)")
-	fs.Usage = func() {
-		fmt.Fprint(fs.Output(), replayHelp)
-		fs.PrintDefaults()
-	}
-	if err := parseFlags(fs, args, stdout); err != nil {
+	f, err := parseReplayFlags(args, stdout)
+	if err != nil {
 		return err
 	}
-	if *cfgPath == "" {
-		return usagef("replay: --config FILE is required")
-	}
-	if fs.NArg() != 1 {
-		return usagef("replay: want exactly one INPUT file, got %d", fs.NArg())
-	}
-	inPath := fs.Arg(0)
 	stopProfile, err := startCPUProfile()
 	if err != nil {
 		return err
 	}
 	defer stopProfile()
-	if *pcmFmt != "" {
-		if _, ok := pcm.ParseFormat(*pcmFmt); !ok {
-			return usagef("replay: --pcm %q: allowed are %s", *pcmFmt, strings.Join(pcm.FormatNames(), ", "))
-		}
-		if *framing != config.FramingRaw && *framing != config.FramingGLF1 {
-			return usagef("replay: --framing %q: allowed are raw, glf1", *framing)
-		}
-	} else if *framing != config.FramingRaw {
-		return usagef("replay: --framing applies to --pcm input only")
+	iv, fmtKind, base, err := f.check()
+	if err != nil {
+		return err
 	}
-	iv, ok := metrics.ParseInterval(*ivName)
-	if !ok || iv == metrics.Int2h {
-		return usagef("replay: --interval %q: allowed are 200ms, 3s, 10min", *ivName)
-	}
-	fmtKind, ok := encode.ParseFormat(*format)
-	if !ok {
-		return usagef("replay: --format %q: allowed are %s", *format, strings.Join(encode.FormatNames(), ", "))
-	}
-	var base time.Time
-	if *startStr != "" {
-		t, err := time.Parse(time.RFC3339Nano, *startStr)
-		if err != nil {
-			return usagef("replay: --start %q is not RFC 3339 (e.g. 2026-03-01T10:00:00Z)", *startStr)
-		}
-		base = t.UTC()
-	}
-
-	cfg, err := config.Load(*cfgPath)
+	cfg, err := config.Load(f.config)
 	if err != nil {
 		return &usageError{err}
 	}
@@ -113,40 +71,114 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 	if err != nil {
 		return err
 	}
-
-	if *pcmFmt != "" {
+	job := replayJob{cfg: cfg, setup: setup, cal: cal, base: base, iv: iv, format: fmtKind, input: f.input, events: f.events}
+	if f.pcm != "" {
 		return replayPCM(ctx, replayPCMArgs{cfg: cfg, setup: setup, cal: cal, base: base, iv: iv, format: fmtKind,
-			pcm: *pcmFmt, framing: *framing, input: inPath, events: *eventsPath}, stdin, stdout, stderr)
+			pcm: f.pcm, framing: f.framing, input: f.input, events: f.events}, stdin, stdout, stderr)
 	}
-	if isCOMTRADE(inPath) {
-		return replayCOMTRADE(ctx, replayJob{cfg: cfg, setup: setup, cal: cal, base: base, iv: iv, format: fmtKind, input: inPath, events: *eventsPath}, stdout, stderr)
+	if isCOMTRADE(f.input) {
+		return replayCOMTRADE(ctx, job, stdout, stderr)
 	}
-	r, closeIn, err := openReplayInput(inPath, stdin, stderr, *progress)
+	return replayRecording(ctx, job, f.progress, stdin, stdout, stderr)
+}
+
+// replayFlags are replay's command line, as given.
+type replayFlags struct {
+	config, interval, format, start, events, pcm, framing string
+	progress                                              bool
+	input                                                 string // the one INPUT argument
+}
+
+// parseReplayFlags parses replay's command line; --config and exactly one
+// INPUT are required.
+func parseReplayFlags(args []string, stdout io.Writer) (*replayFlags, error) {
+	fs := flag.NewFlagSet("replay", flag.ContinueOnError)
+	f := &replayFlags{}
+	fs.StringVar(&f.config, "config", "", "config `FILE` (YAML); required")
+	fs.StringVar(&f.interval, "interval", "200ms", "interval to print: "+strings.Join(metrics.IntervalLabels()[:3], ", "))
+	fs.StringVar(&f.format, "format", "jsonl", "output format: jsonl (unrounded), csv, table (per-phase blocks for people, with the IEEE 519 reference) or wide (one row per record)")
+	fs.StringVar(&f.start, "start", "", "wall time of the first sample, RFC 3339 (default 1970-01-01T00:00:00Z)")
+	fs.StringVar(&f.events, "events", "", "also write the voltage events (dips, swells, interruptions) to `FILE`, as JSON Lines")
+	fs.BoolVar(&f.progress, "progress", true, "show a progress bar on stderr when it is a terminal")
+	fs.StringVar(&f.pcm, "pcm", "", "INPUT is a raw PCM stream in `FORMAT`: "+strings.Join(pcm.FormatNames(), ", "))
+	fs.StringVar(&f.framing, "framing", "raw", "with --pcm: raw (bare samples) or glf1 (frames with sample index and CRC)")
+	fs.Usage = func() {
+		fmt.Fprint(fs.Output(), replayHelp)
+		fs.PrintDefaults()
+	}
+	if err := parseFlags(fs, args, stdout); err != nil {
+		return nil, err
+	}
+	if f.config == "" {
+		return nil, usagef("replay: --config FILE is required")
+	}
+	if fs.NArg() != 1 {
+		return nil, usagef("replay: want exactly one INPUT file, got %d", fs.NArg())
+	}
+	f.input = fs.Arg(0)
+	return f, nil
+}
+
+// check validates the flags' values and returns the parsed interval,
+// output format and start time (zero when --start is not given).
+func (f *replayFlags) check() (metrics.Interval, encode.Format, time.Time, error) {
+	var base time.Time
+	if f.pcm != "" {
+		if _, ok := pcm.ParseFormat(f.pcm); !ok {
+			return 0, 0, base, usagef("replay: --pcm %q: allowed are %s", f.pcm, strings.Join(pcm.FormatNames(), ", "))
+		}
+		if f.framing != config.FramingRaw && f.framing != config.FramingGLF1 {
+			return 0, 0, base, usagef("replay: --framing %q: allowed are raw, glf1", f.framing)
+		}
+	} else if f.framing != config.FramingRaw {
+		return 0, 0, base, usagef("replay: --framing applies to --pcm input only")
+	}
+	iv, ok := metrics.ParseInterval(f.interval)
+	if !ok || iv == metrics.Int2h {
+		return 0, 0, base, usagef("replay: --interval %q: allowed are 200ms, 3s, 10min", f.interval)
+	}
+	fmtKind, ok := encode.ParseFormat(f.format)
+	if !ok {
+		return 0, 0, base, usagef("replay: --format %q: allowed are %s", f.format, strings.Join(encode.FormatNames(), ", "))
+	}
+	if f.start != "" {
+		t, err := time.Parse(time.RFC3339Nano, f.start)
+		if err != nil {
+			return 0, 0, base, usagef("replay: --start %q is not RFC 3339 (e.g. 2026-03-01T10:00:00Z)", f.start)
+		}
+		base = t.UTC()
+	}
+	return iv, fmtKind, base, nil
+}
+
+// replayRecording replays a CSV or WAV recording (a file or "-" for
+// standard input), with a progress bar when asked and stderr is a
+// terminal.
+func replayRecording(ctx context.Context, job replayJob, progress bool, stdin io.Reader, stdout, stderr io.Writer) error {
+	r, closeIn, err := openReplayInput(job.input, stdin, stderr, progress)
 	if err != nil {
 		return err
 	}
 	defer closeIn()
-	if inPath == "-" {
-		inPath = "stdin"
+	if job.input == "-" {
+		job.input = "stdin"
 	}
-
-	names := make([]string, len(setup.Channels))
-	for i, ch := range setup.Channels {
+	names := make([]string, len(job.setup.Channels))
+	for i, ch := range job.setup.Channels {
 		names[i] = ch.Name
 	}
-	src, inRate, where, err := openInput(inPath, r, names)
+	src, inRate, where, err := openInput(job.input, r, names)
 	if err != nil {
 		return err
 	}
 	if ex, ok := src.(interface{ Extra() []string }); ok && len(ex.Extra()) > 0 {
-		fmt.Fprintf(stderr, "gridloupe: warning: %s: columns not in the config are ignored: %s\n", inPath, strings.Join(ex.Extra(), ", "))
+		fmt.Fprintf(stderr, "gridloupe: warning: %s: columns not in the config are ignored: %s\n", job.input, strings.Join(ex.Extra(), ", "))
 	}
-	rate, err := resolveRate(cfg, inRate, inPath)
-	if err != nil {
+	if job.rate, err = resolveRate(job.cfg, inRate, job.input); err != nil {
 		return err
 	}
-	return replayAnalyse(ctx, replayJob{cfg: cfg, setup: setup, cal: cal, rate: rate, base: base, iv: iv, format: fmtKind,
-		src: src, input: inPath, where: where, events: *eventsPath}, stdout, stderr)
+	job.src, job.where = src, where
+	return replayAnalyse(ctx, job, stdout, stderr)
 }
 
 // startCPUProfile writes a CPU profile of the replay to

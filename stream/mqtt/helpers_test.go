@@ -20,6 +20,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 // Timing for tests on a loaded 2-core machine.
@@ -194,7 +195,7 @@ func (s *subscriber) statuses(t testing.TB) []statusMsg {
 	t.Helper()
 	var out []statusMsg
 	for _, m := range s.received() {
-		if m.topic != mqtt.StatusTopic(testBase) {
+		if m.topic != topic.Status(testBase) {
 			continue
 		}
 		var st statusMsg
@@ -241,7 +242,7 @@ func (s *subscriber) outboxMsgs(t testing.TB) []seqMsg {
 	t.Helper()
 	var out []seqMsg
 	for _, m := range s.received() {
-		if m.topic == mqtt.StatusTopic(testBase) {
+		if m.topic == topic.Status(testBase) {
 			continue
 		}
 		if k := firstKey(t, m.payload); k != "seq" {
@@ -400,7 +401,7 @@ func alarmMsg(i int) store.Message {
 		"name": "current-distortion", "state": []string{"raised", "cleared"}[i%2], "channel": "ia",
 		"metric": "tdd_h50_pct", "value": 8.25 + float64(i)/100, "time": time.Date(2026, 3, 1, 10, i%60, 0, 0, time.UTC).Format("2006-01-02T15:04:05.000000Z"),
 	})
-	return store.Message{Class: store.ClassAlarm, Topic: mqtt.AlarmTopic(testBase), Payload: body, QoS: 1}
+	return store.Message{Class: store.ClassAlarm, Topic: topic.Alarm(testBase), Payload: body, QoS: 1}
 }
 
 // telemetryMsg is an invented 10-minute telemetry payload.
@@ -409,7 +410,7 @@ func telemetryMsg(i int) store.Message {
 		"interval": "10min", "start": time.Date(2026, 3, 1, 10, 0, 0, 0, time.UTC).Add(time.Duration(i) * 10 * time.Minute).Format("2006-01-02T15:04:05.000000Z"),
 		"duration_s": 600, "freq_hz": 50.01, "flags": []string{},
 	})
-	return store.Message{Class: store.ClassTelemetry, Topic: mqtt.TelemetryTopic(testBase, "10min"), Payload: body, QoS: 1}
+	return store.Message{Class: store.ClassTelemetry, Topic: topic.Telemetry(testBase, "10min"), Payload: body, QoS: 1}
 }
 
 // pendingCount returns how many messages are still queued.

@@ -16,6 +16,7 @@ import (
 	paho "github.com/eclipse/paho.mqtt.golang"
 
 	"github.com/gridloupe/gridloupe/stream/encode"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 // Message is one queued message as the publisher sees it.
@@ -186,7 +187,7 @@ func New(cfg Config) (*Publisher, error) {
 	// resend it in map order. Two in-order streams of the same seqs (paho's
 	// resend and ours) keep every seq's first arrival in order.
 	o.SetStore(paho.NewOrderedMemoryStore())
-	o.SetBinaryWill(StatusTopic(cfg.Base), p.statusPayload("offline", "connection_lost", false), 1, true)
+	o.SetBinaryWill(topic.Status(cfg.Base), p.statusPayload("offline", "connection_lost", false), 1, true)
 	o.SetConnectionNotificationHandler(p.onNotify)
 	if cfg.TLS != nil {
 		o.SetTLSConfig(cfg.TLS)
@@ -499,7 +500,7 @@ func (p *Publisher) wait(ctx context.Context, extra chan struct{}) {
 
 // announce publishes the retained online status for connection epoch.
 func (p *Publisher) announce(ctx context.Context, epoch uint64) error {
-	tok := p.client.Publish(StatusTopic(p.cfg.Base), 1, true, p.statusPayload("online", "", true))
+	tok := p.client.Publish(topic.Status(p.cfg.Base), 1, true, p.statusPayload("online", "", true))
 	return p.await(ctx, tok, time.Now().Add(p.cfg.AckTimeout), epoch)
 }
 
@@ -600,7 +601,7 @@ func (p *Publisher) retryAck() {
 // shutdown publishes the offline status and disconnects.
 func (p *Publisher) shutdown() error {
 	if p.client.IsConnectionOpen() {
-		tok := p.client.Publish(StatusTopic(p.cfg.Base), 1, true, p.statusPayload("offline", "shutdown", true))
+		tok := p.client.Publish(topic.Status(p.cfg.Base), 1, true, p.statusPayload("offline", "shutdown", true))
 		if !tok.WaitTimeout(offlineWait) {
 			p.log.Warn("mqtt offline status not acknowledged before disconnect")
 		} else if err := tok.Error(); err != nil {

@@ -14,6 +14,7 @@ import (
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/outbox"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 func ExampleStart() {
@@ -59,9 +60,9 @@ func Example_publisher() {
 		return
 	}
 	defer sub.Disconnect(100)
-	sub.Subscribe(mqtt.AlarmTopic(base), 1, func(_ paho.Client, m paho.Message) { got <- string(m.Payload()) }).WaitTimeout(10 * time.Second)
+	sub.Subscribe(topic.Alarm(base), 1, func(_ paho.Client, m paho.Message) { got <- string(m.Payload()) }).WaitTimeout(10 * time.Second)
 
-	if _, err := db.Enqueue(store.Message{Class: store.ClassAlarm, Topic: mqtt.AlarmTopic(base), QoS: 1,
+	if _, err := db.Enqueue(store.Message{Class: store.ClassAlarm, Topic: topic.Alarm(base), QoS: 1,
 		Payload: []byte(`{"name":"current-distortion","state":"raised"}`)}); err != nil {
 		fmt.Println(err)
 		return
