@@ -13,12 +13,3 @@ func ExampleWithSeq() {
 	// {"seq":12,"name":"current-distortion","state":"raised"}
 	// [1,2]
 }
-
-func ExampleTelemetryTopic() {
-	base := "gridloupe/north-weir-dc2/dc2-gw1"
-	fmt.Println(mqtt.TelemetryTopic(base, "10min"))
-	fmt.Println(mqtt.StatusTopic(base))
-	// Output:
-	// gridloupe/north-weir-dc2/dc2-gw1/telemetry/10min
-	// gridloupe/north-weir-dc2/dc2-gw1/status
-}

@@ -20,6 +20,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 // Timing for tests on a loaded 2-core machine.
@@ -37,15 +38,29 @@ const (
 	testPass = "weir-pump-7Q"                     // must never show up in logs
 )
 
+// testDB is a real bbolt store seen as an mqtt.Outbox. The daemon's own
+// adapter (cmd/gridloupe/internal/outbox) is internal to the command, so the
+// publisher's tests carry this copy of its few lines.
+type testDB struct{ *store.DB }
+
+func (d testDB) Pending(after uint64, limit int) ([]mqtt.Message, error) {
+	ms, err := d.DB.Pending(after, limit)
+	out := make([]mqtt.Message, len(ms))
+	for i, m := range ms {
+		out[i] = mqtt.Message{Seq: m.Seq, Topic: m.Topic, Payload: m.Payload, QoS: m.QoS, Retain: m.Retain, Queued: m.Queued}
+	}
+	return out, err
+}
+
 // openStore opens a real bbolt store in t.TempDir().
-func openStore(t testing.TB) *store.DB {
+func openStore(t testing.TB) testDB {
 	t.Helper()
 	db, err := store.Open(store.Options{Path: filepath.Join(t.TempDir(), "gridloupe.db"), NoSync: true})
 	if err != nil {
 		t.Fatalf("store: %v", err)
 	}
 	t.Cleanup(func() { _ = db.Close() })
-	return db
+	return testDB{db}
 }
 
 // logBuf collects log output so tests can check what was (not) logged.
@@ -180,7 +195,7 @@ func (s *subscriber) statuses(t testing.TB) []statusMsg {
 	t.Helper()
 	var out []statusMsg
 	for _, m := range s.received() {
-		if m.topic != mqtt.StatusTopic(testBase) {
+		if m.topic != topic.Status(testBase) {
 			continue
 		}
 		var st statusMsg
@@ -227,7 +242,7 @@ func (s *subscriber) outboxMsgs(t testing.TB) []seqMsg {
 	t.Helper()
 	var out []seqMsg
 	for _, m := range s.received() {
-		if m.topic == mqtt.StatusTopic(testBase) {
+		if m.topic == topic.Status(testBase) {
 			continue
 		}
 		if k := firstKey(t, m.payload); k != "seq" {
@@ -371,7 +386,7 @@ func (p *proxy) Cut() {
 }
 
 // queue enqueues msgs and returns their seqs.
-func queue(t testing.TB, db *store.DB, msgs ...store.Message) []uint64 {
+func queue(t testing.TB, db testDB, msgs ...store.Message) []uint64 {
 	t.Helper()
 	seqs, err := db.Enqueue(msgs...)
 	if err != nil {
@@ -386,7 +401,7 @@ func alarmMsg(i int) store.Message {
 		"name": "current-distortion", "state": []string{"raised", "cleared"}[i%2], "channel": "ia",
 		"metric": "tdd_h50_pct", "value": 8.25 + float64(i)/100, "time": time.Date(2026, 3, 1, 10, i%60, 0, 0, time.UTC).Format("2006-01-02T15:04:05.000000Z"),
 	})
-	return store.Message{Class: store.ClassAlarm, Topic: mqtt.AlarmTopic(testBase), Payload: body, QoS: 1}
+	return store.Message{Class: store.ClassAlarm, Topic: topic.Alarm(testBase), Payload: body, QoS: 1}
 }
 
 // telemetryMsg is an invented 10-minute telemetry payload.
@@ -395,11 +410,11 @@ func telemetryMsg(i int) store.Message {
 		"interval": "10min", "start": time.Date(2026, 3, 1, 10, 0, 0, 0, time.UTC).Add(time.Duration(i) * 10 * time.Minute).Format("2006-01-02T15:04:05.000000Z"),
 		"duration_s": 600, "freq_hz": 50.01, "flags": []string{},
 	})
-	return store.Message{Class: store.ClassTelemetry, Topic: mqtt.TelemetryTopic(testBase, "10min"), Payload: body, QoS: 1}
+	return store.Message{Class: store.ClassTelemetry, Topic: topic.Telemetry(testBase, "10min"), Payload: body, QoS: 1}
 }
 
 // pendingCount returns how many messages are still queued.
-func pendingCount(t testing.TB, db *store.DB) int {
+func pendingCount(t testing.TB, db testDB) int {
 	t.Helper()
 	m, err := db.Pending(0, 1<<20)
 	if err != nil {
@@ -468,7 +483,7 @@ func mustJSON(t testing.TB, v any) string {
 
 // errOutbox wraps an outbox and fails Ack while fail is set.
 type errOutbox struct {
-	*store.DB
+	testDB
 	fail atomic.Bool
 }
 
@@ -478,7 +493,7 @@ func (e *errOutbox) Ack(seqs ...uint64) error {
 	if e.fail.Load() {
 		return errInjected
 	}
-	return e.DB.Ack(seqs...)
+	return e.testDB.Ack(seqs...)
 }
 
 func writeFile(t testing.TB, path, text string) {

@@ -10,6 +10,7 @@ import (
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
 	"github.com/gridloupe/gridloupe/stream/mqtt/mqtttest"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 // shutdownBound is how soon Run must return after cancel: the README's "exits within a few seconds"
@@ -240,7 +241,7 @@ func TestAckFailureRetried(t *testing.T) {
 	t.Parallel()
 	b := mqtttest.Start(t)
 	db := openStore(t)
-	ob := &errOutbox{DB: db}
+	ob := &errOutbox{testDB: db}
 	ob.fail.Store(true)
 	sub := newSubscriber(t, b.URL(), nil)
 	queued := map[uint64]store.Message{}
@@ -277,13 +278,13 @@ func TestBadTopicAndRawPayload(t *testing.T) {
 	good := alarmMsg(1)
 	bad := alarmMsg(2)
 	bad.Topic = testBase + "/alarm/+"
-	raw := store.Message{Class: store.ClassEvent, Topic: mqtt.EventTopic(testBase), Payload: []byte("[1,2,3]"), QoS: 1}
+	raw := store.Message{Class: store.ClassEvent, Topic: topic.Event(testBase), Payload: []byte("[1,2,3]"), QoS: 1}
 	seqs := queue(t, db, good, bad, raw)
 	r := startPub(t, b.URL(), db, nil)
 	waitUntil(t, "outbox drained", func() bool { return pendingCount(t, db) == 0 })
 	waitUntil(t, "raw payload", func() bool {
 		for _, m := range sub.received() {
-			if m.topic == mqtt.EventTopic(testBase) {
+			if m.topic == topic.Event(testBase) {
 				return true
 			}
 		}
@@ -292,12 +293,12 @@ func TestBadTopicAndRawPayload(t *testing.T) {
 	var alarms, events int
 	for _, m := range sub.received() {
 		switch m.topic {
-		case mqtt.AlarmTopic(testBase):
+		case topic.Alarm(testBase):
 			alarms++
 			if want := string(mqtt.WithSeq(good.Payload, seqs[0])); string(m.payload) != want {
 				t.Errorf("alarm %s, want %s", m.payload, want)
 			}
-		case mqtt.EventTopic(testBase):
+		case topic.Event(testBase):
 			events++
 			if string(m.payload) != "[1,2,3]" {
 				t.Errorf("raw payload %q changed (WithSeq doc: non-objects unchanged)", m.payload)
@@ -414,7 +415,7 @@ func TestStatusDebounced(t *testing.T) {
 	t.Parallel()
 	b := mqtttest.Start(t)
 	db := openStore(t)
-	sub := mqtttest.Subscribe(t, b.URL(), mqtt.StatusTopic(testBase))
+	sub := mqtttest.Subscribe(t, b.URL(), topic.Status(testBase))
 	r := startPub(t, b.URL(), db, func(c *mqtt.Config) { c.StatusEvery = testStatusEvery })
 	sub.WaitFor(t, "online", 20*time.Second, func(m []mqtttest.Message) bool { return len(m) >= 1 })
 	start := time.Now()

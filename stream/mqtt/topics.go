@@ -4,25 +4,7 @@ import (
 	"strconv"
 	"strings"
 	"unicode/utf8"
-
-	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
-
-// StatusTopic returns the retained status topic "<base>/status".
-func StatusTopic(base string) string { return topic.Status(base) }
-
-// TelemetryTopic returns "<base>/telemetry/<interval>", interval being a
-// label such as "10min".
-func TelemetryTopic(base, interval string) string { return topic.Telemetry(base, interval) }
-
-// AlarmTopic returns "<base>/alarm".
-func AlarmTopic(base string) string { return topic.Alarm(base) }
-
-// HealthTopic returns "<base>/health".
-func HealthTopic(base string) string { return topic.Health(base) }
-
-// EventTopic returns "<base>/event".
-func EventTopic(base string) string { return topic.Event(base) }
 
 // publishable reports whether topic can be the topic of a PUBLISH packet
 // (MQTT 3.1.1 §4.7: no wildcards, not empty, at most 65535 bytes of UTF-8

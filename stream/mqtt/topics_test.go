@@ -10,17 +10,18 @@ import (
 	"testing"
 
 	"github.com/gridloupe/gridloupe/stream/mqtt"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 func TestTopics(t *testing.T) {
 	t.Parallel()
 	const base = "gridloupe/north-weir-dc2/dc2-gw1"
 	tests := []struct{ name, got, want, src string }{
-		{"status", mqtt.StatusTopic(base), base + "/status", "DESIGN.md, Daemon keys, MQTT and store: topic layout"},
-		{"telemetry", mqtt.TelemetryTopic(base, "10min"), base + "/telemetry/10min", "DESIGN.md: .../telemetry/<interval>"},
-		{"alarm", mqtt.AlarmTopic(base), base + "/alarm", "DESIGN.md: .../alarm"},
-		{"health", mqtt.HealthTopic(base), base + "/health", "README, MQTT topics and payloads: …/health"},
-		{"event", mqtt.EventTopic(base), base + "/event", "DESIGN.md: .../event"},
+		{"status", topic.Status(base), base + "/status", "DESIGN.md, Daemon keys, MQTT and store: topic layout"},
+		{"telemetry", topic.Telemetry(base, "10min"), base + "/telemetry/10min", "DESIGN.md: .../telemetry/<interval>"},
+		{"alarm", topic.Alarm(base), base + "/alarm", "DESIGN.md: .../alarm"},
+		{"health", topic.Health(base), base + "/health", "README, MQTT topics and payloads: …/health"},
+		{"event", topic.Event(base), base + "/event", "DESIGN.md: .../event"},
 	}
 	for _, tc := range tests {
 		if tc.got != tc.want {
@@ -135,9 +136,9 @@ func TestStatusTopicAsDocumented(t *testing.T) {
 		t.Fatal(err)
 	}
 	const base = "gridloupe/north-weir-dc2/dc2-gw1"
-	suffix := strings.TrimPrefix(mqtt.StatusTopic(base), base)
+	suffix := strings.TrimPrefix(topic.Status(base), base)
 	// src: README, MQTT topics and payloads, the table's status row
 	if row := "| `…" + suffix + "` | 1, retained |"; !strings.Contains(string(b), row) {
-		t.Errorf("README has no row %q for the status topic %q", row, mqtt.StatusTopic(base))
+		t.Errorf("README has no row %q for the status topic %q", row, topic.Status(base))
 	}
 }

@@ -7,7 +7,7 @@ import (
 	paho "github.com/eclipse/paho.mqtt.golang"
 
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/broker"
-	"github.com/gridloupe/gridloupe/stream/mqtt"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 // TestEmbeddedACL: only the gateway's own login publishes under its prefix.
@@ -16,7 +16,7 @@ import (
 // (README, MQTT topics and payloads: embedded broker).
 func TestEmbeddedACL(t *testing.T) {
 	t.Parallel()
-	statusTopic := mqtt.StatusTopic(testBase)
+	statusTopic := topic.Status(testBase)
 	cases := []struct {
 		name        string
 		user, pass  string // the configured login; "" = none

@@ -11,8 +11,10 @@ import (
 	paho "github.com/eclipse/paho.mqtt.golang"
 
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/broker"
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/outbox"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 func ExampleStart() {
@@ -58,15 +60,15 @@ func Example_publisher() {
 		return
 	}
 	defer sub.Disconnect(100)
-	sub.Subscribe(mqtt.AlarmTopic(base), 1, func(_ paho.Client, m paho.Message) { got <- string(m.Payload()) }).WaitTimeout(10 * time.Second)
+	sub.Subscribe(topic.Alarm(base), 1, func(_ paho.Client, m paho.Message) { got <- string(m.Payload()) }).WaitTimeout(10 * time.Second)
 
-	if _, err := db.Enqueue(store.Message{Class: store.ClassAlarm, Topic: mqtt.AlarmTopic(base), QoS: 1,
+	if _, err := db.Enqueue(store.Message{Class: store.ClassAlarm, Topic: topic.Alarm(base), QoS: 1,
 		Payload: []byte(`{"name":"current-distortion","state":"raised"}`)}); err != nil {
 		fmt.Println(err)
 		return
 	}
 	user, pass := b.GatewayLogin() // only the gateway's own login may publish
-	p, err := mqtt.New(mqtt.Config{Broker: b.GatewayURL(), ClientID: "dc2-gw1", Base: base, Outbox: db, Username: user, Password: pass})
+	p, err := mqtt.New(mqtt.Config{Broker: b.GatewayURL(), ClientID: "dc2-gw1", Base: base, Outbox: outbox.Store{DB: db}, Username: user, Password: pass})
 	if err != nil {
 		fmt.Println(err)
 		return

@@ -18,9 +18,11 @@ import (
 	paho "github.com/eclipse/paho.mqtt.golang"
 
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/broker"
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/outbox"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
 	"github.com/gridloupe/gridloupe/stream/mqtt/mqtttest/testcert"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 // Timing for tests on a loaded 2-core machine.
@@ -156,19 +158,19 @@ func TestPublisherTLSCredentials(t *testing.T) {
 	var want []string
 	for i := range 4 {
 		body := `{"name":"current-distortion","state":"raised","channel":"ia","value":8.2` + strconv.Itoa(i) + `}`
-		seqs, err := db.Enqueue(store.Message{Class: store.ClassAlarm, Topic: mqtt.AlarmTopic(testBase), QoS: 1, Payload: []byte(body)})
+		seqs, err := db.Enqueue(store.Message{Class: store.ClassAlarm, Topic: topic.Alarm(testBase), QoS: 1, Payload: []byte(body)})
 		if err != nil {
 			t.Fatal(err)
 		}
 		// README, MQTT topics and payloads: seq is the first key of every queued payload
-		want = append(want, mqtt.AlarmTopic(testBase)+` {"seq":`+strconv.FormatUint(seqs[0], 10)+","+body[1:])
+		want = append(want, topic.Alarm(testBase)+` {"seq":`+strconv.FormatUint(seqs[0], 10)+","+body[1:])
 	}
 	// the gateway's own path: plain loopback, its own login, no certificate
 	if !strings.HasPrefix(b.GatewayURL(), "tcp://127.0.0.1:") {
 		t.Errorf("gateway URL %q, want plain TCP on loopback", b.GatewayURL())
 	}
 	gwUser, gwPass := b.GatewayLogin()
-	runPub(t, mqtt.Config{Broker: b.GatewayURL(), Outbox: db, Username: gwUser, Password: gwPass})
+	runPub(t, mqtt.Config{Broker: b.GatewayURL(), Outbox: outbox.Store{DB: db}, Username: gwUser, Password: gwPass})
 	waitUntil(t, "delivery through the embedded broker", func() bool {
 		mu.Lock()
 		defer mu.Unlock()
@@ -183,22 +185,22 @@ func TestPublisherTLSCredentials(t *testing.T) {
 	online := false
 	for k, p := range got {
 		var st struct{ Status string }
-		if strings.HasPrefix(k, mqtt.StatusTopic(testBase)+" ") && json.Unmarshal(p, &st) == nil && st.Status == "online" {
+		if strings.HasPrefix(k, topic.Status(testBase)+" ") && json.Unmarshal(p, &st) == nil && st.Status == "online" {
 			online = true
 		}
 	}
 	mu.Unlock()
 	if !online {
-		t.Errorf("no online status on %s", mqtt.StatusTopic(testBase))
+		t.Errorf("no online status on %s", topic.Status(testBase))
 	}
 
 	// A wrong password never connects, and never shows up in logs or stats.
 	wrong := "x" + testPass
 	db2 := openStore(t)
-	if _, err := db2.Enqueue(store.Message{Class: store.ClassAlarm, Topic: mqtt.AlarmTopic(testBase), QoS: 1, Payload: []byte(`{"name":"x"}`)}); err != nil {
+	if _, err := db2.Enqueue(store.Message{Class: store.ClassAlarm, Topic: topic.Alarm(testBase), QoS: 1, Payload: []byte(`{"name":"x"}`)}); err != nil {
 		t.Fatal(err)
 	}
-	r := runPub(t, mqtt.Config{Broker: "ssl://bms:" + wrong + "@" + b.Addr(), Outbox: db2, TLS: clientTLS})
+	r := runPub(t, mqtt.Config{Broker: "ssl://bms:" + wrong + "@" + b.Addr(), Outbox: outbox.Store{DB: db2}, TLS: clientTLS})
 	waitUntil(t, "a refused connection", func() bool { return r.Stats().Failures > 0 })
 	if s := r.Stats(); s.Connected || strings.Contains(s.LastError, wrong) {
 		t.Errorf("stats %+v: want not connected, password masked", s)

@@ -27,7 +27,7 @@ func WriteEvents(w io.Writer, db *store.DB, req ExportRequest) error {
 		return fmt.Errorf("%w: format %q: allowed are table, jsonl", ErrExport, req.Format)
 	}
 	if table {
-		fmt.Fprintf(w, "%-28s %-12s %-27s %10s %-12s %-8s %10s %8s\n", "id", "event", "start", "duration_s", "channels", "worst", "extreme_v", "extreme_%")
+		fmt.Fprintf(w, "%-36s %-12s %-27s %10s %-12s %-8s %10s %8s\n", "id", "event", "start", "duration_s", "channels", "worst", "extreme_v", "extreme_%")
 	}
 	var b []byte
 	n := 0
@@ -38,7 +38,7 @@ func WriteEvents(w io.Writer, db *store.DB, req ExportRequest) error {
 			if r.Unfinished {
 				mark = " (unfinished)"
 			}
-			_, err := fmt.Fprintf(w, "%-28s %-12s %-27s %10.3f %-12s %-8s %10.1f %8.1f%s\n", r.ID, r.Kind, encode.FormatTime(r.Start),
+			_, err := fmt.Fprintf(w, "%-36s %-12s %-27s %10.3f %-12s %-8s %10.1f %8.1f%s\n", r.ID, r.Kind, encode.FormatTime(r.Start),
 				r.DurationS, strings.Join(r.Channels, ","), r.Worst, r.ExtremeV, r.ExtremePct, mark)
 			return err
 		}
