@@ -9,9 +9,9 @@
 // Sources, sinks and encoders live in sub-packages (stream/input,
 // stream/sim, stream/encode, ...). This package holds no electrical
 // business rules: those belong in metrics. This package imports goertzel
-// and metrics, never config, store or an MQTT client. Of its sub-packages
-// only stream/mqtt (whose Outbox still speaks store.Message) imports store;
-// the daemon core that owns the store goroutine is
+// and metrics, never config, store or an MQTT client, and none of its
+// sub-packages imports store either (outside tests): stream/mqtt speaks its
+// own mqtt.Message, and the daemon core that owns the store goroutine is
 // cmd/gridloupe/internal/gateway (DEVELOPERS.md, "Where the daemon core
 // lives").
 package stream

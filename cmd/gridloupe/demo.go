@@ -77,16 +77,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	dbPath := filepath.Join(*dir, "gridloupe.db")
 	cfg.Store.Path, cfg.Source.Speed = dbPath, *speed
 
-	pace := fmt.Sprintf("simulated at %g× real time", *speed)
-	if *speed == 0 {
-		pace = "simulated as fast as this machine allows"
-	}
-	fmt.Fprintln(stdout, "gridloupe demo: North Weir pumping station, cabinet DC-2 (invented site),", pace)
-	fmt.Fprintln(stdout, "CAUTION: a demo on simulated data. On a real cabinet, installation is work for qualified personnel under local")
-	fmt.Fprintln(stdout, "electrical codes, with rated sensors (CAT III or better); never open-circuit a loaded CT secondary; gridloupe is")
-	fmt.Fprintln(stdout, "not a protective device.")
-	fmt.Fprintln(stdout)
-	fmt.Fprintf(stdout, "config: %s (site, channels and the alarm rules below)\n", cfg.Path)
+	printDemoIntro(stdout, cfg, *speed)
 
 	setup, _, err := setupFromConfig(cfg)
 	if err != nil {
@@ -145,30 +136,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	}
 	wall := time.Since(start)
 
-	// Summary.
-	fmt.Fprintln(stdout)
-	fmt.Fprintf(stdout, "summary after %.0f s of wall time:\n", wall.Seconds())
-	if d != nil && d.gw != nil {
-		st := d.gw.Stats()
-		fmt.Fprintf(stdout, "  measured:  %d windows of 10 cycles (%.1f simulated minutes), %d aggregates (3 s, 10 min, 2 h)\n",
-			st.Windows, float64(st.Windows)*0.2/60, st.Aggregates)
-		fmt.Fprintf(stdout, "  stored:    %d records in %s\n", st.Stored, dbPath)
-		fmt.Fprintf(stdout, "  alarms:    %d raised, %d cleared (thresholds from %s)\n", raised, cleared, cfg.Path)
-		fmt.Fprintf(stdout, "  events:    %d voltage events stored with their waveforms\n", nEvents)
-		if d.pub != nil {
-			ps := d.pub.Stats()
-			fmt.Fprintf(stdout, "  published: %d messages acknowledged by the broker (queued in the outbox: %d)\n", ps.Acked, st.Queued)
-		}
-	}
-	self := selfCommand()
-	fmt.Fprintf(stdout, "  look back: %s export --store %s --interval 10min --format table --config %s\n", self, dbPath, cfg.Path)
-	fmt.Fprintf(stdout, "             %s evaluate --config %s --store %s\n", self, cfg.Path, dbPath)
-	fmt.Fprintf(stdout, "             %s events --store %s\n", self, dbPath)
-	if created {
-		fmt.Fprintf(stdout, "  clean up:  rm -r %s\n", *dir)
-	} else {
-		fmt.Fprintf(stdout, "  clean up:  rm %s\n", dbPath)
-	}
+	printDemoSummary(stdout, demoCounts{raised, cleared, nEvents}, d, wall, cfg.Path, dbPath, *dir, created)
 	return nil
 }
 
@@ -386,4 +354,51 @@ func num(v float64, dec int) string {
 // within the one-minute demo.
 func demoFilterProfile() sim.FilterProfile {
 	return sim.FilterProfile{Period: 20 * time.Minute, Worst: 0.3}
+}
+
+// printDemoIntro prints the demo's opening lines: the invented site, the
+// pace, the safety caution and the config in use.
+func printDemoIntro(stdout io.Writer, cfg *config.Config, speed float64) {
+	pace := fmt.Sprintf("simulated at %g× real time", speed)
+	if speed == 0 {
+		pace = "simulated as fast as this machine allows"
+	}
+	fmt.Fprintln(stdout, "gridloupe demo: North Weir pumping station, cabinet DC-2 (invented site),", pace)
+	fmt.Fprintln(stdout, "CAUTION: a demo on simulated data. On a real cabinet, installation is work for qualified personnel under local")
+	fmt.Fprintln(stdout, "electrical codes, with rated sensors (CAT III or better); never open-circuit a loaded CT secondary; gridloupe is")
+	fmt.Fprintln(stdout, "not a protective device.")
+	fmt.Fprintln(stdout)
+	fmt.Fprintf(stdout, "config: %s (site, channels and the alarm rules below)\n", cfg.Path)
+}
+
+// demoCounts are the alarm transitions and voltage events a demo saw.
+type demoCounts struct{ raised, cleared, events int }
+
+// printDemoSummary prints what the demo measured, stored and published
+// (d is nil when the daemon stopped before it was ready) and the commands
+// to look back and clean up.
+func printDemoSummary(stdout io.Writer, n demoCounts, d *daemon, wall time.Duration, cfgPath, dbPath, dir string, created bool) {
+	fmt.Fprintln(stdout)
+	fmt.Fprintf(stdout, "summary after %.0f s of wall time:\n", wall.Seconds())
+	if d != nil && d.gw != nil {
+		st := d.gw.Stats()
+		fmt.Fprintf(stdout, "  measured:  %d windows of 10 cycles (%.1f simulated minutes), %d aggregates (3 s, 10 min, 2 h)\n",
+			st.Windows, float64(st.Windows)*0.2/60, st.Aggregates)
+		fmt.Fprintf(stdout, "  stored:    %d records in %s\n", st.Stored, dbPath)
+		fmt.Fprintf(stdout, "  alarms:    %d raised, %d cleared (thresholds from %s)\n", n.raised, n.cleared, cfgPath)
+		fmt.Fprintf(stdout, "  events:    %d voltage events stored with their waveforms\n", n.events)
+		if d.pub != nil {
+			ps := d.pub.Stats()
+			fmt.Fprintf(stdout, "  published: %d messages acknowledged by the broker (queued in the outbox: %d)\n", ps.Acked, st.Queued)
+		}
+	}
+	self := selfCommand()
+	fmt.Fprintf(stdout, "  look back: %s export --store %s --interval 10min --format table --config %s\n", self, dbPath, cfgPath)
+	fmt.Fprintf(stdout, "             %s evaluate --config %s --store %s\n", self, cfgPath, dbPath)
+	fmt.Fprintf(stdout, "             %s events --store %s\n", self, dbPath)
+	if created {
+		fmt.Fprintf(stdout, "  clean up:  rm -r %s\n", dir)
+	} else {
+		fmt.Fprintf(stdout, "  clean up:  rm %s\n", dbPath)
+	}
 }

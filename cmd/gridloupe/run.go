@@ -19,6 +19,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/broker"
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/gateway"
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/outbox"
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/sdnotify"
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/sysclock"
 	"github.com/gridloupe/gridloupe/config"
@@ -367,7 +368,7 @@ func startMQTT(cfg *config.Config, o daemonOptions, db *store.DB, storeNotice st
 		log.Info("embedded MQTT broker listening", "addr", b.Addr())
 	}
 	pub, err := mqtt.New(mqtt.Config{Broker: url, ClientID: cfg.MQTT.ClientID, Username: user,
-		Password: pw, TLS: pubTLS, Base: m.base, Outbox: db, Logger: log, Now: now})
+		Password: pw, TLS: pubTLS, Base: m.base, Outbox: outbox.Store{DB: db}, Logger: log, Now: now})
 	if err != nil {
 		return fail(usagef("%s: mqtt: %v", cfg.Path, err))
 	}

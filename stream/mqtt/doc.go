@@ -1,7 +1,8 @@
 // Package mqtt publishes gridloupe's queued messages to an MQTT broker. It
 // is the only package that imports github.com/eclipse/paho.mqtt.golang; it
-// computes nothing and must not import bbolt: the store's outbox reaches it
-// through the small Outbox interface.
+// computes nothing and imports neither bbolt nor the store: the store's outbox
+// reaches it through the small Outbox interface, in its own Message type
+// (the daemon adapts *store.DB in cmd/gridloupe/internal/outbox).
 //
 // # Queue
 //

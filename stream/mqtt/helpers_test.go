@@ -38,15 +38,29 @@ const (
 	testPass = "weir-pump-7Q"                     // must never show up in logs
 )
 
+// testDB is a real bbolt store seen as an mqtt.Outbox. The daemon's own
+// adapter (cmd/gridloupe/internal/outbox) is internal to the command, so the
+// publisher's tests carry this copy of its few lines.
+type testDB struct{ *store.DB }
+
+func (d testDB) Pending(after uint64, limit int) ([]mqtt.Message, error) {
+	ms, err := d.DB.Pending(after, limit)
+	out := make([]mqtt.Message, len(ms))
+	for i, m := range ms {
+		out[i] = mqtt.Message{Seq: m.Seq, Topic: m.Topic, Payload: m.Payload, QoS: m.QoS, Retain: m.Retain, Queued: m.Queued}
+	}
+	return out, err
+}
+
 // openStore opens a real bbolt store in t.TempDir().
-func openStore(t testing.TB) *store.DB {
+func openStore(t testing.TB) testDB {
 	t.Helper()
 	db, err := store.Open(store.Options{Path: filepath.Join(t.TempDir(), "gridloupe.db"), NoSync: true})
 	if err != nil {
 		t.Fatalf("store: %v", err)
 	}
 	t.Cleanup(func() { _ = db.Close() })
-	return db
+	return testDB{db}
 }
 
 // logBuf collects log output so tests can check what was (not) logged.
@@ -372,7 +386,7 @@ func (p *proxy) Cut() {
 }
 
 // queue enqueues msgs and returns their seqs.
-func queue(t testing.TB, db *store.DB, msgs ...store.Message) []uint64 {
+func queue(t testing.TB, db testDB, msgs ...store.Message) []uint64 {
 	t.Helper()
 	seqs, err := db.Enqueue(msgs...)
 	if err != nil {
@@ -400,7 +414,7 @@ func telemetryMsg(i int) store.Message {
 }
 
 // pendingCount returns how many messages are still queued.
-func pendingCount(t testing.TB, db *store.DB) int {
+func pendingCount(t testing.TB, db testDB) int {
 	t.Helper()
 	m, err := db.Pending(0, 1<<20)
 	if err != nil {
@@ -469,7 +483,7 @@ func mustJSON(t testing.TB, v any) string {
 
 // errOutbox wraps an outbox and fails Ack while fail is set.
 type errOutbox struct {
-	*store.DB
+	testDB
 	fail atomic.Bool
 }
 
@@ -479,7 +493,7 @@ func (e *errOutbox) Ack(seqs ...uint64) error {
 	if e.fail.Load() {
 		return errInjected
 	}
-	return e.DB.Ack(seqs...)
+	return e.testDB.Ack(seqs...)
 }
 
 func writeFile(t testing.TB, path, text string) {

@@ -15,15 +15,26 @@ import (
 
 	paho "github.com/eclipse/paho.mqtt.golang"
 
-	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/encode"
 	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
-// Outbox is what the publisher needs of the store's outbox; *store.DB
-// satisfies it.
+// Message is one queued message as the publisher sees it.
+type Message struct {
+	Seq     uint64 // the outbox sequence number, written as the payload's first key
+	Topic   string
+	Payload []byte // a JSON object (or any bytes: then sent as is)
+	QoS     byte   // 0, 1 or 2
+	Retain  bool
+	Queued  time.Time // when it was queued
+}
+
+// Outbox is what the publisher needs of a durable queue: the oldest
+// messages after a sequence number, in ascending order, and deletion of
+// delivered ones. The daemon adapts the store's outbox to it
+// (cmd/gridloupe/internal/outbox).
 type Outbox interface {
-	Pending(after uint64, limit int) ([]store.Message, error)
+	Pending(after uint64, limit int) ([]Message, error)
 	Ack(seqs ...uint64) error
 }
 
@@ -517,7 +528,7 @@ func (p *Publisher) await(ctx context.Context, tok paho.Token, deadline time.Tim
 // order. It returns how many leading messages are delivered and why it
 // stopped early; when the first message's topic cannot be published it
 // returns 1 and an error wrapping ErrBadTopic (the message is to be dropped).
-func (p *Publisher) sendWindow(ctx context.Context, msgs []store.Message) (int, error) {
+func (p *Publisher) sendWindow(ctx context.Context, msgs []Message) (int, error) {
 	if !publishable(msgs[0].Topic) {
 		p.dropped.Add(1)
 		err := fmt.Errorf("seq %d topic %q: %w", msgs[0].Seq, msgs[0].Topic, ErrBadTopic)
@@ -555,7 +566,7 @@ func (p *Publisher) sendWindow(ctx context.Context, msgs []store.Message) (int, 
 
 // ack deletes delivered (or, with delivered false, dropped) messages from
 // the outbox; a failed Ack is retried.
-func (p *Publisher) ack(msgs []store.Message, delivered bool) {
+func (p *Publisher) ack(msgs []Message, delivered bool) {
 	seqs := make([]uint64, len(msgs))
 	for i := range msgs {
 		seqs[i] = msgs[i].Seq

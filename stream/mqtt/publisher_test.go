@@ -241,7 +241,7 @@ func TestAckFailureRetried(t *testing.T) {
 	t.Parallel()
 	b := mqtttest.Start(t)
 	db := openStore(t)
-	ob := &errOutbox{DB: db}
+	ob := &errOutbox{testDB: db}
 	ob.fail.Store(true)
 	sub := newSubscriber(t, b.URL(), nil)
 	queued := map[uint64]store.Message{}

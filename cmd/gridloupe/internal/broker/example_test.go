@@ -11,6 +11,7 @@ import (
 	paho "github.com/eclipse/paho.mqtt.golang"
 
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/broker"
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/outbox"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
 	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
@@ -67,7 +68,7 @@ func Example_publisher() {
 		return
 	}
 	user, pass := b.GatewayLogin() // only the gateway's own login may publish
-	p, err := mqtt.New(mqtt.Config{Broker: b.GatewayURL(), ClientID: "dc2-gw1", Base: base, Outbox: db, Username: user, Password: pass})
+	p, err := mqtt.New(mqtt.Config{Broker: b.GatewayURL(), ClientID: "dc2-gw1", Base: base, Outbox: outbox.Store{DB: db}, Username: user, Password: pass})
 	if err != nil {
 		fmt.Println(err)
 		return

@@ -18,6 +18,7 @@ import (
 	paho "github.com/eclipse/paho.mqtt.golang"
 
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/broker"
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/outbox"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
 	"github.com/gridloupe/gridloupe/stream/mqtt/mqtttest/testcert"
@@ -169,7 +170,7 @@ func TestPublisherTLSCredentials(t *testing.T) {
 		t.Errorf("gateway URL %q, want plain TCP on loopback", b.GatewayURL())
 	}
 	gwUser, gwPass := b.GatewayLogin()
-	runPub(t, mqtt.Config{Broker: b.GatewayURL(), Outbox: db, Username: gwUser, Password: gwPass})
+	runPub(t, mqtt.Config{Broker: b.GatewayURL(), Outbox: outbox.Store{DB: db}, Username: gwUser, Password: gwPass})
 	waitUntil(t, "delivery through the embedded broker", func() bool {
 		mu.Lock()
 		defer mu.Unlock()
@@ -199,7 +200,7 @@ func TestPublisherTLSCredentials(t *testing.T) {
 	if _, err := db2.Enqueue(store.Message{Class: store.ClassAlarm, Topic: topic.Alarm(testBase), QoS: 1, Payload: []byte(`{"name":"x"}`)}); err != nil {
 		t.Fatal(err)
 	}
-	r := runPub(t, mqtt.Config{Broker: "ssl://bms:" + wrong + "@" + b.Addr(), Outbox: db2, TLS: clientTLS})
+	r := runPub(t, mqtt.Config{Broker: "ssl://bms:" + wrong + "@" + b.Addr(), Outbox: outbox.Store{DB: db2}, TLS: clientTLS})
 	waitUntil(t, "a refused connection", func() bool { return r.Stats().Failures > 0 })
 	if s := r.Stats(); s.Connected || strings.Contains(s.LastError, wrong) {
 		t.Errorf("stats %+v: want not connected, password masked", s)
