@@ -20,6 +20,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
+	"github.com/gridloupe/gridloupe/stream/mqtt/mqtttest"
 	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
@@ -63,37 +64,19 @@ func openStore(t testing.TB) testDB {
 	return testDB{db}
 }
 
-// logBuf collects log output so tests can check what was (not) logged.
-type logBuf struct {
-	mu sync.Mutex
-	b  bytes.Buffer
-}
-
-func (l *logBuf) Write(p []byte) (int, error) {
-	l.mu.Lock()
-	defer l.mu.Unlock()
-	return l.b.Write(p)
-}
-
-func (l *logBuf) String() string {
-	l.mu.Lock()
-	defer l.mu.Unlock()
-	return l.b.String()
-}
-
 // running is a Publisher whose Run goroutine the test owns.
 type running struct {
 	*mqtt.Publisher
 	cancel context.CancelFunc
 	done   chan error
-	logs   *logBuf
+	logs   *mqtttest.LockedBuffer
 }
 
 // startPub builds a publisher for url over db with test timings, lets mod
 // adjust the config, and runs it until the test ends.
 func startPub(t testing.TB, url string, db mqtt.Outbox, mod func(*mqtt.Config)) *running {
 	t.Helper()
-	logs := new(logBuf)
+	logs := new(mqtttest.LockedBuffer)
 	cfg := mqtt.Config{
 		Broker: url, ClientID: "dc2-gw1-" + strconv.FormatInt(time.Now().UnixNano(), 36), Base: testBase, Outbox: db,
 		AckTimeout: testAckTTL, MaxReconnect: testRecon, RetryInterval: testRetry, Poll: testPoll,
@@ -267,13 +250,7 @@ func (s *subscriber) outboxMsgs(t testing.TB) []seqMsg {
 // waitUntil polls cond until it holds or waitLong passes.
 func waitUntil(t testing.TB, what string, cond func() bool) {
 	t.Helper()
-	deadline := time.Now().Add(waitLong)
-	for !cond() {
-		if time.Now().After(deadline) {
-			t.Fatalf("timed out after %v waiting for %s", waitLong, what)
-		}
-		time.Sleep(pollEvery)
-	}
+	mqtttest.WaitUntil(t, what, waitLong, pollEvery, cond)
 }
 
 // proxy forwards TCP connections to an upstream broker. Open starts it on a

@@ -30,7 +30,7 @@ type Broker struct {
 
 	mu  sync.Mutex
 	cmd *exec.Cmd
-	out *syncBuffer
+	out *LockedBuffer
 	end chan struct{} // closed when cmd has been waited for
 }
 
@@ -109,7 +109,7 @@ func (b *Broker) Start() {
 	if b.cmd != nil {
 		return
 	}
-	out := new(syncBuffer)
+	out := new(LockedBuffer)
 	cmd := exec.Command(b.bin, "-c", b.conf)
 	cmd.Stdout, cmd.Stderr = out, out
 	if err := cmd.Start(); err != nil {
@@ -150,20 +150,35 @@ func (b *Broker) Stop() {
 	b.cmd = nil
 }
 
-// syncBuffer is the process output, written by exec's copier goroutine.
-type syncBuffer struct {
+// LockedBuffer is a bytes.Buffer safe for one writer goroutine (a child's
+// output copier, a logger) and readers in the test: mosquitto's output, a
+// publisher's log.
+type LockedBuffer struct {
 	mu  sync.Mutex
 	buf bytes.Buffer
 }
 
-func (s *syncBuffer) Write(p []byte) (int, error) {
+func (s *LockedBuffer) Write(p []byte) (int, error) {
 	s.mu.Lock()
 	defer s.mu.Unlock()
 	return s.buf.Write(p)
 }
 
-func (s *syncBuffer) String() string {
+func (s *LockedBuffer) String() string {
 	s.mu.Lock()
 	defer s.mu.Unlock()
 	return s.buf.String()
+}
+
+// WaitUntil polls cond every poll until it holds, or fails the test after
+// timeout naming what it waited for.
+func WaitUntil(t testing.TB, what string, timeout, poll time.Duration, cond func() bool) {
+	t.Helper()
+	deadline := time.Now().Add(timeout)
+	for !cond() {
+		if time.Now().After(deadline) {
+			t.Fatalf("timed out after %v waiting for %s", timeout, what)
+		}
+		time.Sleep(poll)
+	}
 }

@@ -21,6 +21,7 @@ import (
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/outbox"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/mqtt"
+	"github.com/gridloupe/gridloupe/stream/mqtt/mqtttest"
 	"github.com/gridloupe/gridloupe/stream/mqtt/mqtttest/testcert"
 	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
@@ -67,29 +68,11 @@ func waitUntil(t testing.TB, what string, cond func() bool) {
 	}
 }
 
-// syncBuf collects log output so tests can check what was (not) logged.
-type syncBuf struct {
-	mu sync.Mutex
-	b  bytes.Buffer
-}
-
-func (l *syncBuf) Write(p []byte) (int, error) {
-	l.mu.Lock()
-	defer l.mu.Unlock()
-	return l.b.Write(p)
-}
-
-func (l *syncBuf) String() string {
-	l.mu.Lock()
-	defer l.mu.Unlock()
-	return l.b.String()
-}
-
 // runPub runs a publisher over db until the test ends and checks that the
 // password never reached its log.
 func runPub(t *testing.T, cfg mqtt.Config) *mqtt.Publisher {
 	t.Helper()
-	logs := new(syncBuf)
+	logs := new(mqtttest.LockedBuffer)
 	cfg.ClientID = "dc2-gw1-" + strconv.FormatInt(time.Now().UnixNano(), 36)
 	cfg.Base = testBase
 	cfg.Poll, cfg.RetryInterval, cfg.MaxReconnect = 100*time.Millisecond, 200*time.Millisecond, time.Second
