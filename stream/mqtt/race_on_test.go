@@ -1,0 +1,5 @@
+//go:build race
+
+package mqtt_test
+
+const raceEnabled = true
