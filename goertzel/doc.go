@@ -1,3 +1,5 @@
+//go:generate go run asmgen.go
+
 // Package goertzel turns blocks of samples into phasors: single-frequency
 // Goertzel filters, streaming harmonic banks and a sliding DFT.
 //
