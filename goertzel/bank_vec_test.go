@@ -1,9 +1,13 @@
 package goertzel
 
 import (
+	"bytes"
 	"fmt"
 	"math"
 	"math/cmplx"
+	"os"
+	"os/exec"
+	"path/filepath"
 	"testing"
 )
 
@@ -93,6 +97,24 @@ func TestBankVecMatchesGo(t *testing.T) {
 			}
 		}
 	}
+	// Every kernel width once: 1..vecMaxK vectors in a single pass, each
+	// with its lanes partly filled and full.
+	const w = 50.02 / 10240
+	x := awkward(2047, w, seq(1, 50), 5)
+	fund := cmplx.Abs(directDFT(x, w))
+	for m := 1; m <= vecMaxK*vecLanes; m++ {
+		orders := seq(1, m)
+		want := writeBlocks(goBank(t, orders), w, x, 7)
+		got := writeBlocks(mustBank(t, orders), w, x, 7)
+		for i, h := range orders {
+			d := cmplx.Abs(got[i] - want[i])
+			worst = max(worst, d/fund)
+			// src: vecRelTol (the project's own bound, above).
+			if d > vecRelTol*fund {
+				t.Errorf("%d orders (one pass): h=%d kernel %v, Go %v, |Δ| %.3g of the fundamental", m, h, got[i], want[i], d/fund)
+			}
+		}
+	}
 	t.Logf("worst |kernel − Go| %.3g of the fundamental", worst)
 }
 
@@ -155,6 +177,35 @@ func TestPlanPasses(t *testing.T) {
 				t.Errorf("planPasses(%d, %d)[%d] = %+v, want k %d at lane %d", tc.v, tc.maxK, i, p, tc.want[i], off*vecLanes)
 			}
 			off += p.k
+		}
+	}
+}
+
+func TestAsmGenerated(t *testing.T) {
+	if testing.Short() {
+		t.Skip("builds and runs the generator: not in -short mode")
+	}
+	goTool, err := exec.LookPath("go")
+	if err != nil {
+		t.Skipf("no go command to run asmgen.go: %v", err)
+	}
+	dir := t.TempDir()
+	cmd := exec.Command(goTool, "run", "asmgen.go", "-dir", dir)
+	if out, err := cmd.CombinedOutput(); err != nil {
+		t.Fatalf("go run asmgen.go: %v\n%s", err, out)
+	}
+	for _, name := range []string{"bank_amd64.s", "bank_arm64.s"} {
+		want, err := os.ReadFile(filepath.Join(dir, name))
+		if err != nil {
+			t.Fatal(err)
+		}
+		got, err := os.ReadFile(name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		// src: asmgen.go is the source of the committed kernels (its doc comment).
+		if !bytes.Equal(got, want) {
+			t.Errorf("%s differs from what asmgen.go writes: run go generate ./goertzel/", name)
 		}
 	}
 }
