@@ -15,7 +15,6 @@ import (
 	"testing"
 	"time"
 
-	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/events"
 	"github.com/gridloupe/gridloupe/store"
@@ -95,25 +94,8 @@ func fillReportRecord(s *metrics.Setup, r *metrics.Record, iv metrics.Interval, 
 
 func buildReportStore(t *testing.T) (cfgPath, dbPath string) {
 	t.Helper()
-	dir := t.TempDir()
-	cfgPath = writeFile(t, dir, "north-weir.yaml", "gateway: dc2-gw1\n"+evalCfgAll)
-	cfg, err := config.Load(cfgPath)
-	if err != nil {
-		t.Fatal(err)
-	}
-	setup, _, err := setupFromConfig(cfg)
-	if err != nil {
-		t.Fatal(err)
-	}
-	dbPath = filepath.Join(dir, "gl.db")
-	db, err := store.Open(store.Options{Path: dbPath, NoSync: true})
-	if err != nil {
-		t.Fatal(err)
-	}
+	cfgPath, dbPath, setup, db := newEvalStore(t, "gateway: dc2-gw1\n"+evalCfgAll)
 	defer db.Close()
-	if err := db.SetLayout(setup); err != nil {
-		t.Fatal(err)
-	}
 	var recs []*metrics.Record
 	flush := func() {
 		if err := db.PutAggregates(recs); err != nil {
