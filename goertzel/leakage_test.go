@@ -151,7 +151,6 @@ func TestLeakageFundamental(t *testing.T) {
 // phasors still equal the constructed ones to leakPhasorTol, and the last
 // step did skip entries.
 func TestLeakageSkip(t *testing.T) {
-	const fs = 10240.0
 	orders := []int{1, 5, 7, 11, 13, 17, 19, 23, 25, 29, 31, 35, 37, 41, 43, 47, 49}
 	rng := newRand(11)
 	skipped := false
