@@ -7,8 +7,13 @@ import (
 	"net/http/httptest"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 	"time"
+
+	dto "github.com/prometheus/client_model/go"
+	"github.com/prometheus/common/expfmt"
+	"github.com/prometheus/common/model"
 
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/energy"
@@ -130,9 +135,78 @@ func TestMetricsGolden(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
+			if ct != expoContentType {
+				t.Errorf("Content-Type %q, want %q (the client library's, kept)", ct, expoContentType)
+			}
+			compareFamilies(t, string(want), body)
 			if body != string(want) {
 				t.Errorf("/metrics differs from %s:\n%s", path, body)
 			}
 		})
+	}
+}
+
+// parseText parses a body with the Prometheus library's text parser, which
+// refuses a second HELP or TYPE of one name and malformed lines.
+func parseText(t *testing.T, body string) map[string]*dto.MetricFamily {
+	t.Helper()
+	p := expfmt.NewTextParser(model.UTF8Validation)
+	fams, err := p.TextToMetricFamilies(strings.NewReader(body))
+	if err != nil {
+		t.Fatalf("not valid Prometheus text: %v", err)
+	}
+	return fams
+}
+
+// compareFamilies reports, family by family, where got differs from want:
+// a missing or extra family, its HELP and TYPE, and each series' labels
+// and value (NaN equal to NaN).
+func compareFamilies(t *testing.T, want, got string) {
+	t.Helper()
+	w, g := parseText(t, want), parseText(t, got)
+	for name := range g {
+		if w[name] == nil {
+			t.Errorf("extra family %s", name)
+		}
+	}
+	for name, wf := range w {
+		gf := g[name]
+		if gf == nil {
+			t.Errorf("family %s missing", name)
+			continue
+		}
+		if gf.GetHelp() != wf.GetHelp() || gf.GetType() != wf.GetType() {
+			t.Errorf("%s: HELP %q TYPE %v, want %q %v", name, gf.GetHelp(), gf.GetType(), wf.GetHelp(), wf.GetType())
+		}
+		series := func(f *dto.MetricFamily) map[string]float64 {
+			m := map[string]float64{}
+			for _, x := range f.Metric {
+				var key strings.Builder
+				for _, l := range x.Label {
+					key.WriteString(l.GetName() + "=" + l.GetValue() + ";")
+				}
+				v := x.GetGauge().GetValue()
+				if x.Counter != nil {
+					v = x.GetCounter().GetValue()
+				}
+				m[key.String()] = v
+			}
+			return m
+		}
+		ws, gs := series(wf), series(gf)
+		for k, v := range ws {
+			gv, ok := gs[k]
+			switch {
+			case !ok:
+				t.Errorf("%s{%s} missing", name, k)
+			case gv != v && !(math.IsNaN(gv) && math.IsNaN(v)):
+				t.Errorf("%s{%s} = %v, want %v", name, k, gv, v)
+			}
+		}
+		for k := range gs {
+			if _, ok := ws[k]; !ok {
+				t.Errorf("extra series %s{%s}", name, k)
+			}
+		}
 	}
 }
