@@ -233,6 +233,10 @@ func (t *liveTable) legend(cfg *config.Config, rules []alarm.Rule) {
 	}
 	fmt.Fprintln(t.w, "alarm rules (a watched value shows its threshold beside it, e.g. 33.29 >45):")
 	for _, a := range cfg.Alarms {
+		if a.Metric == config.MetricEvent {
+			fmt.Fprintf(t.w, "  %-13s %s; %s\n", a.Name, eventAlarmText(cfg, a), a.Severity)
+			continue
+		}
 		what, cond := a.Channel, ""
 		if a.Metric == "pf" || a.Metric == "dpf" {
 			what = "phase " + a.Phase
