@@ -142,11 +142,13 @@ type TLS struct {
 	CA, Cert, Key string
 }
 
-// Alarm is one alarm rule. Exactly one of Above and Below is set.
+// Alarm is one alarm rule. Exactly one of Above and Below is set, except
+// for metric event, which has neither (nor a Level).
 type Alarm struct {
 	Name       string        // unique
-	Metric     string        // one of Metrics()
-	Channel    string        // per-channel metrics: a configured channel
+	Metric     string        // one of Metrics(), or MetricEvent
+	Channel    string        // per-channel metrics: a configured channel; metric event: a voltage channel, or "" for any
+	Kinds      []string      // metric event: the event kinds watched (EventKinds); empty = every kind
 	Phase      string        // pf, dpf: "a", "b", "c" or "total" (default)
 	Circuit    string        // pf, dpf with circuits: the circuit whose phase or total is watched; required then
 	Level      string        // interval label: 200ms, 3s, 10min (default), 2h
@@ -154,14 +156,21 @@ type Alarm struct {
 	Above      *float64      // raise when the value exceeds this (metric units)
 	Below      *float64      // raise when the value falls under this (metric units)
 	Deadband   float64       // hysteresis in metric units, ≥ 0
-	OnDelay    time.Duration // sample time the condition must hold before raising
-	OffDelay   time.Duration // sample time it must be clear before clearing
+	OnDelay    time.Duration // sample time the condition must hold before raising; metric event: the minimum event duration
+	OffDelay   time.Duration // sample time it must be clear before clearing; metric event: after the last event ended, default 10m
 	MinLoadPct float64       // quiet below this percentage of IL (or the current channel's full scale); 0 = off
 	Harmonic   int           // metrics pct and pct_il: the order, 2..50
 	RelativeTo string        // "" (absolute threshold) or RelativeBaseline: above/below are a rise/drop from the learned baseline
 	Learn      time.Duration // relative_to baseline: the commissioning period the baseline is learned over; default 168h
 	Line       int           // line of the rule's entry in the config file
 }
+
+// MetricEvent is the alarm metric that watches voltage events.
+const MetricEvent = "event"
+
+// EventKinds are the event kinds an event rule's kind may name (DESIGN
+// "Voltage events").
+var EventKinds = []string{"dip", "swell", "interruption"}
 
 // Spellings of enumerated values.
 const (

@@ -502,3 +502,33 @@ func TestBusVoltage(t *testing.T) {
 		}
 	}
 }
+
+// TestEventAlarm: rules on metric event take kind (one, a list, or none =
+// every kind), an optional voltage channel, and default off_delay 10m.
+func TestEventAlarm(t *testing.T) {
+	t.Parallel()
+	const src = "README, Alarm rules: metric: event; off_delay defaults to 10 min (common practice, no source)"
+	tests := []struct {
+		rule    string
+		kinds   []string
+		channel string
+		on, off time.Duration
+		sev     string
+	}{
+		{"{name: sd, metric: event, kind: dip}", []string{"dip"}, "", 0, 10 * time.Minute, "warning"},
+		{"{name: sd, metric: event, kind: [swell, interruption], off_delay: 30s}", []string{"swell", "interruption"}, "", 0, 30 * time.Second, "warning"},
+		{"{name: sd, metric: event}", nil, "", 0, 10 * time.Minute, "warning"},
+		{"{name: sd, metric: event, kind: [], channel: vb, on_delay: 100ms, off_delay: 0s, severity: critical}", []string{}, "vb", 100 * time.Millisecond, 0, "critical"},
+	}
+	for _, tc := range tests {
+		t.Run(tc.rule, func(t *testing.T) {
+			c := mustParse(t, "ev.yaml", "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: va, kind: voltage, phase: a}\n"+
+				"  - {name: vb, kind: voltage, phase: b}\nalarms:\n  - "+tc.rule+"\n")
+			a := c.Alarms[0]
+			if !slices.Equal(a.Kinds, tc.kinds) || a.Channel != tc.channel || a.OnDelay != tc.on || a.OffDelay != tc.off ||
+				a.Severity != tc.sev || a.Level != "" || a.Above != nil || a.Below != nil {
+				t.Errorf("%+v, want kinds %v channel %q on %v off %v severity %s, no level or threshold (src: %s)", a, tc.kinds, tc.channel, tc.on, tc.off, tc.sev, src)
+			}
+		})
+	}
+}

@@ -39,7 +39,7 @@ var sections = map[string][]string{
 	"demand":             {"interval", "method"},
 	"events":             {"dip_pct", "swell_pct", "interruption_pct", "hysteresis_pct", "pre_cycles", "post_cycles", "max_capture_s"},
 	"alarms[]": {"name", "metric", "channel", "phase", "level", "above", "below", "deadband",
-		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic", "circuit", "relative_to", "learn"},
+		"on_delay", "off_delay", "severity", "min_load_pct", "harmonic", "circuit", "relative_to", "learn", "kind"},
 }
 
 // Bounds on list lengths keep a hostile file from costing much.
@@ -666,6 +666,31 @@ func (d *decoder) levels(v *yaml.Node, p string, dst *[]string) *Error {
 	})
 }
 
+// eventKinds decodes an event rule's kind: one of EventKinds, or a list of
+// them (each once).
+func (d *decoder) eventKinds(v *yaml.Node, p string, dst *[]string) *Error {
+	*dst = []string{}
+	if n := deref(v); n != nil && n.Kind != yaml.SequenceNode {
+		var k string
+		if e := d.enum(v, p, &k, EventKinds...); e != nil {
+			return e
+		}
+		*dst = append(*dst, k)
+		return nil
+	}
+	return d.sequence(v, p, "event kinds ("+strings.Join(EventKinds, ", ")+")", len(EventKinds), func(_ int, v *yaml.Node, ip string) *Error {
+		var k string
+		if e := d.enum(v, ip, &k, EventKinds...); e != nil {
+			return e
+		}
+		if slices.Contains(*dst, k) {
+			return d.errf(v, ip, "%s is listed twice", k)
+		}
+		*dst = append(*dst, k)
+		return nil
+	})
+}
+
 func (d *decoder) alarm(n *yaml.Node, path string, a *Alarm) *Error {
 	return d.mapping(n, path, "alarms[]", func(k string, v *yaml.Node, p string) *Error {
 		switch k {
@@ -674,7 +699,9 @@ func (d *decoder) alarm(n *yaml.Node, path string, a *Alarm) *Error {
 		case "circuit":
 			return d.str(v, p, &a.Circuit)
 		case "metric":
-			return d.enum(v, p, &a.Metric, metricNames...)
+			return d.enum(v, p, &a.Metric, alarmMetricNames...)
+		case "kind":
+			return d.eventKinds(v, p, &a.Kinds)
 		case "channel":
 			return d.str(v, p, &a.Channel)
 		case "phase":

@@ -25,7 +25,7 @@ func alarmMetricsDoc() string {
 	ch, rest := all[:k], all[k:]
 	var b strings.Builder
 	b.WriteString("#     metric: tdd_h50_pct          # required: " + strings.Join(ch, " | ") + "\n")
-	b.WriteString(pad + "| " + strings.Join(rest, " | ") + "\n")
+	b.WriteString(pad + "| " + strings.Join(rest, " | ") + " | " + MetricEvent + " (voltage events, below)\n")
 	var units []string
 	for _, q := range append(quantity.Channels(), quantity.Phases()...) {
 		if q.Alarm {
@@ -154,6 +154,14 @@ alarms: []
 #     relative_to: ""              # "" (above/below are absolute) | baseline: above/below are a rise/drop from the
 #                                  #   commissioning baseline learned per 10 % load bin (fundamental current, % of il_a)
 #     learn: 168h                  # relative_to baseline: how long the baseline is learned from the first value
+#   - name: supply-dip             # a rule on voltage events takes only these keys
+#     metric: event                # raised when a dip, swell or interruption ends (a long one: while it lasts,
+#                                  #   once its capture of max_capture_s is complete)
+#     kind: [dip, interruption]    # dip | swell | interruption, or a list of them; absent = every kind
+#     channel: va                  # a voltage channel; absent = any
+#     on_delay: 0s                 # the shortest event that raises; 0 = every event
+#     off_delay: 10m               # how long it stays raised after the last such event ended (default 10m)
+#     severity: warning            # info | warning | critical (default warning)
 
 # modbus:                  # read-only Modbus TCP server for a BMS; off unless this section is given
 #   listen: 127.0.0.1:5020 # host:port; loopback by default (see the README before exposing it)

@@ -59,7 +59,20 @@ func checkInvariants(t *testing.T, c *Config) {
 		}
 	}
 	for _, a := range c.Alarms {
-		if (a.Above == nil) == (a.Below == nil) || a.Level == "" || a.Severity == "" {
+		if a.Metric == MetricEvent {
+			ci := c.ChannelIndex(a.Channel)
+			if a.Above != nil || a.Below != nil || a.Level != "" || a.Severity == "" || a.Deadband != 0 || a.Harmonic != 0 ||
+				a.MinLoadPct != 0 || a.RelativeTo != "" || (a.Channel != "" && (ci < 0 || c.Channels[ci].Kind != KindVoltage)) {
+				t.Fatalf("event alarm %+v", a)
+			}
+			for _, k := range a.Kinds {
+				if !slices.Contains(EventKinds, k) {
+					t.Fatalf("event alarm kind %q", k)
+				}
+			}
+			continue
+		}
+		if (a.Above == nil) == (a.Below == nil) || a.Level == "" || a.Severity == "" || len(a.Kinds) > 0 {
 			t.Fatalf("alarm %+v", a)
 		}
 	}

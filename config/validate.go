@@ -19,9 +19,11 @@ import (
 // Read-only tables of allowed values.
 var (
 	// metricNames: what alarm rules may watch (metrics/quantity, defined there once).
-	metricNames     = quantity.AlarmMetrics()
-	alarmLevels     = []string{"200ms", "3s", "10min", "2h"} // DESIGN "Time": the closed set of interval labels
-	telemetryLevels = []string{"3s", "10min", "2h"}
+	metricNames = quantity.AlarmMetrics()
+	// alarmMetricNames: what the metric key accepts: the record metrics and event.
+	alarmMetricNames = append(slices.Clip(metricNames), MetricEvent)
+	alarmLevels      = []string{"200ms", "3s", "10min", "2h"} // DESIGN "Time": the closed set of interval labels
+	telemetryLevels  = []string{"3s", "10min", "2h"}
 )
 
 // Defaults not visible in the struct literals below.
@@ -553,12 +555,21 @@ func (v *validator) alarms() *Error {
 		case strings.IndexFunc(a.Name, unicode.IsControl) >= 0:
 			return v.fail(p+".name", "must not contain control characters")
 		case !v.has(p + ".metric"):
-			return v.fail(p+".metric", "required: one of %s", strings.Join(metricNames, ", "))
+			return v.fail(p+".metric", "required: one of %s", strings.Join(alarmMetricNames, ", "))
 		}
 		if j, dup := names[a.Name]; dup {
 			return v.fail(p+".name", "%q is used twice (first at line %d)", a.Name, v.c.Alarms[j].Line)
 		}
 		names[a.Name] = i
+		if a.Metric == MetricEvent {
+			if e := v.eventAlarm(p, a); e != nil {
+				return e
+			}
+			continue
+		}
+		if v.has(p + ".kind") {
+			return v.fail(p+".kind", "rule %q: kind applies to metric: event only (the voltage event kinds %s)", a.Name, strings.Join(EventKinds, ", "))
+		}
 		if a.Level == "" {
 			a.Level = defaultLevel
 		}
@@ -570,6 +581,54 @@ func (v *validator) alarms() *Error {
 		}
 	}
 	return nil
+}
+
+// eventAllowed are the keys of an event rule.
+var eventAllowed = []string{"name", "metric", "kind", "channel", "on_delay", "off_delay", "severity"}
+
+// defaultEventOffDelay is how long an event rule stays raised after the
+// last event ended when off_delay is not given: long enough for the
+// operator to notice a dip of a fraction of a second, and for the drive
+// restarts that follow it (common practice, no source).
+const defaultEventOffDelay = 10 * time.Minute
+
+// eventAlarm checks a rule on metric event and fills its defaults.
+func (v *validator) eventAlarm(p string, a *Alarm) *Error {
+	for _, k := range sections["alarms[]"] {
+		if !slices.Contains(eventAllowed, k) && v.has(p+"."+k) {
+			return v.fail(p+"."+k, "rule %q: %s does not apply to metric: event (the events section sets the thresholds); allowed keys: %s",
+				a.Name, k, strings.Join(eventAllowed, ", "))
+		}
+	}
+	if a.Severity == "" {
+		a.Severity = defaultSeverity
+	}
+	if !v.has(p + ".off_delay") {
+		a.OffDelay = defaultEventOffDelay
+	}
+	if v.has(p + ".channel") {
+		i := v.c.ChannelIndex(a.Channel)
+		switch {
+		case i < 0:
+			return v.fail(p+".channel", "rule %q: no channel is named %q; allowed: a voltage channel (%s), or leave channel out to watch every one",
+				a.Name, a.Channel, strings.Join(v.c.voltageNames(), ", "))
+		case v.c.Channels[i].Kind != KindVoltage:
+			return v.fail(p+".channel", "rule %q: %q is a %s channel; voltage events are on voltage channels (%s)",
+				a.Name, a.Channel, v.c.Channels[i].Kind, strings.Join(v.c.voltageNames(), ", "))
+		}
+	}
+	return nil
+}
+
+// voltageNames lists the voltage channels' names.
+func (c *Config) voltageNames() []string {
+	var out []string
+	for _, ch := range c.Channels {
+		if ch.Kind == KindVoltage {
+			out = append(out, ch.Name)
+		}
+	}
+	return out
 }
 
 func (v *validator) alarm(p string, a *Alarm) *Error {

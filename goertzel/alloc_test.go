@@ -11,19 +11,25 @@ const raceEnabled = false
 
 func TestBankAllocs(t *testing.T) {
 	const w = 50.0 / 10240
-	b := mustBank(t, seq(1, 50))
 	x := drive50(2048, w, 1)
-	dst := make([]complex128, b.Len())
-	// src: STYLE.md §5, zero allocations on per-sample paths.
-	for name, f := range map[string]func(){
-		"Reset":   func() { b.Reset(w) },
-		"Write":   func() { b.Write(x[:128]) },
-		"Write1":  func() { b.Write(x[:1]) },
-		"Phasors": func() { b.Phasors(dst) },
-		"Window":  func() { b.Reset(w); b.Write(x); b.Phasors(dst) },
-	} {
-		if n := testing.AllocsPerRun(100, f); n != 0 {
-			t.Errorf("Bank.%s: %v allocs per call, want 0", name, n)
+	// Both paths of Write: the vector kernels where this build and CPU have
+	// them (vecOK), and the pure-Go loops.
+	for _, vec := range []bool{vecOK, false} {
+		b := mustBank(t, seq(1, 50))
+		b.vec = vec
+		dst := make([]complex128, b.Len())
+		// src: STYLE.md §5, zero allocations on per-sample paths.
+		for name, f := range map[string]func(){
+			"Reset":   func() { b.Reset(w) },
+			"Write":   func() { b.Write(x[:128]) },
+			"Write1":  func() { b.Write(x[:1]) },
+			"Write7":  func() { b.Write(x[:7]) },
+			"Phasors": func() { b.Phasors(dst) },
+			"Window":  func() { b.Reset(w); b.Write(x); b.Phasors(dst) },
+		} {
+			if n := testing.AllocsPerRun(100, f); n != 0 {
+				t.Errorf("Bank.%s (vector kernels %v): %v allocs per call, want 0", name, vec, n)
+			}
 		}
 	}
 }

@@ -47,7 +47,21 @@ func BenchmarkWindow(b *testing.B) {
 		dst := make([]complex128, len(set.orders))
 
 		b.Run(set.name+"/bank", func(b *testing.B) {
+			// The vector kernels where this build and CPU have them.
 			bank := mustBank(b, set.orders)
+			b.ReportAllocs()
+			for b.Loop() {
+				bank.Reset(benchW)
+				bank.Write(x)
+				bank.Phasors(dst)
+			}
+			reportPerSample(b, benchN)
+			checkFund(b, dst[0])
+		})
+
+		b.Run(set.name+"/bankgo", func(b *testing.B) {
+			// The pure-Go loops, as armv7 and -tags purego run them.
+			bank := goBank(b, set.orders)
 			b.ReportAllocs()
 			for b.Loop() {
 				bank.Reset(benchW)
@@ -162,26 +176,33 @@ func BenchmarkSlidingPush(b *testing.B) {
 
 // BenchmarkLeakage: the correction of one channel's window at 50.02 Hz
 // (2047 samples for 2047.18) for 1, 17 and 50 orders, beside the bank that
-// produced the phasors.
+// produced the phasors: Reset (the kernel and the matrix, once per window
+// for all channels) and Solve (once per channel) apart.
 func BenchmarkLeakage(b *testing.B) {
 	const w = 50.02 / 10240
 	for _, orders := range [][]int{{1}, {1, 5, 7, 11, 13, 17, 19, 23, 25, 29, 31, 35, 37, 41, 43, 47, 49}, seq(1, 50)} {
-		b.Run(fmt.Sprintf("%dorders", len(orders)), func(b *testing.B) {
-			bk := mustBank(b, orders)
-			x := drive50(2047, w, 1)
-			raw := make([]complex128, len(orders))
-			ph := make([]complex128, len(orders))
-			bk.Reset(w)
-			bk.Write(x)
-			bk.Phasors(raw)
-			l, err := NewLeakage(orders)
-			if err != nil {
-				b.Fatal(err)
+		bk := mustBank(b, orders)
+		x := drive50(2047, w, 1)
+		raw := make([]complex128, len(orders))
+		ph := make([]complex128, len(orders))
+		bk.Reset(w)
+		bk.Write(x)
+		bk.Phasors(raw)
+		l, err := NewLeakage(orders)
+		if err != nil {
+			b.Fatal(err)
+		}
+		b.Run(fmt.Sprintf("Reset/%dorders", len(orders)), func(b *testing.B) {
+			b.ReportAllocs()
+			for b.Loop() {
+				l.Reset(w, len(x))
 			}
+		})
+		b.Run(fmt.Sprintf("Solve/%dorders", len(orders)), func(b *testing.B) {
+			l.Reset(w, len(x))
 			b.ReportAllocs()
 			var ok bool
 			for b.Loop() {
-				l.Reset(w, len(x))
 				copy(ph, raw)
 				_, ok = l.Solve(ph, 0)
 			}

@@ -1,3 +1,5 @@
+//go:generate go run asmgen.go
+
 // Package goertzel turns blocks of samples into phasors: single-frequency
 // Goertzel filters, streaming harmonic banks and a sliding DFT.
 //
@@ -35,6 +37,11 @@
 //     frequency, and a sliding form would need integer bins of a fixed N.
 //
 // The package is pure computation: it does no I/O, knows nothing about
-// channels or configuration, and imports only the standard library (gonum is
-// used in tests only, as an independent reference).
+// channels or configuration, and imports only the standard library and, on
+// amd64, golang.org/x/sys/cpu to detect AVX2 and FMA (gonum is used in tests
+// only, as an independent reference). Bank's per-sample loop has vector
+// kernels in assembly for amd64 and arm64 (bank_amd64.s, bank_arm64.s,
+// written by asmgen.go) beside the pure-Go loops, which every other
+// architecture, an amd64 CPU without AVX2 and FMA, and the purego build tag
+// use.
 package goertzel

@@ -146,7 +146,7 @@ func TestSmallHarmonicsClassI(t *testing.T) {
 				if levels[metrics.Int3s] == 0 || levels[metrics.Int10min] == 0 {
 					t.Errorf("locked values per level %v, want 3s and 10min", levels)
 				}
-				t.Logf("worst share of class I used: voltage %.3f, current %.3f", worst[0], worst[1])
+				t.Logf("worst share of class I used: voltage %.3g, current %.3g", worst[0], worst[1])
 			})
 		}
 	}

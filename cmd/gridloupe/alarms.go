@@ -7,6 +7,7 @@ import (
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/alarm"
+	"github.com/gridloupe/gridloupe/metrics/events"
 	"github.com/gridloupe/gridloupe/metrics/limits"
 )
 
@@ -24,6 +25,14 @@ func alarmRules(cfg *config.Config, s *metrics.Setup) ([]alarm.Rule, error) {
 		}
 	}
 	for _, a := range cfg.Alarms {
+		if a.Metric == config.MetricEvent {
+			r, err := eventRule(cfg, a)
+			if err != nil {
+				return nil, err
+			}
+			out = append(out, r)
+			continue
+		}
 		lv, ok := metrics.ParseInterval(a.Level)
 		if !ok {
 			return nil, usagef("%s:%d: alarm %q: level %q", cfg.Path, a.Line, a.Name, a.Level)
@@ -91,6 +100,56 @@ func alarmRules(cfg *config.Config, s *metrics.Setup) ([]alarm.Rule, error) {
 		out = append(out, r)
 	}
 	return out, nil
+}
+
+// eventRule translates a rule on metric event.
+func eventRule(cfg *config.Config, a config.Alarm) (alarm.Rule, error) {
+	r := alarm.Rule{Name: a.Name, Metric: alarm.MetricEvent, OnDelay: a.OnDelay, OffDelay: a.OffDelay,
+		Severity: a.Severity, Target: alarm.Target{Channel: cfg.ChannelIndex(a.Channel)}}
+	if a.Channel == "" {
+		r.Target.Channel = -1
+	}
+	for _, k := range a.Kinds {
+		kind, ok := events.ParseKind(k)
+		if !ok {
+			return r, usagef("%s:%d: alarm %q: kind %q", cfg.Path, a.Line, a.Name, k)
+		}
+		r.Kinds = append(r.Kinds, kind)
+	}
+	r.Text = eventAlarmText(cfg, a)
+	return r, nil
+}
+
+// eventAlarmText is an event rule's sentence: the kinds with the events
+// config's thresholds, where, and when it clears.
+func eventAlarmText(cfg *config.Config, a config.Alarm) string {
+	kinds := a.Kinds
+	if len(kinds) == 0 {
+		kinds = config.EventKinds
+	}
+	e := cfg.Events
+	var what []string
+	for _, k := range kinds {
+		switch k {
+		case "dip":
+			what = append(what, fmt.Sprintf("dip (below %g %%)", e.DipPct))
+		case "swell":
+			what = append(what, fmt.Sprintf("swell (above %g %%)", e.SwellPct))
+		case "interruption":
+			what = append(what, fmt.Sprintf("interruption (every phase below %g %%)", e.InterruptionPct))
+		}
+	}
+	where := "any voltage channel"
+	if a.Channel != "" {
+		where = a.Channel
+	}
+	var b strings.Builder
+	fmt.Fprintf(&b, "voltage %s of %g V on %s", strings.Join(what, " or "), cfg.Nominal.VoltageV, where)
+	if a.OnDelay > 0 {
+		fmt.Fprintf(&b, ", lasting %s or more", shortDuration(a.OnDelay))
+	}
+	fmt.Fprintf(&b, "; clears %s after the last one ended", shortDuration(a.OffDelay))
+	return b.String()
 }
 
 // alarmText is the human sentence carried in each transition message.

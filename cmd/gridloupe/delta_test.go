@@ -5,7 +5,6 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
-	"os"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -36,33 +35,24 @@ func diff(a, b func(float64) float64) func(float64) float64 {
 // seconds, with a t column.
 func writeRec(t *testing.T, dir, name string, fs, seconds float64, cols []sig) string {
 	t.Helper()
-	p := filepath.Join(dir, name)
-	f, err := os.Create(p)
-	if err != nil {
-		t.Fatal(err)
-	}
-	w := bufio.NewWriter(f)
-	fmt.Fprintln(w, "# invented recording for tests")
-	names := make([]string, len(cols))
-	for i, c := range cols {
-		names[i] = c.name
-	}
-	fmt.Fprintln(w, strings.Join(names, ","))
-	for n := range int(fs * seconds) {
-		x := float64(n) / fs
+	return writeBuffered(t, filepath.Join(dir, name), func(w *bufio.Writer) {
+		fmt.Fprintln(w, "# invented recording for tests")
+		names := make([]string, len(cols))
 		for i, c := range cols {
-			if i > 0 {
-				w.WriteByte(',')
-			}
-			fmt.Fprintf(w, "%.5f", c.f(x))
+			names[i] = c.name
 		}
-		w.WriteByte('\n')
-	}
-	if err := w.Flush(); err != nil {
-		t.Fatal(err)
-	}
-	f.Close()
-	return p
+		fmt.Fprintln(w, strings.Join(names, ","))
+		for n := range int(fs * seconds) {
+			x := float64(n) / fs
+			for i, c := range cols {
+				if i > 0 {
+					w.WriteByte(',')
+				}
+				fmt.Fprintf(w, "%.5f", c.f(x))
+			}
+			w.WriteByte('\n')
+		}
+	})
 }
 
 // northWeirDelta: the invented North Weir DC-2 incomer, measured
@@ -172,36 +162,27 @@ func simBoth(t *testing.T, dir string, seconds float64) string {
 	if err != nil {
 		t.Fatal(err)
 	}
-	p := filepath.Join(dir, "both.csv")
-	f, err := os.Create(p)
-	if err != nil {
-		t.Fatal(err)
-	}
-	w := bufio.NewWriter(f)
-	fmt.Fprintln(w, "va,vb,vc,vab,vcb,ia,ib,ic")
-	buf := make([]float64, 1024*len(ch))
-	for left := int(seconds * 10240); left > 0; {
-		n, err := src.ReadFrames(buf[:min(left, 1024)*len(ch)])
-		if err != nil {
-			t.Fatal(err)
-		}
-		for k := range n {
-			row := buf[k*len(ch) : (k+1)*len(ch)]
-			for i, x := range row {
-				if i > 0 {
-					w.WriteByte(',')
-				}
-				w.WriteString(strconv.FormatFloat(x, 'g', 9, 64))
+	return writeBuffered(t, filepath.Join(dir, "both.csv"), func(w *bufio.Writer) {
+		fmt.Fprintln(w, "va,vb,vc,vab,vcb,ia,ib,ic")
+		buf := make([]float64, 1024*len(ch))
+		for left := int(seconds * 10240); left > 0; {
+			n, err := src.ReadFrames(buf[:min(left, 1024)*len(ch)])
+			if err != nil {
+				t.Fatal(err)
 			}
-			w.WriteByte('\n')
+			for k := range n {
+				row := buf[k*len(ch) : (k+1)*len(ch)]
+				for i, x := range row {
+					if i > 0 {
+						w.WriteByte(',')
+					}
+					w.WriteString(strconv.FormatFloat(x, 'g', 9, 64))
+				}
+				w.WriteByte('\n')
+			}
+			left -= n
 		}
-		left -= n
-	}
-	if err := w.Flush(); err != nil {
-		t.Fatal(err)
-	}
-	f.Close()
-	return p
+	})
 }
 
 // TestDeltaAgainstWyeSimulation: the simulator's six-pulse drives fed

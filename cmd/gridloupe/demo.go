@@ -233,6 +233,10 @@ func (t *liveTable) legend(cfg *config.Config, rules []alarm.Rule) {
 	}
 	fmt.Fprintln(t.w, "alarm rules (a watched value shows its threshold beside it, e.g. 33.29 >45):")
 	for _, a := range cfg.Alarms {
+		if a.Metric == config.MetricEvent {
+			fmt.Fprintf(t.w, "  %-13s %s; %s\n", a.Name, eventAlarmText(cfg, a), a.Severity)
+			continue
+		}
 		what, cond := a.Channel, ""
 		if a.Metric == "pf" || a.Metric == "dpf" {
 			what = "phase " + a.Phase
@@ -335,6 +339,19 @@ func (t *liveTable) transition(a alarm.Transition) {
 	state := "CLEARED"
 	if a.Raised {
 		state = "RAISED "
+	}
+	if e := a.Event; e != nil {
+		what := "after " + e.ID
+		if a.Raised {
+			ext := "residual"
+			if e.Kind == events.Swell {
+				ext = "maximum"
+			}
+			what = fmt.Sprintf("by %s (%.0f ms, %s %.1f %%)", e.ID, e.DurationS*1000, ext, e.ExtremePct)
+		}
+		fmt.Fprintf(t.w, ">> %s %-13s %s %s at %s\n", state, a.Rule, a.Metric, what, a.Time.UTC().Format("15:04:05"))
+		t.rows++
+		return
 	}
 	fmt.Fprintf(t.w, ">> %s %-13s %s = %s (threshold %g) at %s\n", state, a.Rule, a.Metric, num(a.Value, 2), a.Threshold,
 		a.Time.UTC().Format("15:04:05"))

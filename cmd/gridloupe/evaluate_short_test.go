@@ -1,16 +1,13 @@
 package main
 
 import (
-	"path/filepath"
 	"regexp"
 	"strconv"
 	"strings"
 	"testing"
 	"time"
 
-	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
-	"github.com/gridloupe/gridloupe/store"
 )
 
 // buildShortStore stores two hours of values, 2026-03-05 00:00 to 02:00
@@ -18,25 +15,8 @@ import (
 // store younger than its first midnight.
 func buildShortStore(t *testing.T) (string, string) {
 	t.Helper()
-	dir := t.TempDir()
-	cfgPath := writeFile(t, dir, "north-weir.yaml", evalCfgFew)
-	cfg, err := config.Load(cfgPath)
-	if err != nil {
-		t.Fatal(err)
-	}
-	setup, _, err := setupFromConfig(cfg)
-	if err != nil {
-		t.Fatal(err)
-	}
-	dbPath := filepath.Join(dir, "gl.db")
-	db, err := store.Open(store.Options{Path: dbPath, NoSync: true})
-	if err != nil {
-		t.Fatal(err)
-	}
+	cfgPath, dbPath, setup, db := newEvalStore(t, evalCfgFew)
 	defer db.Close()
-	if err := db.SetLayout(setup); err != nil {
-		t.Fatal(err)
-	}
 	day := time.Date(2026, 3, 5, 0, 0, 0, 0, time.UTC)
 	var recs []*metrics.Record
 	for i := range 2400 {

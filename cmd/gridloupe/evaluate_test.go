@@ -8,7 +8,6 @@ import (
 	"testing"
 	"time"
 
-	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/store"
 )
@@ -24,14 +23,7 @@ sample_rate_hz: 10240
 harmonics: all
 il_a: 160
 isc_a: 6100
-channels:
-  - {name: va, kind: voltage, phase: a}
-  - {name: vb, kind: voltage, phase: b}
-  - {name: vc, kind: voltage, phase: c}
-  - {name: ia, kind: current, phase: a}
-  - {name: ib, kind: current, phase: b}
-  - {name: ic, kind: current, phase: c}
-`
+` + wyeChannels
 
 // evalCfgFew: one phase of the same cabinet, orders 3, 5 and 7 only, so a
 // week of full 3 s coverage stays small.
@@ -93,25 +85,8 @@ func fillEvalRecord(s *metrics.Setup, r *metrics.Record, iv metrics.Interval, st
 // and every 10 min value of the week. It returns the config and store paths.
 func buildEvalStore(t *testing.T, cfgText string, per3s func(d int) int, vh5 func(d, i int) float64) (string, string) {
 	t.Helper()
-	dir := t.TempDir()
-	cfgPath := writeFile(t, dir, "north-weir.yaml", cfgText)
-	cfg, err := config.Load(cfgPath)
-	if err != nil {
-		t.Fatal(err)
-	}
-	setup, _, err := setupFromConfig(cfg)
-	if err != nil {
-		t.Fatal(err)
-	}
-	dbPath := filepath.Join(dir, "gl.db")
-	db, err := store.Open(store.Options{Path: dbPath, NoSync: true})
-	if err != nil {
-		t.Fatal(err)
-	}
+	cfgPath, dbPath, setup, db := newEvalStore(t, cfgText)
 	defer db.Close()
-	if err := db.SetLayout(setup); err != nil {
-		t.Fatal(err)
-	}
 	const batch = 4096
 	pool := make([]*metrics.Record, batch)
 	for i := range pool {

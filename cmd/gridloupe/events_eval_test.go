@@ -1,14 +1,11 @@
 package main
 
 import (
-	"path/filepath"
 	"strings"
 	"testing"
 	"time"
 
-	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
-	"github.com/gridloupe/gridloupe/store"
 )
 
 // TestEvaluateExcludesEventFlag: a week of 10 min values in which every
@@ -29,24 +26,7 @@ func TestEvaluateExcludesEventFlag(t *testing.T) {
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			t.Parallel()
-			dir := t.TempDir()
-			cfgPath := writeFile(t, dir, "north-weir.yaml", evalCfgFew)
-			cfg, err := config.Load(cfgPath)
-			if err != nil {
-				t.Fatal(err)
-			}
-			setup, _, err := setupFromConfig(cfg)
-			if err != nil {
-				t.Fatal(err)
-			}
-			dbPath := filepath.Join(dir, "gl.db")
-			db, err := store.Open(store.Options{Path: dbPath, NoSync: true})
-			if err != nil {
-				t.Fatal(err)
-			}
-			if err := db.SetLayout(setup); err != nil {
-				t.Fatal(err)
-			}
+			cfgPath, dbPath, setup, db := newEvalStore(t, evalCfgFew)
 			var recs []*metrics.Record
 			for i := range 7 * 144 {
 				r := metrics.NewRecord(setup)

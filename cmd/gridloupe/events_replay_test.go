@@ -29,28 +29,19 @@ channels:
 // phase RMS values are given by rms(phase, t).
 func writeEventCSV(t *testing.T, dir string, secs float64, rms func(c int, t float64) float64) string {
 	t.Helper()
-	p := filepath.Join(dir, "events.csv")
-	f, err := os.Create(p)
-	if err != nil {
-		t.Fatal(err)
-	}
-	w := bufio.NewWriter(f)
-	fmt.Fprintln(w, "# invented recording: North Weir DC-2 supply with a dip, a swell and an interruption")
-	fmt.Fprintln(w, "va,vb,vc,ia")
-	const fs, hz = 10240.0, 50.03
-	for n := range int(secs * fs) {
-		tt := float64(n) / fs
-		a := 2 * math.Pi * hz * tt
-		for c := range 3 {
-			fmt.Fprintf(w, "%.4f,", math.Sqrt2*rms(c, tt)*math.Cos(a-float64(c)*2*math.Pi/3))
+	return writeBuffered(t, filepath.Join(dir, "events.csv"), func(w *bufio.Writer) {
+		fmt.Fprintln(w, "# invented recording: North Weir DC-2 supply with a dip, a swell and an interruption")
+		fmt.Fprintln(w, "va,vb,vc,ia")
+		const fs, hz = 10240.0, 50.03
+		for n := range int(secs * fs) {
+			tt := float64(n) / fs
+			a := 2 * math.Pi * hz * tt
+			for c := range 3 {
+				fmt.Fprintf(w, "%.4f,", math.Sqrt2*rms(c, tt)*math.Cos(a-float64(c)*2*math.Pi/3))
+			}
+			fmt.Fprintf(w, "%.4f\n", math.Sqrt2*40*math.Cos(a-0.4))
 		}
-		fmt.Fprintf(w, "%.4f\n", math.Sqrt2*40*math.Cos(a-0.4))
-	}
-	if err := w.Flush(); err != nil {
-		t.Fatal(err)
-	}
-	f.Close()
-	return p
+	})
 }
 
 // TestReplayEvents: replay --events reports a dip, a swell and an
@@ -70,17 +61,7 @@ func TestReplayEvents(t *testing.T) {
 		{"swell", 1.6071, 1.8071, []string{"vc"}, 270.25},
 		{"interruption", 2.8017, 3.4017, []string{"va", "vb", "vc"}, 0},
 	}
-	csv := writeEventCSV(t, dir, 4.4, func(c int, tt float64) float64 {
-		switch {
-		case tt >= 0.5123 && tt < 0.6323 && c < 2:
-			return []float64{126.5, 161}[c]
-		case tt >= 1.6071 && tt < 1.8071 && c == 2:
-			return 270.25
-		case tt >= 2.8017 && tt < 3.4017:
-			return 0
-		}
-		return 230
-	})
+	csv := writeEventCSV(t, dir, 4.4, supplyEvents)
 	cfg := writeFile(t, dir, "dc2.yaml", eventsCfg)
 	evPath := filepath.Join(dir, "events.jsonl")
 	res := runCmd("replay", "--config", cfg, "--events", evPath, "--start", "2026-03-01T10:00:00Z", csv)

@@ -16,17 +16,7 @@ import (
 func TestRunStoresEventsListedAndDrawn(t *testing.T) {
 	t.Parallel()
 	dir := t.TempDir()
-	csv := writeEventCSV(t, dir, 4.4, func(c int, tt float64) float64 {
-		switch {
-		case tt >= 0.5123 && tt < 0.6323 && c < 2:
-			return []float64{126.5, 161}[c]
-		case tt >= 1.6071 && tt < 1.8071 && c == 2:
-			return 270.25
-		case tt >= 2.8017 && tt < 3.4017:
-			return 0
-		}
-		return 230
-	})
+	csv := writeEventCSV(t, dir, 4.4, supplyEvents)
 	db := filepath.Join(dir, "gl.db")
 	cfg := writeFile(t, dir, "dc2.yaml", eventsCfg+"source: {kind: csv, path: "+csv+"}\nstore: {path: "+db+", commit_every: 1s}\n")
 	if res := runCmd("run", "--config", cfg); res.code != 0 {

@@ -66,14 +66,7 @@ sample_rate_hz: 6400
 harmonics: all
 il_a: 160
 isc_a: 6100
-channels:
-  - {name: va, kind: voltage, phase: a}
-  - {name: vb, kind: voltage, phase: b}
-  - {name: vc, kind: voltage, phase: c}
-  - {name: ia, kind: current, phase: a}
-  - {name: ib, kind: current, phase: b}
-  - {name: ic, kind: current, phase: c}
-source: {kind: sim, speed: 60}
+`+wyeChannels+`source: {kind: sim, speed: 60}
 store: {path: %s, commit_every: 1s}
 modbus: {listen: %q}
 http: {listen: %q}

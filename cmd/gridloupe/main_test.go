@@ -29,28 +29,19 @@ channels:
 // mutate may change a row's text.
 func writeCSV(t *testing.T, dir string, samples int, mutate func(i int, row string) string) string {
 	t.Helper()
-	p := filepath.Join(dir, "rec.csv")
-	f, err := os.Create(p)
-	if err != nil {
-		t.Fatal(err)
-	}
-	w := bufio.NewWriter(f)
-	fmt.Fprintln(w, "# invented bench recording")
-	fmt.Fprintln(w, "v,i")
-	phi := math.Acos(0.8)
-	for n := range samples {
-		a := 2 * math.Pi * 50 * float64(n) / 10240
-		row := fmt.Sprintf("%.6f,%.6f", 230*math.Sqrt2*math.Cos(a), 10*math.Sqrt2*math.Cos(a-phi))
-		if mutate != nil {
-			row = mutate(n, row)
+	return writeBuffered(t, filepath.Join(dir, "rec.csv"), func(w *bufio.Writer) {
+		fmt.Fprintln(w, "# invented bench recording")
+		fmt.Fprintln(w, "v,i")
+		phi := math.Acos(0.8)
+		for n := range samples {
+			a := 2 * math.Pi * 50 * float64(n) / 10240
+			row := fmt.Sprintf("%.6f,%.6f", 230*math.Sqrt2*math.Cos(a), 10*math.Sqrt2*math.Cos(a-phi))
+			if mutate != nil {
+				row = mutate(n, row)
+			}
+			fmt.Fprintln(w, row)
 		}
-		fmt.Fprintln(w, row)
-	}
-	if err := w.Flush(); err != nil {
-		t.Fatal(err)
-	}
-	f.Close()
-	return p
+	})
 }
 
 func writeFile(t *testing.T, dir, name, text string) string {

@@ -15,7 +15,6 @@ import (
 	"testing"
 	"time"
 
-	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/events"
 	"github.com/gridloupe/gridloupe/store"
@@ -95,25 +94,8 @@ func fillReportRecord(s *metrics.Setup, r *metrics.Record, iv metrics.Interval, 
 
 func buildReportStore(t *testing.T) (cfgPath, dbPath string) {
 	t.Helper()
-	dir := t.TempDir()
-	cfgPath = writeFile(t, dir, "north-weir.yaml", "gateway: dc2-gw1\n"+evalCfgAll)
-	cfg, err := config.Load(cfgPath)
-	if err != nil {
-		t.Fatal(err)
-	}
-	setup, _, err := setupFromConfig(cfg)
-	if err != nil {
-		t.Fatal(err)
-	}
-	dbPath = filepath.Join(dir, "gl.db")
-	db, err := store.Open(store.Options{Path: dbPath, NoSync: true})
-	if err != nil {
-		t.Fatal(err)
-	}
+	cfgPath, dbPath, setup, db := newEvalStore(t, "gateway: dc2-gw1\n"+evalCfgAll)
 	defer db.Close()
-	if err := db.SetLayout(setup); err != nil {
-		t.Fatal(err)
-	}
 	var recs []*metrics.Record
 	flush := func() {
 		if err := db.PutAggregates(recs); err != nil {
@@ -266,5 +248,62 @@ func TestReport(t *testing.T) {
 	h, _ := strconv.ParseFloat(string(m[2]), 64)
 	if math.Abs(w-595.28) > a4Tol || math.Abs(h-841.89) > a4Tol {
 		t.Errorf("printed page %v × %v pt, want A4 595.3 × 841.9 pt (ISO 216)", w, h)
+	}
+	checkTablesFit(t, page)
+}
+
+// fitScript measures, once the page is laid out, the body's width and each
+// table's scrollWidth against it, and writes them into the page, which
+// --dump-dom then prints.
+const fitScript = `<script>
+const lines = ["body " + document.body.clientWidth];
+document.querySelectorAll("table").forEach((t, i) => lines.push("table " + i + " " + t.scrollWidth));
+const pre = document.createElement("pre");
+pre.id = "fit";
+pre.textContent = lines.join("\n");
+document.body.appendChild(pre);
+</script>`
+
+// checkTablesFit lays the report out in chromium at the width of its A4
+// text column and checks that no table is wider than the column: printed,
+// whatever sticks out is cut off at the page edge. The report itself holds
+// no script (it must stay self-contained); the measuring copy does.
+func checkTablesFit(t *testing.T, page []byte) {
+	t.Helper()
+	// The text column: ISO 216 A4 is 210 mm wide, the report's @page rule
+	// takes 13 mm each side and its body is max-width 184 mm, so a window
+	// wider than 184 mm lays the body out as print does (no print-only
+	// rules). CSS pixels: 96 per inch (CSS Values 4, absolute lengths).
+	const columnPx = 184 / 25.4 * 96 // 695.4
+	const bodyTol = 1.0              // px: chromium rounds clientWidth to whole pixels
+	html := strings.Replace(string(page), "</body>", fitScript+"</body>", 1)
+	p := filepath.Join(t.TempDir(), "fit.html")
+	if err := os.WriteFile(p, []byte(html), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	dom := string(headless(t, "--window-size=900,1270", "--dump-dom", "file://"+p))
+	m := regexp.MustCompile(`(?s)<pre id="fit">(.*?)</pre>`).FindStringSubmatch(dom)
+	if m == nil {
+		t.Fatalf("the measuring script wrote nothing:\n%s", dom[:min(len(dom), 400)])
+	}
+	var body float64
+	tables := 0
+	for _, l := range strings.Split(m[1], "\n") {
+		f := strings.Fields(l)
+		switch {
+		case len(f) == 2 && f[0] == "body":
+			body, _ = strconv.ParseFloat(f[1], 64)
+			if math.Abs(body-columnPx) > bodyTol {
+				t.Fatalf("body laid out %v px wide, want the A4 text column %.1f px", body, columnPx)
+			}
+		case len(f) == 3 && f[0] == "table":
+			tables++
+			if w, _ := strconv.ParseFloat(f[2], 64); w > body {
+				t.Errorf("table %s is %v px wide, %.1f mm more than the %.0f px A4 text column: printed, its right edge is cut off", f[1], w, (w-body)*25.4/96, body)
+			}
+		}
+	}
+	if tables < 4 {
+		t.Errorf("measured %d tables, want the evaluation, energy, direction, ageing and events tables", tables)
 	}
 }

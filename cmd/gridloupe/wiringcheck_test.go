@@ -52,14 +52,7 @@ const wyeWiringCfg = `site: north-weir-dc2
 nominal: {frequency_hz: 50, voltage_v: 230}
 sample_rate_hz: 10240
 il_a: 160
-channels:
-  - {name: va, kind: voltage, phase: a}
-  - {name: vb, kind: voltage, phase: b}
-  - {name: vc, kind: voltage, phase: c}
-  - {name: ia, kind: current, phase: a}
-  - {name: ib, kind: current, phase: b}
-  - {name: ic, kind: current, phase: c}
-`
+` + wyeChannels
 
 type wiringJSON struct {
 	Verdict  string `json:"verdict"`

@@ -6,6 +6,7 @@ import (
 	"time"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/events"
 )
 
 // State is one rule's persistent state. It is JSON-serialisable (no NaN is
@@ -30,6 +31,9 @@ type Transition struct {
 	Severity  string
 	Text      string
 	Metric    string
+	// Event: event rules: the event that raised the rule (raised) or the
+	// last one that held it (cleared; nil after a restart); nil otherwise.
+	Event *Event
 }
 
 // Evaluator applies rules to records. It is not safe for concurrent use.
@@ -56,6 +60,10 @@ type Transition struct {
 //     null) is treated exactly like a null value.
 //   - Sample time going backwards (a clock step, a replay restarted at an
 //     earlier --start) restarts a running timer at the new time.
+//
+// Rules on metric event are raised by Evaluator.Event and cleared by the
+// sample time of every record given to Evaluate, whatever its level (see
+// Event).
 type Evaluator struct {
 	rules []Rule
 	c     []compiled
@@ -87,12 +95,16 @@ func New(rules []Rule, s *metrics.Setup, restored map[string]State) (*Evaluator,
 		if err != nil {
 			return nil, fmt.Errorf("rule %d: %w", i, err)
 		}
+		r.Kinds = append([]events.Kind(nil), r.Kinds...)
 		e.rules[i], e.c[i] = r, c
 		if st, ok := restored[r.Name]; ok {
 			if !finite(st.Value) {
 				st.Value = 0
 			}
 			e.st[i] = st
+			if c.ev != nil && st.Raised && !st.Pending {
+				c.ev.wait = true // held by an event the previous process never closed
+			}
 		}
 	}
 	return e, nil
@@ -111,6 +123,12 @@ func (e *Evaluator) Evaluate(r *metrics.Record, dst []Transition) []Transition {
 	}
 	t := r.Start.Add(time.Duration(math.Round(d * 1e9)))
 	for i := range e.rules {
+		if e.c[i].ev != nil { // event rules: every record's time runs the clear timer
+			if tr, ok := e.eventClock(i, r.Start, t); ok {
+				dst = append(dst, tr)
+			}
+			continue
+		}
 		if e.rules[i].Level != r.Interval {
 			continue
 		}

@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/events"
 	"github.com/gridloupe/gridloupe/metrics/quantity"
 )
 
@@ -41,16 +42,18 @@ const (
 	mFreq
 	mUnbV
 	mUnbI
-	mQty // any other alarm-watchable per-channel quantity of metrics/quantity's table
+	mQty   // any other alarm-watchable per-channel quantity of metrics/quantity's table
+	mEvent // voltage events (event.go)
 )
 
 var metricNames = [...]string{mRMS: MetricRMS, mTHD: MetricTHD, mTHDH50: MetricTHDH50,
 	mTDD: MetricTDD, mTDDH50: MetricTDDH50, mPct: MetricPct, mPctIL: MetricPctIL,
-	mPF: MetricPF, mDPF: MetricDPF, mFreq: MetricFreq, mUnbV: MetricUnbalanceV, mUnbI: MetricUnbalanceI}
+	mPF: MetricPF, mDPF: MetricDPF, mFreq: MetricFreq, mUnbV: MetricUnbalanceV, mUnbI: MetricUnbalanceI,
+	mEvent: MetricEvent}
 
 // Metrics lists every metric name a Rule may use, for help and error texts
-// (quantity.AlarmMetrics).
-func Metrics() []string { return quantity.AlarmMetrics() }
+// (quantity.AlarmMetrics, then MetricEvent).
+func Metrics() []string { return append(quantity.AlarmMetrics(), MetricEvent) }
 
 // parseMetric returns the metric called s and, for a per-channel scalar,
 // its quantity in metrics/quantity's table.
@@ -87,11 +90,13 @@ type Target struct {
 // Rule is one alarm rule, as the command-line wiring builds it from the
 // config file's alarms section.
 type Rule struct {
-	Name     string // unique; names the alarm in messages and in the store
-	Metric   string // one of Metrics()
-	Harmonic int    // pct, pct_il: the order, 2..50, computed by the setup
-	Target   Target
-	Level    metrics.Interval // only records of this level are evaluated
+	Name     string           // unique; names the alarm in messages and in the store
+	Metric   string           // one of Metrics()
+	Harmonic int              // pct, pct_il: the order, 2..50, computed by the setup
+	Target   Target           // event rules: Channel a voltage channel, or −1 for any
+	Level    metrics.Interval // only records of this level are evaluated; event rules: unused (every record's time counts)
+	// Kinds: event rules only: the event kinds watched; empty = every kind.
+	Kinds []events.Kind
 
 	Above     bool    // true: raise when value > Threshold; false: raise when value < Threshold
 	Threshold float64 // metric units
@@ -102,7 +107,9 @@ type Rule struct {
 
 	// OnDelay and OffDelay are how long, in sample time (record start +
 	// duration, not wall time), the raise (clear) condition must hold
-	// before the transition; 0 = on the first record that meets it.
+	// before the transition; 0 = on the first record that meets it. Event
+	// rules: OnDelay is the minimum duration of an event that raises,
+	// OffDelay how long after the last such event ended the rule clears.
 	OnDelay, OffDelay time.Duration
 
 	Severity string // free text carried into transitions (info, warning, critical)
@@ -129,9 +136,10 @@ type compiled struct {
 	q     quantity.ID // per-channel scalars: the quantity in metrics/quantity's table
 	phase int         // index in Setup.Pairs / Record.Phases; −1 for the total
 	load  []int
-	delta bool  // the total of a delta record, which has no phases
-	circ  int   // pf, dpf: index in Setup.Circuits; −1 for the bus itself
-	binCh []int // baseline rules: the currents whose fundamental picks the load bin
+	delta bool       // the total of a delta record, which has no phases
+	circ  int        // pf, dpf: index in Setup.Circuits; −1 for the bus itself
+	binCh []int      // baseline rules: the currents whose fundamental picks the load bin
+	ev    *eventRule // event rules: their kinds, channel and open events; nil otherwise
 }
 
 // compile validates r against s.
@@ -145,6 +153,9 @@ func compile(r *Rule, s *metrics.Setup) (compiled, error) {
 		return c, fmt.Errorf("rule %q: metric %q (allowed: %v): %w", r.Name, r.Metric, Metrics(), ErrMetric)
 	}
 	c.m, c.q = m, q
+	if m == mEvent {
+		return c, compileEvent(r, s, &c)
+	}
 	if r.Level.String() == "invalid" {
 		return c, fmt.Errorf("rule %q: level %d (allowed: %v): %w", r.Name, r.Level, metrics.IntervalLabels(), ErrRule)
 	}

@@ -2,7 +2,6 @@ package modbus
 
 import (
 	"bytes"
-	"context"
 	"encoding/csv"
 	"errors"
 	"math"
@@ -17,134 +16,6 @@ import (
 	"github.com/gridloupe/gridloupe/stream/live"
 )
 
-// f32Rel is the relative rounding step of IEEE-754 binary32 (24-bit
-// significand: half an ulp is 2^-24 of the value; IEEE 754-2008 §3.6).
-const f32Rel = 1.0 / (1 << 23)
-
-func wyeSetup(t testing.TB) *metrics.Setup {
-	t.Helper()
-	orders := make([]int, 50)
-	for i := range orders {
-		orders[i] = i + 1
-	}
-	s, err := metrics.NewSetup(metrics.Setup{
-		Channels: []metrics.Channel{
-			{Name: "va", Kind: metrics.Voltage, Phase: 'a'}, {Name: "vb", Kind: metrics.Voltage, Phase: 'b'}, {Name: "vc", Kind: metrics.Voltage, Phase: 'c'},
-			{Name: "ia", Kind: metrics.Current, Phase: 'a'}, {Name: "ib", Kind: metrics.Current, Phase: 'b'}, {Name: "ic", Kind: metrics.Current, Phase: 'c'}},
-		Orders: orders, AllOrders: true, Wiring: metrics.Wye, NominalV: 230, ILA: 160})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return s
-}
-
-// northWeir is an invented 3 s record of the North Weir DC-2 cabinet
-// (DESIGN.md scenario) at awkward values.
-func northWeir(s *metrics.Setup) *metrics.Record {
-	r := metrics.NewRecord(s)
-	r.Interval, r.Start, r.DurationS = metrics.Int3s, time.Date(2026, 3, 1, 10, 0, 3, 0, time.UTC), 3
-	r.FreqHz = 50.02
-	r.Flags = metrics.FlagPartial
-	for i := range r.Channels {
-		r.Channels[i].RMS = 229.87 + float64(i)
-		r.Channels[i].THDPct = 2.085
-		r.Channels[i].THDH50Pct = 2.07
-		r.Channels[i].TDDPct = metrics.Null()
-		r.Channels[i].TDDH50Pct = 8.56
-	}
-	for i := range r.Phases {
-		r.Phases[i].P, r.Phases[i].Q1, r.Phases[i].S, r.Phases[i].PF, r.Phases[i].DPF = 10330, -2190, 11020, 0.937, 0.978
-	}
-	r.Total = metrics.TotalValues{P: 30990, Q1: 6570, S: 33060, Se: 33100, Ve: 230.05, Ie: 47.9, PF: 0.936, DPF: 0.978}
-	r.UnbV, r.UnbI = 0.39, 0.87
-	return r
-}
-
-type rig struct {
-	board *live.Board
-	m     *Map
-	addr  string
-	now   time.Time
-}
-
-func startServer(t testing.TB, lowFirst bool, alarms []string) *rig {
-	t.Helper()
-	s := wyeSetup(t)
-	rg := &rig{now: time.Date(2026, 3, 1, 10, 0, 10, 0, time.UTC)}
-	rg.board = live.New(s, func() time.Time { return rg.now }, nil)
-	m, err := NewMap(s, alarms, []string{"main"}, lowFirst)
-	if err != nil {
-		t.Fatal(err)
-	}
-	rg.m = m
-	srv, err := New(Config{Addr: "127.0.0.1:0", UnitID: 7, LowFirst: lowFirst, Board: rg.board, Map: m})
-	if err != nil {
-		t.Fatal(err)
-	}
-	if err := srv.Listen(); err != nil {
-		t.Fatal(err)
-	}
-	rg.addr = srv.Addr()
-	ctx, cancel := context.WithCancel(context.Background())
-	done := make(chan error, 1)
-	go func() { done <- srv.Run(ctx) }()
-	t.Cleanup(func() {
-		cancel()
-		if err := <-done; err != nil {
-			t.Error(err)
-		}
-	})
-	return rg
-}
-
-func client(t testing.TB, addr string, lowFirst bool, unit uint8) *mb.ModbusClient {
-	t.Helper()
-	c, err := mb.NewClient(&mb.ClientConfiguration{URL: "tcp://" + addr, Timeout: 2 * time.Second})
-	if err != nil {
-		t.Fatal(err)
-	}
-	if err := c.Open(); err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() { c.Close() })
-	wo := mb.HIGH_WORD_FIRST
-	if lowFirst {
-		wo = mb.LOW_WORD_FIRST
-	}
-	if err := c.SetEncoding(mb.BIG_ENDIAN, wo); err != nil {
-		t.Fatal(err)
-	}
-	if err := c.SetUnitId(unit); err != nil {
-		t.Fatal(err)
-	}
-	return c
-}
-
-// addressOf finds a quantity's address in the CSV the map prints, as an
-// integrator would.
-func addressOf(t *testing.T, m *Map, quantity, level string) uint16 {
-	t.Helper()
-	var buf bytes.Buffer
-	if err := m.WriteCSV(&buf); err != nil {
-		t.Fatal(err)
-	}
-	rows, err := csv.NewReader(&buf).ReadAll()
-	if err != nil {
-		t.Fatal(err)
-	}
-	for _, row := range rows[1:] {
-		if row[1] == quantity && row[3] == level {
-			a, err := strconv.Atoi(row[0])
-			if err != nil {
-				t.Fatal(err)
-			}
-			return uint16(a)
-		}
-	}
-	t.Fatalf("%s at %s not in the map", quantity, level)
-	return 0
-}
-
 func TestReadValues(t *testing.T) {
 	for _, lowFirst := range []bool{false, true} {
 		t.Run("low_first="+strconv.FormatBool(lowFirst), func(t *testing.T) {
@@ -153,11 +24,7 @@ func TestReadValues(t *testing.T) {
 			r := northWeir(rg.board.Setup())
 			rg.board.Put(r, []string{"pf-low"})
 			rg.now = rg.now.Add(2500 * time.Millisecond)
-			cases := []struct {
-				q    string
-				want float64
-				src  string
-			}{
+			checkFloats(t, c, rg.m, "3s", []floatCase{
 				{"freq_hz", 50.02, "the record put on the board (invented, DESIGN.md scenario)"},
 				{"total.pf", 0.936, "same record"},
 				{"total.q_var", 6570, "same record"},
@@ -167,16 +34,7 @@ func TestReadValues(t *testing.T) {
 				{"ia.tdd_h50_pct", 8.56, "same record"},
 				{"unbalance.current_pct", 0.87, "same record"},
 				{"age_s", 2.5, "the board's clock moved 2.5 s after the record arrived"},
-			}
-			for _, tc := range cases {
-				got, err := c.ReadFloat32(addressOf(t, rg.m, tc.q, "3s"), mb.INPUT_REGISTER)
-				if err != nil {
-					t.Fatalf("%s: %v", tc.q, err)
-				}
-				if math.Abs(float64(got)-tc.want) > f32Rel*math.Abs(tc.want) {
-					t.Errorf("%s = %v, want %v within binary32 rounding (src: %s)", tc.q, got, tc.want, tc.src)
-				}
-			}
+			})
 			// A null value reads as NaN; the 10 min block before its first record too.
 			if v, err := c.ReadFloat32(addressOf(t, rg.m, "ia.tdd_pct", "3s"), mb.INPUT_REGISTER); err != nil || !math.IsNaN(float64(v)) {
 				t.Errorf("null ia.tdd_pct = %v, %v; want NaN (src: README BMS integration: null is NaN)", v, err)
@@ -225,11 +83,7 @@ func TestReadEnergy(t *testing.T) {
 		Readings: []energy.Reading{{Circuit: "main", Counters: energy.Counters{ImportWh: 123456.7, ExportWh: 8.25, VarhQ: [4]float64{2.5e4, 0, 0, 750}}}},
 		Demand:   energy.Demand{A: [3]float64{120.4, 119.8, 121.1}, W: 71460, Month: energy.Month{MaxA: [3]float64{150.2, 149.9, 151.3}, MaxW: 98000}},
 		ILConfig: 160, Estimate: energy.IL{A: 151.3}})
-	cases := []struct {
-		q    string
-		want float64
-		src  string
-	}{
+	checkFloats(t, c, rg.m, "", []floatCase{
 		{"energy.main.import_kwh", 123.4567, "the board's 123456.7 Wh in kWh"},
 		{"energy.main.export_kwh", 0.00825, "8.25 Wh in kWh"},
 		{"energy.main.kvarh_q1", 25, "2.5e4 varh in kvarh"},
@@ -239,13 +93,7 @@ func TestReadEnergy(t *testing.T) {
 		{"demand.month_max.phase.c.i_a", 151.3, "same"},
 		{"il_a", 160, "il_a from the config wins over the estimate"},
 		{"il_estimate_a", 151.3, "the estimate"},
-	}
-	for _, tc := range cases {
-		got, err := c.ReadFloat32(addressOf(t, rg.m, tc.q, ""), mb.INPUT_REGISTER)
-		if err != nil || math.Abs(float64(got)-tc.want) > f32Rel*math.Abs(tc.want) {
-			t.Errorf("%s = %v, %v; want %v (src: %s)", tc.q, got, err, tc.want, tc.src)
-		}
-	}
+	})
 }
 
 func TestExceptions(t *testing.T) {

@@ -132,6 +132,8 @@ h3 { font-size: 10pt; margin: 6pt 0 2pt; }
 .verdict.pass { border-color: #3b8a3e; } .verdict.fail { border-color: #b5262e; } .verdict.incomplete { border-color: #d0781c; }
 table { border-collapse: collapse; width: 100%; font-variant-numeric: tabular-nums; margin: 3pt 0; font-size: 8pt; }
 th, td { padding: 1.2pt 2.5pt; border-bottom: 0.6pt solid #d5d9d2; text-align: right; white-space: nowrap; }
+th { white-space: normal; vertical-align: bottom; }
+table.lines { font-size: 7.5pt; }
 td.wrap { white-space: normal; text-align: left; }
 th { background: #eef1ec; font-weight: 600; }
 th:first-child, td:first-child, td.l, th.l { text-align: left; }
@@ -157,7 +159,7 @@ section { break-inside: auto; }
 <p class="note">Voltage: bus {{num .Result.BusV 0}} V, Table 1 {{num .Result.VIndivLimit 1}} % individual, {{num .Result.VTHDLimit 1}} % THD (THD % of fundamental, harmonics % of nominal voltage).
 {{if gt .Result.IL 0.0}}Current: IL {{num .Result.IL 0}} A, ISC/IL {{num .Result.Ratio 1}}, Table 2 row {{.Result.Row}}, TDD {{num .Result.TDDLimit 1}} % (TDD and harmonics % of IL).{{else}}Currents not evaluated: il_a is not set.{{end}}
 Coverage: the week's 10 min values {{cov .Result.Week.Coverage}}; a day or the week needs {{cov .Result.MinCoverage}}.</p>
-<table><tr><th class="l">channel</th><th class="l">quantity</th><th class="l">statistic</th><th>value %</th><th>limit×mult</th><th>threshold %</th><th>margin</th><th class="l">worst day</th><th>coverage</th><th class="l">verdict</th></tr>
+<table class="lines"><tr><th class="l">channel</th><th class="l">quantity</th><th class="l">statistic</th><th>value %</th><th>limit × mult</th><th>threshold %</th><th>margin</th><th class="l">worst day</th><th>coverage</th><th class="l">verdict</th></tr>
 {{range .Lines}}<tr class="line"><td>{{.Channel}}</td><td class="l">{{.Quantity}}</td><td class="l">{{.Statistic}}</td><td>{{pct .Value}}</td><td>{{num .Limit 2}}×{{num .Multiplier 1}}</td><td>{{num .Threshold 2}}</td><td>{{margin .}}</td><td class="l">{{worst $.Result .}}</td><td>{{cov .Coverage}}</td><td class="l {{cls .Verdict}}">{{.Verdict}}</td></tr>
 {{end}}</table>
 <p class="note">{{.HiddenNote}} Margin = threshold − value (share of the threshold still free); negative means over.</p>

@@ -273,6 +273,22 @@ func (g *Gateway) sink(q <-chan *metrics.Record) {
 				g.commit()
 				return
 			}
+			// Every event the pipeline reported before this record is in
+			// evq already (one goroutine sends both, events first): take
+			// them first, so the event rules see events and records in
+			// the pipeline's order.
+			for drained := false; evq != nil && !drained; {
+				select {
+				case it, ok := <-evq:
+					if !ok {
+						evq = nil
+						break
+					}
+					g.storeEvent(it)
+				default:
+					drained = true
+				}
+			}
 			g.handle(r)
 		case it, ok := <-evq:
 			if !ok {
@@ -341,6 +357,15 @@ func (g *Gateway) evaluate(r *metrics.Record) {
 		return
 	}
 	g.trans = g.cfg.Alarms.Evaluate(r, g.trans[:0])
+	g.transitionsDone()
+}
+
+// transitionsDone commits each transition in g.trans at once together
+// with its outbox entry, logs it and reports it.
+func (g *Gateway) transitionsDone() {
+	if len(g.trans) == 0 {
+		return
+	}
 	states := g.cfg.Alarms.States()
 	for _, t := range g.trans {
 		g.transitions.Add(1)
@@ -353,7 +378,11 @@ func (g *Gateway) evaluate(r *metrics.Record) {
 		if t.Raised {
 			state = "raised"
 		}
-		g.log.Warn("alarm", "alarm", t.Rule, "state", state, "value", t.Value, "threshold", t.Threshold, "level", t.Level.String())
+		if t.Event != nil {
+			g.log.Warn("alarm", "alarm", t.Rule, "state", state, "event", t.Event.ID, "value", t.Value, "threshold", t.Threshold)
+		} else {
+			g.log.Warn("alarm", "alarm", t.Rule, "state", state, "value", t.Value, "threshold", t.Threshold, "level", t.Level.String())
+		}
 		if g.cfg.OnTransition != nil {
 			g.cfg.OnTransition(t)
 		}

@@ -53,9 +53,12 @@ func alarmPayload(site, gw string, t alarm.Transition, channel string) []byte {
 		b = append(b, `,"channel":`...)
 		b = encode.AppendString(b, channel)
 	}
-	b = append(b, `,"level":"`...)
-	b = append(b, t.Level.String()...)
-	b = append(b, `","value":`...)
+	if t.Metric != alarm.MetricEvent { // event rules watch no interval
+		b = append(b, `,"level":"`...)
+		b = append(b, t.Level.String()...)
+		b = append(b, '"')
+	}
+	b = append(b, `,"value":`...)
 	b = appendNum(b, t.Value)
 	b = append(b, `,"threshold":`...)
 	b = appendNum(b, t.Threshold)
@@ -63,6 +66,40 @@ func alarmPayload(site, gw string, t alarm.Transition, channel string) []byte {
 	b = encode.AppendString(b, t.Severity)
 	b = append(b, `,"text":`...)
 	b = encode.AppendString(b, t.Text)
+	if t.Event != nil {
+		b = appendAlarmEvent(b, t.Event)
+	}
+	return append(b, '}')
+}
+
+// appendAlarmEvent is an event rule's "event" object: the event that
+// raised the alarm (or the last that held it, on a clear).
+func appendAlarmEvent(b []byte, e *alarm.Event) []byte {
+	b = append(b, `,"event":{"id":`...)
+	b = encode.AppendString(b, e.ID)
+	b = append(b, `,"kind":"`...)
+	b = append(b, e.Kind.String()...)
+	b = append(b, `","start":"`...)
+	b = append(b, encode.FormatTime(e.Start)...)
+	b = append(b, `","duration_s":`...)
+	b = appendNum(b, e.DurationS)
+	b = append(b, `,"channels":[`...)
+	for i, c := range e.Channels {
+		if i > 0 {
+			b = append(b, ',')
+		}
+		b = encode.AppendString(b, c)
+	}
+	b = append(b, `],"extreme_v":`...)
+	b = appendNum(b, e.ExtremeV)
+	b = append(b, `,"extreme_pct":`...)
+	b = appendNum(b, e.ExtremePct)
+	if e.Open {
+		b = append(b, `,"ongoing":true`...)
+	}
+	if e.Unfinished {
+		b = append(b, `,"unfinished":true`...)
+	}
 	return append(b, '}')
 }
 
