@@ -386,6 +386,8 @@ func TestDemoRaisesAndClears(t *testing.T) {
 	}
 	for _, want := range []string{"CAUTION", "RAISED  reactor-wear", "CLEARED reactor-wear", "summary", "tdd_h50_pct(I)", "freq_hz",
 		">> EVENT   dip", ">> EVENT   swell", "2 voltage events stored",
+		// testdata/demo-dc2.yaml's event rule: raised by the dip at 4 min, cleared 10 min later (its off_delay)
+		">> RAISED  supply-dip    event by dip-", ">> CLEARED supply-dip    event after dip-",
 		filepath.Join(dir, "gridloupe.db")} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("demo output lacks %q", want)
