@@ -319,8 +319,8 @@ func FuzzEventRule(f *testing.F) {
 		if len(data) > 500 {
 			data = data[:500]
 		}
-		now := t0          // end of the last record
-		var last time.Time // end of the last event that raised or held the rule
+		now := t0                        // end of the last record
+		var last time.Time               // end of the last event that raised or held the rule
 		var openStart, openEnd time.Time // the open interruption's start and how far it was reported lasting
 		// each detector machine's events follow one another: the end of
 		// the last dip or interruption, and of the last swell
