@@ -47,7 +47,21 @@ func BenchmarkWindow(b *testing.B) {
 		dst := make([]complex128, len(set.orders))
 
 		b.Run(set.name+"/bank", func(b *testing.B) {
+			// The vector kernels where this build and CPU have them.
 			bank := mustBank(b, set.orders)
+			b.ReportAllocs()
+			for b.Loop() {
+				bank.Reset(benchW)
+				bank.Write(x)
+				bank.Phasors(dst)
+			}
+			reportPerSample(b, benchN)
+			checkFund(b, dst[0])
+		})
+
+		b.Run(set.name+"/bankgo", func(b *testing.B) {
+			// The pure-Go loops, as armv7 and -tags purego run them.
+			bank := goBank(b, set.orders)
 			b.ReportAllocs()
 			for b.Loop() {
 				bank.Reset(benchW)

@@ -120,25 +120,35 @@ func eventRule(cfg *config.Config, a config.Alarm) (alarm.Rule, error) {
 	return r, nil
 }
 
-// eventAlarmText is an event rule's sentence: the kinds, where, the
-// thresholds of the events config, and when it clears.
+// eventAlarmText is an event rule's sentence: the kinds with the events
+// config's thresholds, where, and when it clears.
 func eventAlarmText(cfg *config.Config, a config.Alarm) string {
-	kinds := "voltage dip, swell or interruption"
-	if len(a.Kinds) > 0 {
-		kinds = "voltage " + strings.Join(a.Kinds, " or ")
-	}
-	where := "on any voltage channel"
-	if a.Channel != "" {
-		where = "on " + a.Channel
+	kinds := a.Kinds
+	if len(kinds) == 0 {
+		kinds = config.EventKinds
 	}
 	e := cfg.Events
-	var b strings.Builder
-	fmt.Fprintf(&b, "%s %s (dip below %g %%, swell above %g %%, interruption below %g %% of %g V", kinds, where,
-		e.DipPct, e.SwellPct, e.InterruptionPct, cfg.Nominal.VoltageV)
-	if a.OnDelay > 0 {
-		fmt.Fprintf(&b, ", lasting %v or more", a.OnDelay)
+	var what []string
+	for _, k := range kinds {
+		switch k {
+		case "dip":
+			what = append(what, fmt.Sprintf("dip (below %g %%)", e.DipPct))
+		case "swell":
+			what = append(what, fmt.Sprintf("swell (above %g %%)", e.SwellPct))
+		case "interruption":
+			what = append(what, fmt.Sprintf("interruption (every phase below %g %%)", e.InterruptionPct))
+		}
 	}
-	fmt.Fprintf(&b, "); clears %v after the last one ended", a.OffDelay)
+	where := "any voltage channel"
+	if a.Channel != "" {
+		where = a.Channel
+	}
+	var b strings.Builder
+	fmt.Fprintf(&b, "voltage %s of %g V on %s", strings.Join(what, " or "), cfg.Nominal.VoltageV, where)
+	if a.OnDelay > 0 {
+		fmt.Fprintf(&b, ", lasting %s or more", shortDuration(a.OnDelay))
+	}
+	fmt.Fprintf(&b, "; clears %s after the last one ended", shortDuration(a.OffDelay))
 	return b.String()
 }
 

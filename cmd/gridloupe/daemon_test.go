@@ -293,8 +293,7 @@ func TestRunBrokerUnreachable(t *testing.T) {
 	dir := t.TempDir()
 	port := mqtttest.FreePort(t)
 	cfg := daemonConfig(t, dir, fmt.Sprintf("tcp://127.0.0.1:%d", port))
-	cfg2 := strings.Replace(readFile(t, cfg), "speed: 60", "speed: 0", 1)
-	writeFile(t, dir, "gw.yaml", cfg2)
+	editConfig(t, cfg, "speed: 60", "speed: 0")
 	p := startDaemon(t, "run", "--config", cfg, "--stop-after", "60s")
 	code, _ := p.wait(t, 60*time.Second)
 	if code != 0 {
@@ -334,8 +333,7 @@ func TestRunStoreUnwritable(t *testing.T) {
 func TestExportReadsStore(t *testing.T) {
 	dir := t.TempDir()
 	cfg := daemonConfig(t, dir, "")
-	text := strings.Replace(readFile(t, cfg), "speed: 60", "speed: 0", 1)
-	writeFile(t, dir, "gw.yaml", text)
+	editConfig(t, cfg, "speed: 60", "speed: 0")
 	if r := runCmd("run", "--config", cfg, "--stop-after", "30s", "--log-level", "error"); r.code != 0 {
 		t.Fatalf("run: exit %d: %s", r.code, r.stderr)
 	}
@@ -388,6 +386,8 @@ func TestDemoRaisesAndClears(t *testing.T) {
 	}
 	for _, want := range []string{"CAUTION", "RAISED  reactor-wear", "CLEARED reactor-wear", "summary", "tdd_h50_pct(I)", "freq_hz",
 		">> EVENT   dip", ">> EVENT   swell", "2 voltage events stored",
+		// testdata/demo-dc2.yaml's event rule: raised by the dip at 4 min, cleared 10 min later (its off_delay)
+		">> RAISED  supply-dip    event by dip-", ">> CLEARED supply-dip    event after dip-",
 		filepath.Join(dir, "gridloupe.db")} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("demo output lacks %q", want)

@@ -340,6 +340,19 @@ func (t *liveTable) transition(a alarm.Transition) {
 	if a.Raised {
 		state = "RAISED "
 	}
+	if e := a.Event; e != nil {
+		what := "after " + e.ID
+		if a.Raised {
+			ext := "residual"
+			if e.Kind == events.Swell {
+				ext = "maximum"
+			}
+			what = fmt.Sprintf("by %s (%.0f ms, %s %.1f %%)", e.ID, e.DurationS*1000, ext, e.ExtremePct)
+		}
+		fmt.Fprintf(t.w, ">> %s %-13s %s %s at %s\n", state, a.Rule, a.Metric, what, a.Time.UTC().Format("15:04:05"))
+		t.rows++
+		return
+	}
 	fmt.Fprintf(t.w, ">> %s %-13s %s = %s (threshold %g) at %s\n", state, a.Rule, a.Metric, num(a.Value, 2), a.Threshold,
 		a.Time.UTC().Format("15:04:05"))
 	t.rows++

@@ -184,11 +184,12 @@ func (e *Evaluator) Event(ev *Event, dst []Transition) []Transition {
 
 // eventClock advances event rule i to a record ending at t (starting at
 // start): a raised rule clears OffDelay after its clear timer started.
-// Records that end before the timer started (a record still on its way
+// The timer does not run while an open event holds the rule (Event stops
+// it), and records that end before it started (a record still on its way
 // when the event was reported) change nothing.
 func (e *Evaluator) eventClock(i int, start, t time.Time) (Transition, bool) {
 	er, st := e.c[i].ev, &e.st[i]
-	if !st.Raised || !er.open[0].IsZero() || !er.open[1].IsZero() {
+	if !st.Raised {
 		return Transition{}, false
 	}
 	if !st.Pending {

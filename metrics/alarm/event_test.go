@@ -143,6 +143,25 @@ func TestEventRules(t *testing.T) {
 			src:  srcEvRule + "; " + srcEvTime,
 		},
 		{
+			name: "an open event stops a running clear timer until it ends",
+			rule: with(dip, func(r *Rule) { r.Kinds = nil }),
+			steps: []evStep{evs(evAt(events.Dip, 10, 0.1)), rec(297), evs(opened(evAt(events.Interruption, 300, 3.8, "va", "vb", "vc"))),
+				rec(700), evs(evAt(events.Interruption, 300, 400, "va", "vb", "vc")), rec(1294), rec(1297)},
+			// without the hold the dip's timer (10.1 + 600) would clear at the record ending 703 s;
+			// the interruption ends 700 s, cleared by the record ending ≥ 1300 s
+			want: []want{{true, 10.1}, {false, 1300}},
+			src:  srcEvRule + "; " + srcEvTime,
+		},
+		{
+			name: "once an open swell ended, a later dip restarts the timer",
+			rule: with(dip, func(r *Rule) { r.Kinds = nil }),
+			steps: []evStep{evs(opened(evAt(events.Swell, 10, 3.8, "vc"))), evs(evAt(events.Swell, 10, 5, "vc")),
+				evs(evAt(events.Dip, 100, 0.1)), rec(697), rec(700)},
+			// the dip ends 100.1 s: cleared by the record ending ≥ 700.1 s, 700..703
+			want: []want{{true, 13.8}, {false, 703}},
+			src:  srcEvRule + "; " + srcEvTime,
+		},
+		{
 			name: "an open dip that ends as an interruption releases a dip rule at its end",
 			rule: dip,
 			steps: []evStep{evs(opened(evAt(events.Dip, 100, 3.8))), rec(800),

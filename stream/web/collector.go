@@ -1,53 +1,34 @@
 package web
 
 import (
-	"github.com/prometheus/client_golang/prometheus"
-
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/stream/live"
 )
 
 const ns = "gridloupe"
 
-// family is one Prometheus metric family built from record fields.
-type family struct {
-	desc   *prometheus.Desc
-	fields []live.Field
-	labels []string // which of channel, phase the family carries
+// fieldFamily is one metric family built from record fields.
+type fieldFamily struct {
+	name, help string
+	fields     []live.Field
+	labels     []string // which of circuit, channel, phase the family carries
 }
 
-// collector turns the board into metrics at each scrape. Undefined values
-// are left out (a gap in the graph), never exported as NaN.
+// collector turns the board into metric families at each scrape. Undefined
+// values are left out (a gap in the graph), never exported as NaN.
 type collector struct {
 	cfg      *Config
-	families []*family
-	age      *prometheus.Desc
-	alarm    *prometheus.Desc
-	stored   *prometheus.Desc
-	dropped  *prometheus.Desc
-	outbox   *prometheus.Desc
-	store    *prometheus.Desc
-	windows  *prometheus.Desc
-	mqtt     *prometheus.Desc
-	storeErr *prometheus.Desc
-	eImport  *prometheus.Desc
-	eExport  *prometheus.Desc
-	eReact   *prometheus.Desc
-	dCurrent *prometheus.Desc
-	dMaxCur  *prometheus.Desc
-	dPower   *prometheus.Desc
-	dMaxPow  *prometheus.Desc
-	il       *prometheus.Desc
+	constL   []label // site and gateway
+	families []*fieldFamily
 }
 
 func newCollector(cfg *Config) *collector {
-	c := &collector{cfg: cfg}
-	constL := prometheus.Labels{"site": cfg.Site, "gateway": cfg.Gateway}
-	byName := map[string]*family{}
+	c := &collector{cfg: cfg, constL: []label{{"gateway", cfg.Gateway}, {"site", cfg.Site}}}
+	byName := map[string]*fieldFamily{}
 	for _, f := range live.Fields(cfg.Board.Setup()) {
 		fam := byName[f.Metric]
 		if fam == nil {
-			fam = &family{}
+			fam = &fieldFamily{name: ns + "_" + f.Metric, help: f.Help}
 			byName[f.Metric] = fam
 			c.families = append(c.families, fam)
 		}
@@ -60,7 +41,6 @@ func newCollector(cfg *Config) *collector {
 			hasPh = hasPh || f.Phase != ""
 			hasCirc = hasCirc || f.Circuit != ""
 		}
-		names := []string{"level"}
 		if hasCirc {
 			fam.labels = append(fam.labels, "circuit")
 		}
@@ -70,74 +50,73 @@ func newCollector(cfg *Config) *collector {
 		if hasPh {
 			fam.labels = append(fam.labels, "phase")
 		}
-		names = append(names, fam.labels...)
-		f0 := fam.fields[0]
-		fam.desc = prometheus.NewDesc(ns+"_"+f0.Metric, f0.Help, names, constL)
 	}
-	c.age = prometheus.NewDesc(ns+"_value_age_seconds", "Seconds since the newest value of the level arrived.", []string{"level"}, constL)
-	c.alarm = prometheus.NewDesc(ns+"_alarm_active", "1 while the alarm rule is raised, else 0.", []string{"alarm", "severity"}, constL)
-	c.stored = prometheus.NewDesc(ns+"_records_stored_total", "Aggregates committed to the store since start.", nil, constL)
-	c.dropped = prometheus.NewDesc(ns+"_records_dropped_total", "Aggregates a live source's full queue dropped since start.", nil, constL)
-	c.outbox = prometheus.NewDesc(ns+"_outbox_messages", "Messages waiting in the MQTT outbox.", nil, constL)
-	c.store = prometheus.NewDesc(ns+"_store_bytes", "Size of the store file.", nil, constL)
-	c.windows = prometheus.NewDesc(ns+"_windows_total", "Measurement windows computed since start.", nil, constL)
-	c.mqtt = prometheus.NewDesc(ns+"_mqtt_connected", "1 while the MQTT client is connected.", nil, constL)
-	c.storeErr = prometheus.NewDesc(ns+"_store_errors_total", "Store writes that failed since start.", nil, constL)
-	c.eImport = prometheus.NewDesc(ns+"_active_energy_import_joules_total", "Active energy taken from the supply, per circuit (1 kWh = 3.6e6 J).", []string{"circuit"}, constL)
-	c.eExport = prometheus.NewDesc(ns+"_active_energy_export_joules_total", "Active energy fed back to the supply, per circuit.", []string{"circuit"}, constL)
-	c.eReact = prometheus.NewDesc(ns+"_fundamental_reactive_energy_var_seconds_total", "Fundamental reactive energy per circuit and quadrant (1 kvarh = 3.6e6 var s).", []string{"circuit", "quadrant"}, constL)
-	c.dCurrent = prometheus.NewDesc(ns+"_demand_current_amperes", "Present demand current (average over the demand interval).", []string{"phase"}, constL)
-	c.dMaxCur = prometheus.NewDesc(ns+"_demand_month_max_current_amperes", "Largest demand current of the month in progress (UTC).", []string{"phase"}, constL)
-	c.dPower = prometheus.NewDesc(ns+"_demand_power_watts", "Present total active-power demand.", nil, constL)
-	c.dMaxPow = prometheus.NewDesc(ns+"_demand_month_max_power_watts", "Largest total active-power demand of the month in progress (UTC).", nil, constL)
-	c.il = prometheus.NewDesc(ns+"_il_amperes", "IEEE 519 maximum demand load current IL: from the config, or estimated from the stored monthly maxima.", []string{"basis"}, constL)
 	return c
 }
 
-// Describe sends every descriptor.
-func (c *collector) Describe(ch chan<- *prometheus.Desc) {
-	for _, f := range c.families {
-		ch <- f.desc
-	}
-	for _, d := range []*prometheus.Desc{c.age, c.alarm, c.stored, c.dropped, c.outbox, c.store, c.windows, c.mqtt, c.storeErr,
-		c.eImport, c.eExport, c.eReact, c.dCurrent, c.dMaxCur, c.dPower, c.dMaxPow, c.il} {
-		ch <- d
-	}
-}
+// The families that do not come from record fields.
+const (
+	helpAge      = "Seconds since the newest value of the level arrived."
+	helpAlarm    = "1 while the alarm rule is raised, else 0."
+	helpStored   = "Aggregates committed to the store since start."
+	helpDropped  = "Aggregates a live source's full queue dropped since start."
+	helpOutbox   = "Messages waiting in the MQTT outbox."
+	helpStore    = "Size of the store file."
+	helpWindows  = "Measurement windows computed since start."
+	helpMQTT     = "1 while the MQTT client is connected."
+	helpStoreErr = "Store writes that failed since start."
+	helpImport   = "Active energy taken from the supply, per circuit (1 kWh = 3.6e6 J)."
+	helpExport   = "Active energy fed back to the supply, per circuit."
+	helpReact    = "Fundamental reactive energy per circuit and quadrant (1 kvarh = 3.6e6 var s)."
+	helpDCurrent = "Present demand current (average over the demand interval)."
+	helpDMaxCur  = "Largest demand current of the month in progress (UTC)."
+	helpDPower   = "Present total active-power demand."
+	helpDMaxPow  = "Largest total active-power demand of the month in progress (UTC)."
+	helpIL       = "IEEE 519 maximum demand load current IL: from the config, or estimated from the stored monthly maxima."
+)
 
-// Collect reads the board once per level.
-func (c *collector) Collect(ch chan<- prometheus.Metric) {
+// collect reads the board once per level and returns every family.
+func (c *collector) collect() []*family {
+	gauge := func(name, help string) *family { return &family{name: ns + "_" + name, help: help} }
+	counter := func(name, help string) *family { return &family{name: ns + "_" + name, help: help, counter: true} }
+	fields := make([]*family, len(c.families))
+	for i, ff := range c.families {
+		fields[i] = &family{name: ff.name, help: ff.help}
+	}
+	age := gauge("value_age_seconds", helpAge)
 	b := c.cfg.Board
 	for _, iv := range live.Levels() {
 		r, _ := b.Latest(iv)
 		if r == nil {
 			continue
 		}
-		if age, ok := b.Age(iv); ok {
-			ch <- prometheus.MustNewConstMetric(c.age, prometheus.GaugeValue, age, iv.String())
+		if a, ok := b.Age(iv); ok {
+			age.add(a, c.constL, "level", iv.String())
 		}
-		for _, fam := range c.families {
-			for i := range fam.fields {
-				f := &fam.fields[i]
+		for k, ff := range c.families {
+			for i := range ff.fields {
+				f := &ff.fields[i]
 				v := f.Value(r)
 				if metrics.IsNull(v) {
 					continue
 				}
-				lv := []string{iv.String()}
-				for _, l := range fam.labels {
+				lv := make([]string, 0, 2+2*len(ff.labels))
+				lv = append(lv, "level", iv.String())
+				for _, l := range ff.labels {
 					switch l {
 					case "circuit":
-						lv = append(lv, f.Circuit)
+						lv = append(lv, l, f.Circuit)
 					case "channel":
-						lv = append(lv, f.Channel)
+						lv = append(lv, l, f.Channel)
 					default:
-						lv = append(lv, f.Phase)
+						lv = append(lv, l, f.Phase)
 					}
 				}
-				ch <- prometheus.MustNewConstMetric(fam.desc, prometheus.GaugeValue, v*f.Scale, lv...)
+				fields[k].add(v*f.Scale, c.constL, lv...)
 			}
 		}
 	}
+	alarm := gauge("alarm_active", helpAlarm)
 	active := b.Active()
 	for _, a := range c.cfg.Alarms {
 		v := 0.0
@@ -146,48 +125,59 @@ func (c *collector) Collect(ch chan<- prometheus.Metric) {
 				v = 1
 			}
 		}
-		ch <- prometheus.MustNewConstMetric(c.alarm, prometheus.GaugeValue, v, a.Name, a.Severity)
+		alarm.add(v, c.constL, "alarm", a.Name, "severity", a.Severity)
 	}
 	h := b.Health()
-	ch <- prometheus.MustNewConstMetric(c.stored, prometheus.CounterValue, float64(h.RecordsStored))
-	ch <- prometheus.MustNewConstMetric(c.dropped, prometheus.CounterValue, float64(h.RecordsDropped))
-	ch <- prometheus.MustNewConstMetric(c.outbox, prometheus.GaugeValue, float64(h.OutboxDepth))
-	ch <- prometheus.MustNewConstMetric(c.store, prometheus.GaugeValue, float64(h.StoreBytes))
-	ch <- prometheus.MustNewConstMetric(c.windows, prometheus.CounterValue, float64(h.Windows))
-	ch <- prometheus.MustNewConstMetric(c.mqtt, prometheus.GaugeValue, b2f(h.MQTTConnected))
-	ch <- prometheus.MustNewConstMetric(c.storeErr, prometheus.CounterValue, float64(h.StoreErrors))
-	c.collectEnergy(ch, b.Energy())
+	one := func(f *family, v float64) *family { f.add(v, c.constL); return f }
+	out := append(fields, age, alarm,
+		one(counter("records_stored_total", helpStored), float64(h.RecordsStored)),
+		one(counter("records_dropped_total", helpDropped), float64(h.RecordsDropped)),
+		one(gauge("outbox_messages", helpOutbox), float64(h.OutboxDepth)),
+		one(gauge("store_bytes", helpStore), float64(h.StoreBytes)),
+		one(counter("windows_total", helpWindows), float64(h.Windows)),
+		one(gauge("mqtt_connected", helpMQTT), b2f(h.MQTTConnected)),
+		one(counter("store_errors_total", helpStoreErr), float64(h.StoreErrors)))
+	return c.collectEnergy(out, b.Energy())
 }
 
 // joulesPerWh converts Wh (and varh) to J (var s).
 const joulesPerWh = 3600
 
-func (c *collector) collectEnergy(ch chan<- prometheus.Metric, e live.Energy) {
+func (c *collector) collectEnergy(out []*family, e live.Energy) []*family {
 	if !e.Valid {
-		return
+		return out
 	}
+	imp := &family{name: ns + "_active_energy_import_joules_total", help: helpImport, counter: true}
+	exp := &family{name: ns + "_active_energy_export_joules_total", help: helpExport, counter: true}
+	react := &family{name: ns + "_fundamental_reactive_energy_var_seconds_total", help: helpReact, counter: true}
 	for _, r := range e.Readings {
-		ch <- prometheus.MustNewConstMetric(c.eImport, prometheus.CounterValue, r.ImportWh*joulesPerWh, r.Circuit)
-		ch <- prometheus.MustNewConstMetric(c.eExport, prometheus.CounterValue, r.ExportWh*joulesPerWh, r.Circuit)
+		imp.add(r.ImportWh*joulesPerWh, c.constL, "circuit", r.Circuit)
+		exp.add(r.ExportWh*joulesPerWh, c.constL, "circuit", r.Circuit)
 		for q, v := range r.VarhQ {
-			ch <- prometheus.MustNewConstMetric(c.eReact, prometheus.CounterValue, v*joulesPerWh, r.Circuit, "q"+string(rune('1'+q)))
+			react.add(v*joulesPerWh, c.constL, "circuit", r.Circuit, "quadrant", "q"+string(rune('1'+q)))
 		}
 	}
-	gauge := func(d *prometheus.Desc, v float64, lv ...string) {
+	dCur := &family{name: ns + "_demand_current_amperes", help: helpDCurrent}
+	dMaxCur := &family{name: ns + "_demand_month_max_current_amperes", help: helpDMaxCur}
+	dPow := &family{name: ns + "_demand_power_watts", help: helpDPower}
+	dMaxPow := &family{name: ns + "_demand_month_max_power_watts", help: helpDMaxPow}
+	il := &family{name: ns + "_il_amperes", help: helpIL}
+	gauge := func(f *family, v float64, lv ...string) {
 		if !metrics.IsNull(v) {
-			ch <- prometheus.MustNewConstMetric(d, prometheus.GaugeValue, v, lv...)
+			f.add(v, c.constL, lv...)
 		}
 	}
 	for p, ph := range []string{"a", "b", "c"} {
-		gauge(c.dCurrent, e.Demand.A[p], ph)
-		gauge(c.dMaxCur, e.Demand.Month.MaxA[p], ph)
+		gauge(dCur, e.Demand.A[p], "phase", ph)
+		gauge(dMaxCur, e.Demand.Month.MaxA[p], "phase", ph)
 	}
-	gauge(c.dPower, e.Demand.W)
-	gauge(c.dMaxPow, e.Demand.Month.MaxW)
+	gauge(dPow, e.Demand.W)
+	gauge(dMaxPow, e.Demand.Month.MaxW)
 	if e.ILConfig > 0 {
-		gauge(c.il, e.ILConfig, "config")
+		gauge(il, e.ILConfig, "basis", "config")
 	}
-	gauge(c.il, e.Estimate.A, "estimate")
+	gauge(il, e.Estimate.A, "basis", "estimate")
+	return append(out, imp, exp, react, dCur, dMaxCur, dPow, dMaxPow, il)
 }
 
 func b2f(b bool) float64 {

@@ -12,9 +12,6 @@ import (
 	"strconv"
 	"time"
 
-	"github.com/prometheus/client_golang/prometheus"
-	"github.com/prometheus/client_golang/prometheus/promhttp"
-
 	"github.com/gridloupe/gridloupe/metrics/limits"
 	"github.com/gridloupe/gridloupe/stream/encode"
 	"github.com/gridloupe/gridloupe/stream/live"
@@ -48,6 +45,7 @@ type Server struct {
 	ln   net.Listener
 	srv  *http.Server
 	lims []byte // the limits object of /api/latest, fixed at New
+	col  *collector
 }
 
 // New checks cfg and builds the handlers.
@@ -59,12 +57,9 @@ func New(cfg Config) (*Server, error) {
 	if s.log == nil {
 		s.log = slog.New(slog.DiscardHandler)
 	}
-	reg := prometheus.NewRegistry()
-	if err := reg.Register(newCollector(&s.cfg)); err != nil {
-		return nil, fmt.Errorf("web: metrics: %w", err)
-	}
+	s.col = newCollector(&s.cfg)
 	mux := http.NewServeMux()
-	mux.Handle("GET /metrics", promhttp.HandlerFor(reg, promhttp.HandlerOpts{ErrorLog: slogErr{s.log}}))
+	mux.HandleFunc("GET /metrics", s.metrics)
 	mux.HandleFunc("GET /api/latest", s.latest)
 	mux.HandleFunc("GET /{$}", func(w http.ResponseWriter, _ *http.Request) {
 		w.Header().Set("Content-Type", "text/html; charset=utf-8")
@@ -77,9 +72,15 @@ func New(cfg Config) (*Server, error) {
 	return s, nil
 }
 
-type slogErr struct{ log *slog.Logger }
-
-func (e slogErr) Println(v ...any) { e.log.Warn("metrics exposition", "err", fmt.Sprint(v...)) }
+// metrics writes the board in the Prometheus text exposition format.
+func (s *Server) metrics(w http.ResponseWriter, _ *http.Request) {
+	b, dup := appendExposition(nil, s.col.collect())
+	if dup > 0 {
+		s.log.Warn("metrics exposition: series with the same labels dropped", "count", dup)
+	}
+	w.Header().Set("Content-Type", expoContentType)
+	_, _ = w.Write(b)
+}
 
 // Listen binds the address (port 0 picks a free one).
 func (s *Server) Listen() error {
