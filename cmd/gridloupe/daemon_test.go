@@ -293,8 +293,7 @@ func TestRunBrokerUnreachable(t *testing.T) {
 	dir := t.TempDir()
 	port := mqtttest.FreePort(t)
 	cfg := daemonConfig(t, dir, fmt.Sprintf("tcp://127.0.0.1:%d", port))
-	cfg2 := strings.Replace(readFile(t, cfg), "speed: 60", "speed: 0", 1)
-	writeFile(t, dir, "gw.yaml", cfg2)
+	editConfig(t, cfg, "speed: 60", "speed: 0")
 	p := startDaemon(t, "run", "--config", cfg, "--stop-after", "60s")
 	code, _ := p.wait(t, 60*time.Second)
 	if code != 0 {
@@ -334,8 +333,7 @@ func TestRunStoreUnwritable(t *testing.T) {
 func TestExportReadsStore(t *testing.T) {
 	dir := t.TempDir()
 	cfg := daemonConfig(t, dir, "")
-	text := strings.Replace(readFile(t, cfg), "speed: 60", "speed: 0", 1)
-	writeFile(t, dir, "gw.yaml", text)
+	editConfig(t, cfg, "speed: 60", "speed: 0")
 	if r := runCmd("run", "--config", cfg, "--stop-after", "30s", "--log-level", "error"); r.code != 0 {
 		t.Fatalf("run: exit %d: %s", r.code, r.stderr)
 	}

@@ -43,9 +43,7 @@ func TestRunSetsDamagedStoreAside(t *testing.T) {
 	dir := t.TempDir()
 	db := filepath.Join(dir, "gl.db")
 	cfg := daemonConfig(t, dir, mosq.URL())
-	text := strings.Replace(readFile(t, cfg), "speed: 60", "speed: 0", 1)
-	text = strings.Replace(text, "telemetry: [3s]", "telemetry: [10min]", 1)
-	writeFile(t, dir, "gw.yaml", text)
+	editConfig(t, cfg, "speed: 60", "speed: 0", "telemetry: [3s]", "telemetry: [10min]")
 	if r := runCmd("run", "--config", cfg, "--stop-after", "30s", "--log-level", "error"); r.code != 0 {
 		t.Fatalf("first run: exit %d: %s", r.code, r.stderr)
 	}
@@ -61,7 +59,7 @@ func TestRunSetsDamagedStoreAside(t *testing.T) {
 		}
 	}
 
-	failCfg := writeFile(t, dir, "fail.yaml", strings.Replace(text, "commit_every: 1s}", "commit_every: 1s, on_damage: fail}", 1))
+	failCfg := writeFile(t, dir, "fail.yaml", strings.Replace(readFile(t, cfg), "commit_every: 1s}", "commit_every: 1s, on_damage: fail}", 1))
 	if r := runCmd("run", "--config", failCfg, "--stop-after", "30s"); r.code != 1 || !strings.Contains(r.stderr, "damaged store") {
 		t.Errorf("on_damage fail: exit %d, stderr %q; want 1 and the message", r.code, r.stderr)
 	}

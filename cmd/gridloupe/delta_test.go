@@ -240,12 +240,7 @@ func TestDeltaAgainstWyeSimulation(t *testing.T) {
 // circuits on one bus); IEEE 519 TDD = IH/IL (REFERENCE §1.2).
 func TestCircuitsReplay(t *testing.T) {
 	t.Parallel()
-	dir := t.TempDir()
-	cfg := filepath.Join("..", "..", "testdata", "north-weir-bus.yaml")
-	rec := filepath.Join(dir, "bus.csv")
-	if r := runCmd("simulate", "--config", cfg, "-o", rec, "--duration", "3.5s"); r.code != 0 {
-		t.Fatalf("simulate: %d %s", r.code, r.stderr)
-	}
+	cfg, rec := simulateBus(t, "3.5s")
 	res := runCmd("replay", "--config", cfg, "--interval", "3s", rec)
 	if res.code != 0 {
 		t.Fatalf("replay: %d %s", res.code, res.stderr)

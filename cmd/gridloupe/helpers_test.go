@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"github.com/gridloupe/gridloupe/config"
@@ -56,6 +57,39 @@ func newEvalStore(t *testing.T, cfgText string) (cfgPath, dbPath string, setup *
 		t.Fatal(err)
 	}
 	return cfgPath, dbPath, setup, db
+}
+
+// editConfig rewrites the config file at path, replacing in turn each old
+// text of the (old, new) pairs by its new one, once. An old text missing
+// from the file fails the test, so an edit never silently misses.
+func editConfig(t *testing.T, path string, pairs ...string) {
+	t.Helper()
+	if len(pairs)%2 != 0 {
+		t.Fatalf("editConfig: %d texts, want (old, new) pairs", len(pairs))
+	}
+	text := readFile(t, path)
+	for i := 0; i < len(pairs); i += 2 {
+		if !strings.Contains(text, pairs[i]) {
+			t.Fatalf("editConfig: %s has no %q to replace", path, pairs[i])
+		}
+		text = strings.Replace(text, pairs[i], pairs[i+1], 1)
+	}
+	if err := os.WriteFile(path, []byte(text), 0o644); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// simulateBus simulates duration of the shipped several-circuit example
+// (testdata/north-weir-bus.yaml: the invented North Weir bus) into bus.csv
+// in a fresh temporary folder and returns the config and recording paths.
+func simulateBus(t *testing.T, duration string) (cfg, rec string) {
+	t.Helper()
+	cfg = filepath.Join("..", "..", "testdata", "north-weir-bus.yaml")
+	rec = filepath.Join(t.TempDir(), "bus.csv")
+	if r := runCmd("simulate", "--config", cfg, "-o", rec, "--duration", duration); r.code != 0 {
+		t.Fatalf("simulate: %d %s", r.code, r.stderr)
+	}
+	return cfg, rec
 }
 
 // writeBuffered creates path, lets fill write its contents through a

@@ -216,6 +216,10 @@ type replayJob struct {
 	events string        // --events FILE, "" = none
 }
 
+// replayBuffers is the records per batch handed to the encoding goroutine
+// (two batches: the analysis runs at most twice that far ahead).
+const replayBuffers = 4
+
 // replayAnalyse runs the pipeline over j.src and prints j.iv's records.
 func replayAnalyse(ctx context.Context, j replayJob, stdout, stderr io.Writer) error {
 	cfg, setup, rate, inPath, fmtKind, iv, src, where := j.cfg, j.setup, j.rate, j.input, j.format, j.iv, j.src, j.where
@@ -243,12 +247,17 @@ func replayAnalyse(ctx context.Context, j replayJob, stdout, stderr io.Writer) e
 	if err != nil {
 		return err
 	}
+	// Encoding and writing run on a goroutine of their own (encode.Async),
+	// beside decoding and the per-sample path; the output, its order and
+	// the errors are those of the encoder itself.
+	async := encode.NewAsync(enc, setup, replayBuffers)
+	defer async.Close()
 	agg := stream.NewIntervals(setup, iv)
 	emit := func(r *metrics.Record) error {
 		if r.Interval != iv {
 			return nil
 		}
-		return enc.Write(r)
+		return async.Write(r)
 	}
 	runErr := p.Run(ctx, src, func(r *metrics.Record) error { return agg.Add(r, emit) })
 	var cut bool
@@ -258,7 +267,10 @@ func replayAnalyse(ctx context.Context, j replayJob, stdout, stderr io.Writer) e
 	if runErr == nil {
 		runErr = agg.Flush(emit)
 	}
-	if err := enc.Flush(); err != nil && runErr == nil {
+	if err := async.Flush(); err != nil && runErr == nil {
+		runErr = err
+	}
+	if err := async.Close(); err != nil && runErr == nil {
 		runErr = err
 	}
 	if err := out.Flush(); err != nil && runErr == nil {

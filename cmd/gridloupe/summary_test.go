@@ -2,7 +2,6 @@ package main
 
 import (
 	"encoding/json"
-	"strings"
 	"testing"
 	"time"
 
@@ -24,9 +23,7 @@ func TestSummaryRetained(t *testing.T) {
 	mosq := mqtttest.Start(t)
 	dir := t.TempDir()
 	cfg := daemonConfig(t, dir, mosq.URL())
-	text := strings.Replace(readFile(t, cfg), "speed: 60", "speed: 0", 1)
-	text = strings.Replace(text, "telemetry: [3s]}", "telemetry: [3s], summary: [3s, 10min]}", 1)
-	writeFile(t, dir, "gw.yaml", text)
+	editConfig(t, cfg, "speed: 60", "speed: 0", "telemetry: [3s]}", "telemetry: [3s], summary: [3s, 10min]}")
 	if r := runCmd("run", "--config", cfg, "--stop-after", "11m", "--log-level", "error"); r.code != 0 {
 		t.Fatalf("run: exit %d: %s", r.code, r.stderr)
 	}

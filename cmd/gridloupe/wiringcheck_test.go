@@ -234,12 +234,7 @@ func TestWiringSinglePhase(t *testing.T) {
 // src: DESIGN Wiring check (single and several circuits).
 func TestWiringCircuits(t *testing.T) {
 	t.Parallel()
-	dir := t.TempDir()
-	cfg := filepath.Join("..", "..", "testdata", "north-weir-bus.yaml")
-	rec := filepath.Join(dir, "bus.csv")
-	if r := runCmd("simulate", "--config", cfg, "-o", rec, "--duration", "1.5s"); r.code != 0 {
-		t.Fatalf("simulate: %d %s", r.code, r.stderr)
-	}
+	cfg, rec := simulateBus(t, "1.5s")
 	if r := runCmd("wiring", "--config", cfg, "--format", "json", "--seconds", "1", rec); r.code != 0 || !strings.Contains(r.stdout, `"findings":[]`) {
 		t.Errorf("correct bus: exit %d %s", r.code, r.stdout)
 	}
@@ -264,7 +259,7 @@ func TestWiringCircuits(t *testing.T) {
 			lines[i] = strings.Join(f, ",")
 		}
 	}
-	rev := writeFile(t, dir, "rev.csv", strings.Join(lines, "\n")+"\n")
+	rev := writeFile(t, filepath.Dir(rec), "rev.csv", strings.Join(lines, "\n")+"\n")
 	r := runCmd("wiring", "--config", cfg, "--format", "json", "--seconds", "1", rev)
 	if r.code != 1 || !strings.Contains(r.stdout, `{"kind":"reversed_ct","phases":["b"],"text":"circuit pump2: the current on phase b (p2b) flows opposite`) ||
 		strings.Count(r.stdout, `"kind"`) != 1 {
