@@ -63,3 +63,13 @@ func TestComputeAllocsDeltaCircuits(t *testing.T) {
 		t.Errorf("Aggregator: %v allocs per call, want 0", n)
 	}
 }
+
+// TestRecordCopyToAllocs: copying into a record of the same shape (the
+// hand-off to an encoding goroutine) allocates nothing.
+func TestRecordCopyToAllocs(t *testing.T) {
+	s, r := copyCase(t)
+	dst := NewRecord(s)
+	if n := testing.AllocsPerRun(20, func() { r.CopyTo(dst) }); n != 0 {
+		t.Errorf("CopyTo: %v allocs, want 0", n)
+	}
+}

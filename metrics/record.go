@@ -259,3 +259,58 @@ func (r *Record) Clone() *Record {
 	}
 	return &c
 }
+
+// CopyTo makes dst a deep copy of r, reusing dst's slices where their
+// lengths match (a dst from NewRecord with the same Setup), so that a
+// record can be handed to another goroutine without allocating. dst's own
+// scratch is kept.
+func (r *Record) CopyTo(dst *Record) {
+	cin := dst.cin
+	chans, phases, seqV, seqI, circuits := dst.Channels, dst.Phases, dst.SeqV, dst.SeqI, dst.Circuits
+	*dst = *r
+	dst.cin = cin
+	if len(chans) != len(r.Channels) {
+		chans = make([]ChannelValues, len(r.Channels))
+	}
+	for i := range r.Channels {
+		h := chans[i].H
+		chans[i] = r.Channels[i]
+		chans[i].H = copyInto(h, r.Channels[i].H)
+	}
+	dst.Channels = chans
+	dst.Phases = copyInto(phases, r.Phases)
+	dst.SeqV = copyInto(seqV, r.SeqV)
+	dst.SeqI = copyInto(seqI, r.SeqI)
+	if r.Circuits == nil {
+		dst.Circuits = nil
+		return
+	}
+	if len(circuits) != len(r.Circuits) {
+		circuits = make([]CircuitValues, len(r.Circuits))
+	}
+	for k, cv := range r.Circuits {
+		circuits[k].Name = cv.Name
+		if cv.Rec == nil {
+			circuits[k].Rec = nil
+			continue
+		}
+		if circuits[k].Rec == nil {
+			circuits[k].Rec = &Record{}
+		}
+		cv.Rec.CopyTo(circuits[k].Rec)
+	}
+	dst.Circuits = circuits
+}
+
+// copyInto returns src's elements in dst's storage when the lengths match,
+// else in a new slice (nil stays nil, empty stays empty).
+func copyInto[T any](dst, src []T) []T {
+	if src == nil {
+		return nil
+	}
+	if dst == nil || len(dst) != len(src) {
+		dst = make([]T, len(src))
+	}
+	copy(dst, src)
+	return dst
+}

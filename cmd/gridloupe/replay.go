@@ -14,9 +14,9 @@ import (
 	"strings"
 	"time"
 
-	"github.com/schollz/progressbar/v3"
 	"golang.org/x/term"
 
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/progress"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/limits"
@@ -216,6 +216,10 @@ type replayJob struct {
 	events string        // --events FILE, "" = none
 }
 
+// replayBuffers is the records per batch handed to the encoding goroutine
+// (two batches: the analysis runs at most twice that far ahead).
+const replayBuffers = 4
+
 // replayAnalyse runs the pipeline over j.src and prints j.iv's records.
 func replayAnalyse(ctx context.Context, j replayJob, stdout, stderr io.Writer) error {
 	cfg, setup, rate, inPath, fmtKind, iv, src, where := j.cfg, j.setup, j.rate, j.input, j.format, j.iv, j.src, j.where
@@ -243,12 +247,17 @@ func replayAnalyse(ctx context.Context, j replayJob, stdout, stderr io.Writer) e
 	if err != nil {
 		return err
 	}
+	// Encoding and writing run on a goroutine of their own (encode.Async),
+	// beside decoding and the per-sample path; the output, its order and
+	// the errors are those of the encoder itself.
+	async := encode.NewAsync(enc, setup, replayBuffers)
+	defer async.Close()
 	agg := stream.NewIntervals(setup, iv)
 	emit := func(r *metrics.Record) error {
 		if r.Interval != iv {
 			return nil
 		}
-		return enc.Write(r)
+		return async.Write(r)
 	}
 	runErr := p.Run(ctx, src, func(r *metrics.Record) error { return agg.Add(r, emit) })
 	var cut bool
@@ -258,7 +267,10 @@ func replayAnalyse(ctx context.Context, j replayJob, stdout, stderr io.Writer) e
 	if runErr == nil {
 		runErr = agg.Flush(emit)
 	}
-	if err := enc.Flush(); err != nil && runErr == nil {
+	if err := async.Flush(); err != nil && runErr == nil {
+		runErr = err
+	}
+	if err := async.Close(); err != nil && runErr == nil {
 		runErr = err
 	}
 	if err := out.Flush(); err != nil && runErr == nil {
@@ -319,10 +331,10 @@ func ieeeReference(cfg *config.Config) *encode.Reference {
 	return ref
 }
 
-// openReplayInput opens replay's INPUT: a file, with a progress bar on a
-// terminal stderr when progress is set, or standard input for "-" (read as
+// openReplayInput opens replay's INPUT: a file, with a progress line on a
+// terminal stderr when show is set, or standard input for "-" (read as
 // CSV). The returned function closes what was opened.
-func openReplayInput(inPath string, stdin io.Reader, stderr io.Writer, progress bool) (io.Reader, func(), error) {
+func openReplayInput(inPath string, stdin io.Reader, stderr io.Writer, show bool) (io.Reader, func(), error) {
 	if inPath == "-" {
 		if stdin == nil {
 			return nil, nil, usagef("replay: INPUT - reads standard input, which is not available")
@@ -337,17 +349,11 @@ func openReplayInput(inPath string, stdin io.Reader, stderr io.Writer, progress 
 	if st, err := f.Stat(); err == nil {
 		size = st.Size()
 	}
-	if !progress || size == 0 || !isTerminal(stderr) {
+	if !show || size == 0 || !isTerminal(stderr) {
 		return f, func() { f.Close() }, nil
 	}
-	bar := progressbar.NewOptions64(size,
-		progressbar.OptionSetWriter(stderr),
-		progressbar.OptionSetDescription("replay "+filepath.Base(inPath)),
-		progressbar.OptionShowBytes(true),
-		progressbar.OptionThrottle(200*time.Millisecond),
-		progressbar.OptionClearOnFinish(),
-	)
-	return io.TeeReader(f, bar), func() { bar.Finish(); f.Close() }, nil
+	line := progress.New(stderr, filepath.Base(inPath), size, nil)
+	return io.TeeReader(f, line), func() { line.Finish(); f.Close() }, nil
 }
 
 // openInput opens a CSV or WAV source by file extension. It returns the

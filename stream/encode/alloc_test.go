@@ -30,3 +30,21 @@ func TestWriteAllocs(t *testing.T) {
 		}
 	}
 }
+
+// TestAsyncAllocs: handing a record over allocates nothing once the
+// buffers are shaped (STYLE 5), the writing goroutine included.
+func TestAsyncAllocs(t *testing.T) {
+	s := buildSetup(t, specWyeAll)
+	r := newRecord(s, randFloats(11))
+	a := NewAsync(NewJSONL(io.Discard, s), s, 3)
+	defer a.Close()
+	for range 4 {
+		_ = a.Write(r) // shape every buffer
+	}
+	if n := testing.AllocsPerRun(200, func() { _ = a.Write(r) }); n != 0 {
+		t.Errorf("Async.Write: %v allocs per record, want 0", n)
+	}
+	if err := a.Flush(); err != nil {
+		t.Fatal(err)
+	}
+}
