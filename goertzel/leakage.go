@@ -108,15 +108,29 @@ func NewLeakage(orders []int) (*Leakage, error) {
 func (l *Leakage) Reset(w float64, n int) {
 	l.w, l.n = w, n
 	l.kmax = 0
-	inv := 1 / float64(n)
-	for j := 0; j <= l.off; j++ {
-		d := dirichlet(float64(j)*w, n)
-		d = complex(real(d)*inv, imag(d)*inv)
+	nf := float64(n)
+	// D(j·ω)/N = e^{jπ·j·w(n−1)}·sin(π·j·w·n)/(n·sin(π·j·w)) (valid for any
+	// j·w not an integer: the factors' signs cancel over a period), each
+	// factor the j-th power of a unit phasor taken by rotation: rounding
+	// grows by about 2e-16 a step, 4e-14 after 200 steps, against the
+	// 1e-7 tolerance. Where sin(π·j·w) is small (an order near an alias of
+	// the sample rate) the direct formula is used.
+	ph, un, ut := cisTurns(w*(nf-1)/2), cisTurns(w*nf/2), cisTurns(w/2)
+	p, u, t := complex(1, 0), complex(1, 0), complex(1, 0)
+	l.k[l.off] = 1
+	for j := 1; j <= l.off; j++ {
+		p, u, t = p*ph, u*un, t*ut
+		var d complex128
+		if s := imag(t); math.Abs(s) > 1e-3 {
+			f := imag(u) / (s * nf)
+			d = complex(real(p)*f, imag(p)*f)
+		} else {
+			d = dirichlet(float64(j)*w, n)
+			d = complex(real(d)/nf, imag(d)/nf)
+		}
 		l.k[l.off+j] = d
 		l.k[l.off-j] = cmplx.Conj(d)
-		if j > 0 {
-			l.kmax = max(l.kmax, abs2(d))
-		}
+		l.kmax = max(l.kmax, abs2(d))
 	}
 	m := len(l.orders)
 	for j, h := range l.orders {
@@ -130,15 +144,16 @@ func (l *Leakage) Reset(w float64, n int) {
 		kk := l.k[l.off-k:]   // kk[h] = K(h − k)
 		kn := l.k[:l.off-k+1] // kn[off−k−h] = K(−h − k)
 		for j, h := range l.orders {
-			a := kk[h]
-			if j == i {
-				a = 0
-			}
-			b := kn[l.off-k-h]
+			a, b := kk[h], kn[l.off-k-h]
 			// P = −(a + b), Q = −j·(a − b) = (Im(a − b), −Re(a − b))
-			re[2*j], re[2*j+1] = -(real(a) + real(b)), imag(a)-imag(b)
-			im[2*j], im[2*j+1] = -(imag(a) + imag(b)), real(b)-real(a)
+			r, q := re[2*j:2*j+2:2*j+2], im[2*j:2*j+2:2*j+2]
+			r[0], r[1] = -(real(a) + real(b)), imag(a)-imag(b)
+			q[0], q[1] = -(imag(a) + imag(b)), real(b)-real(a)
 		}
+		// the diagonal has no K(h − k) term: only b remains
+		b := kn[l.off-2*k]
+		re[2*i], re[2*i+1] = -real(b), -imag(b)
+		im[2*i], im[2*i+1] = -imag(b), real(b)
 	}
 }
 

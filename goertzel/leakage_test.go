@@ -220,3 +220,30 @@ func TestDot(t *testing.T) {
 		}
 	}
 }
+
+// TestLeakageKernel: the kernel Reset computes by rotation equals the
+// Dirichlet kernel's closed form D(θ)/N = e^{jθ(N−1)/2}·sin(Nθ/2)/(N·sin(θ/2))
+// (evaluated directly, per entry) to 1e-12 (common practice, no source: a
+// thousand times float64 rounding over 200 steps, and five orders under the
+// 1e-7 stopping tolerance), at frequencies across both systems' tracking
+// ranges, a rate where the top entries pass half the sample rate and one
+// where the top entry falls on it (j·w = 1, the direct formula).
+func TestLeakageKernel(t *testing.T) {
+	l, err := NewLeakage(seq(1, 50))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, tc := range []struct{ f, fs float64 }{{50.02, 10240}, {35, 10240}, {65, 10240}, {42, 12800}, {78, 12800}, {57.5, 10240}, {50, 5120}, {50, 5000}} {
+		n := int(math.Round(10 * tc.fs / tc.f))
+		w := tc.f / tc.fs
+		l.Reset(w, n)
+		worst := 0.0
+		for j := -l.off; j <= l.off; j++ {
+			want := dirichlet(float64(j)*w, n) / complex(float64(n), 0)
+			worst = max(worst, cmplx.Abs(l.kern(j)-want))
+		}
+		if worst > 1e-12 {
+			t.Errorf("%g Hz at %g Hz, N = %d: kernel off the closed form by %.2g", tc.f, tc.fs, n, worst)
+		}
+	}
+}
