@@ -163,6 +163,8 @@ type Alarm struct {
 	RelativeTo string        // "" (absolute threshold) or RelativeBaseline: above/below are a rise/drop from the learned baseline
 	Learn      time.Duration // relative_to baseline: the commissioning period the baseline is learned over; default 168h
 	Line       int           // line of the rule's entry in the config file
+
+	kindPaths []string // key path of each of Kinds, for the validator's errors
 }
 
 // MetricEvent is the alarm metric that watches voltage events.

@@ -666,27 +666,25 @@ func (d *decoder) levels(v *yaml.Node, p string, dst *[]string) *Error {
 	})
 }
 
-// eventKinds decodes an event rule's kind: one of EventKinds, or a list of
-// them (each once).
-func (d *decoder) eventKinds(v *yaml.Node, p string, dst *[]string) *Error {
-	*dst = []string{}
+// eventKinds decodes an event rule's kind: one word, or a list of them
+// (checked against EventKinds by the validator, which knows the rule's
+// name). KindPaths keeps each word's key path for its error.
+func (d *decoder) eventKinds(v *yaml.Node, p string, a *Alarm) *Error {
+	a.Kinds, a.kindPaths = []string{}, nil
 	if n := deref(v); n != nil && n.Kind != yaml.SequenceNode {
 		var k string
-		if e := d.enum(v, p, &k, EventKinds...); e != nil {
+		if e := d.str(v, p, &k); e != nil {
 			return e
 		}
-		*dst = append(*dst, k)
+		a.Kinds, a.kindPaths = append(a.Kinds, k), append(a.kindPaths, p)
 		return nil
 	}
 	return d.sequence(v, p, "event kinds ("+strings.Join(EventKinds, ", ")+")", len(EventKinds), func(_ int, v *yaml.Node, ip string) *Error {
 		var k string
-		if e := d.enum(v, ip, &k, EventKinds...); e != nil {
+		if e := d.str(v, ip, &k); e != nil {
 			return e
 		}
-		if slices.Contains(*dst, k) {
-			return d.errf(v, ip, "%s is listed twice", k)
-		}
-		*dst = append(*dst, k)
+		a.Kinds, a.kindPaths = append(a.Kinds, k), append(a.kindPaths, ip)
 		return nil
 	})
 }
@@ -701,7 +699,7 @@ func (d *decoder) alarm(n *yaml.Node, path string, a *Alarm) *Error {
 		case "metric":
 			return d.enum(v, p, &a.Metric, alarmMetricNames...)
 		case "kind":
-			return d.eventKinds(v, p, &a.Kinds)
+			return d.eventKinds(v, p, a)
 		case "channel":
 			return d.str(v, p, &a.Channel)
 		case "phase":

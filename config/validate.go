@@ -600,6 +600,19 @@ func (v *validator) eventAlarm(p string, a *Alarm) *Error {
 				a.Name, k, strings.Join(eventAllowed, ", "))
 		}
 	}
+	for i, k := range a.Kinds {
+		kp := p + ".kind"
+		if i < len(a.kindPaths) {
+			kp = a.kindPaths[i]
+		}
+		switch {
+		case !slices.Contains(EventKinds, k):
+			return v.fail(kp, "rule %q: kind %q is not allowed; use one of: %s (or a list of them; leave kind out for every kind)", a.Name, k, strings.Join(EventKinds, ", "))
+		case slices.Contains(a.Kinds[:i], k):
+			return v.fail(kp, "rule %q: kind %s is listed twice", a.Name, k)
+		}
+	}
+	a.kindPaths = nil
 	if a.Severity == "" {
 		a.Severity = defaultSeverity
 	}

@@ -14,9 +14,9 @@ import (
 	"strings"
 	"time"
 
-	"github.com/schollz/progressbar/v3"
 	"golang.org/x/term"
 
+	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/progress"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/limits"
@@ -331,10 +331,10 @@ func ieeeReference(cfg *config.Config) *encode.Reference {
 	return ref
 }
 
-// openReplayInput opens replay's INPUT: a file, with a progress bar on a
-// terminal stderr when progress is set, or standard input for "-" (read as
+// openReplayInput opens replay's INPUT: a file, with a progress line on a
+// terminal stderr when show is set, or standard input for "-" (read as
 // CSV). The returned function closes what was opened.
-func openReplayInput(inPath string, stdin io.Reader, stderr io.Writer, progress bool) (io.Reader, func(), error) {
+func openReplayInput(inPath string, stdin io.Reader, stderr io.Writer, show bool) (io.Reader, func(), error) {
 	if inPath == "-" {
 		if stdin == nil {
 			return nil, nil, usagef("replay: INPUT - reads standard input, which is not available")
@@ -349,17 +349,11 @@ func openReplayInput(inPath string, stdin io.Reader, stderr io.Writer, progress 
 	if st, err := f.Stat(); err == nil {
 		size = st.Size()
 	}
-	if !progress || size == 0 || !isTerminal(stderr) {
+	if !show || size == 0 || !isTerminal(stderr) {
 		return f, func() { f.Close() }, nil
 	}
-	bar := progressbar.NewOptions64(size,
-		progressbar.OptionSetWriter(stderr),
-		progressbar.OptionSetDescription("replay "+filepath.Base(inPath)),
-		progressbar.OptionShowBytes(true),
-		progressbar.OptionThrottle(200*time.Millisecond),
-		progressbar.OptionClearOnFinish(),
-	)
-	return io.TeeReader(f, bar), func() { bar.Finish(); f.Close() }, nil
+	line := progress.New(stderr, filepath.Base(inPath), size, nil)
+	return io.TeeReader(f, line), func() { line.Finish(); f.Close() }, nil
 }
 
 // openInput opens a CSV or WAV source by file extension. It returns the

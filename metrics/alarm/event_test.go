@@ -290,3 +290,103 @@ func TestEventRuleValidation(t *testing.T) {
 		})
 	}
 }
+
+// FuzzEventRule feeds arbitrary sequences of dips, swells, open and ended
+// interruptions and 3 s records to an event rule on dips and interruptions
+// and checks the Evaluator.Event doc: transitions alternate starting with
+// a raise; a raise comes from a matching event, a clear from a record, never
+// while an open event holds the rule, and never before OffDelay past the
+// end of the last event that raised or held it; and a raised rule with no
+// open event clears once records pass that time.
+func later(a, b time.Time) time.Time {
+	if b.After(a) {
+		return b
+	}
+	return a
+}
+
+func FuzzEventRule(f *testing.F) {
+	f.Add([]byte{1, 0, 0, 0, 2, 0, 0, 3, 0, 0, 0})
+	f.Add([]byte{2, 0, 1, 5, 3, 0, 0, 0, 0, 0, 0, 0, 0})
+	f.Fuzz(func(t *testing.T, data []byte) {
+		const off = 30 * time.Second
+		ru := Rule{Name: "f", Metric: MetricEvent, Kinds: []events.Kind{events.Dip, events.Interruption},
+			Target: Target{Channel: -1}, OffDelay: off}
+		e, err := New([]Rule{ru}, northWeir(t, 1), nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(data) > 500 {
+			data = data[:500]
+		}
+		now := t0                        // end of the last record
+		var last time.Time               // end of the last event that raised or held the rule
+		var openStart, openEnd time.Time // the open interruption's start and how far it was reported lasting
+		// each detector machine's events follow one another: the end of
+		// the last dip or interruption, and of the last swell
+		var dipEnd, swellEnd time.Time
+		raised := false
+		check := func(trs []Transition, fromEvent bool) {
+			for _, tr := range trs {
+				switch {
+				case tr.Raised == raised:
+					t.Fatalf("transition %+v repeats the state", tr)
+				case tr.Raised != fromEvent:
+					t.Fatalf("transition %+v from the wrong input (event %v)", tr, fromEvent)
+				case !tr.Raised && !openStart.IsZero():
+					t.Fatalf("cleared at %v while an open event holds the rule", tr.Time)
+				case !tr.Raised && tr.Time.Sub(last) < off:
+					t.Fatalf("cleared at %v, %v after the last event ended", tr.Time, tr.Time.Sub(last))
+				}
+				raised = tr.Raised
+			}
+		}
+		for _, b := range data {
+			d := time.Duration(b>>2) * 20 * time.Millisecond
+			var ev *Event
+			op := b & 3
+			if op == 1 && !openStart.IsZero() {
+				op = 0 // dips and interruptions are one detector machine: no dip while an interruption is open
+			}
+			switch op {
+			case 0:
+				check(e.Evaluate(&metrics.Record{Interval: metrics.Int3s, Start: now, DurationS: 3}, nil), false)
+				now = now.Add(3 * time.Second)
+				continue
+			case 1:
+				ev = &Event{Kind: events.Dip, Start: later(now, dipEnd), DurationS: d.Seconds()}
+			case 2:
+				ev = &Event{Kind: events.Swell, Start: later(now, swellEnd), DurationS: d.Seconds()}
+			case 3:
+				if openStart.IsZero() {
+					openStart = later(now, dipEnd)
+					ev = &Event{Kind: events.Interruption, Start: openStart, DurationS: d.Seconds(), Open: true}
+					openEnd = ev.End()
+				} else { // it ends no earlier than it was reported lasting, nor before now
+					end := now
+					if openEnd.After(end) {
+						end = openEnd
+					}
+					ev = &Event{Kind: events.Interruption, Start: openStart, DurationS: end.Add(d).Sub(openStart).Seconds()}
+					openStart = time.Time{}
+				}
+			}
+			if ev.Kind == events.Swell {
+				swellEnd = ev.End()
+			} else {
+				dipEnd = later(dipEnd, ev.End())
+				last = later(last, ev.End())
+			}
+			check(e.Event(ev, nil), true)
+		}
+		if raised && openStart.IsZero() {
+			end := last.Add(off + 3*time.Second)
+			for ; !now.After(end) && raised; now = now.Add(3 * time.Second) {
+				check(e.Evaluate(&metrics.Record{Interval: metrics.Int3s, Start: now, DurationS: 3}, nil), false)
+			}
+			if raised {
+				t.Fatalf("still raised at %v, past the last end %v + off_delay", now, last)
+			}
+		}
+	})
+}
