@@ -247,3 +247,47 @@ func TestLeakageKernel(t *testing.T) {
 		}
 	}
 }
+
+// TestLeakageFundamentalSums: for a signal made only of DC and the
+// modelled orders at the window's own frequency (N not a whole number of
+// cycles), the sums Fundamental returns are the fundamental's alone, in
+// closed form c₁·N over the window and c₁·N/2 over its first half (c₁ the
+// fundamental's complex amplitude: every other component, its image and
+// DC removed), to 1e-9 (common practice, no source: the stopping
+// tolerance is 1e-7 of the fundamental, met here with a margin).
+func TestLeakageFundamentalSums(t *testing.T) {
+	const fs, f, dc = 10240.0, 50.02, 20.0
+	n := 2047
+	w := f / fs
+	orders := []int{1, 2, 3, 5, 7, 11}
+	tones := []tone{{w, 230, 0.4}, {2 * w, 1.2, 2}, {3 * w, 6.9, 1}, {5 * w, 11.5, -2}, {7 * w, 2, 3}, {11 * w, 0.9, -1}}
+	x := synth(n, tones, 0, nil)
+	var sum float64
+	for i := range x {
+		x[i] += dc
+		sum += x[i]
+	}
+	b, _ := NewBank(orders)
+	b.Reset(w)
+	b.Write(x)
+	ph := make([]complex128, len(orders))
+	b.Phasors(ph)
+	l, _ := NewLeakage(orders)
+	l.Reset(w, n)
+	gotDC, ok := l.Solve(ph, sum/float64(n))
+	if !ok {
+		t.Fatal("not converged")
+	}
+	full, half := l.Fundamental(x, ph, gotDC)
+	c1 := cmplx.Rect(230, 0.4) / math.Sqrt2
+	for _, s := range []struct {
+		name string
+		got  complex128
+		m    int
+	}{{"window", full, n}, {"first half", half, n / 2}} {
+		want := c1 * complex(float64(s.m), 0)
+		if d := cmplx.Abs(s.got-want) / cmplx.Abs(want); d > 1e-9 {
+			t.Errorf("%s sum %v, want c₁·%d = %v (closed form): relative error %.2g", s.name, s.got, s.m, want, d)
+		}
+	}
+}

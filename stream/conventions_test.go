@@ -110,8 +110,8 @@ func TestClippedAtIntegerRail(t *testing.T) {
 // TestClippedSingleSample: one sample at the rail (full_scale, either sign)
 // flags the window holding it and no other, wherever it falls: at the
 // start, at even and odd positions, at the last sample of a window and of a
-// block, with blocks of 512 and of 333 frames (segments of odd length, whose
-// last sample the pairwise loop leaves to the tail: samples 332 and 665).
+// block, with blocks of 512 and of 333 frames (segments of odd length; the
+// last samples of the first two blocks of 333 are 332 and 665).
 func TestClippedSingleSample(t *testing.T) {
 	const fs, fullScale = 10240.0, 400.0
 	for _, bf := range []int{512, 333} {

@@ -342,42 +342,26 @@ func (p *Pipeline) block(n int, emit func(*metrics.Record) error) error {
 
 // segment accumulates samples [off, off+k) of the current block into the
 // window: it stores them in the window's buffer and sums them in the same
-// pass, two samples at a time with two sets of partial sums, so that the
-// additions do not wait on each other.
+// pass. The sums run in sample order whatever the blocks, so the results do
+// not depend on how a source cuts its reads.
 func (p *Pipeline) segment(off, k int) {
 	for c := range p.nch {
 		seg := p.buf[c][off : off+k]
 		win := p.ex.span(c, p.filled, k)
 		ch := &p.in.Ch[c]
-		s0, ss0, pk0 := ch.Sum, ch.SumSq, ch.Peak
-		var s1, ss1, pk1 float64
+		s, ss, pk := ch.Sum, ch.SumSq, ch.Peak
 		hi, lo := p.clipHi[c], p.clipLo[c]
 		clip := false
-		i := 0
-		for ; i+2 <= len(seg) && i+2 <= len(win); i += 2 {
-			x0, x1 := seg[i], seg[i+1]
-			win[i], win[i+1] = x0, x1
-			s0 += x0
-			s1 += x1
-			ss0 += x0 * x0
-			ss1 += x1 * x1
-			pk0 = max(pk0, math.Abs(x0))
-			pk1 = max(pk1, math.Abs(x1))
-			if x0 >= hi || x0 <= lo || x1 >= hi || x1 <= lo {
-				clip = true
-			}
-		}
-		for ; i < len(seg) && i < len(win); i++ {
-			x := seg[i]
+		for i, x := range seg {
 			win[i] = x
-			s0 += x
-			ss0 += x * x
-			pk0 = max(pk0, math.Abs(x))
+			s += x
+			ss += x * x
+			pk = max(pk, math.Abs(x))
 			if x >= hi || x <= lo {
 				clip = true
 			}
 		}
-		ch.Sum, ch.SumSq, ch.Peak, ch.N = s0+s1, ss0+ss1, max(pk0, pk1), ch.N+k
+		ch.Sum, ch.SumSq, ch.Peak, ch.N = s, ss, pk, ch.N+k
 		if clip {
 			ch.Clipped = true
 		}
@@ -389,16 +373,11 @@ func (p *Pipeline) segment(off, k int) {
 	}
 	for i, pr := range p.setup.Products {
 		v, cur := p.buf[pr.V][off:off+k], p.buf[pr.I][off:off+k]
-		a0, a1 := p.in.SumVI[i], 0.0
-		j := 0
-		for ; j+2 <= len(v) && j+2 <= len(cur); j += 2 {
-			a0 += v[j] * cur[j]
-			a1 += v[j+1] * cur[j+1]
+		acc := p.in.SumVI[i]
+		for j, x := range v {
+			acc += x * cur[j]
 		}
-		if j < len(v) && j < len(cur) {
-			a0 += v[j] * cur[j]
-		}
-		p.in.SumVI[i] = a0 + a1
+		p.in.SumVI[i] = acc
 	}
 	p.filled += k
 	p.idx += uint64(k)
