@@ -281,5 +281,13 @@ func FuzzBankBlocks(f *testing.F) {
 				t.Fatalf("h=%d: bank %v, Phasor %v", h, got[i], p)
 			}
 		}
+		// src: vecRelTol (bank_vec_test.go): the pure-Go loops against the
+		// kernels, here relative to the signal level.
+		g := writeBlocks(goBank(t, orders), w, x, bs)
+		for i, h := range orders {
+			if !closeTo(got[i], g[i], vecRelTol*scale) {
+				t.Fatalf("h=%d block %d: kernels %v, Go loops %v", h, bs, got[i], g[i])
+			}
+		}
 	})
 }
