@@ -340,9 +340,12 @@ func (t *liveTable) transition(a alarm.Transition) {
 	if a.Raised {
 		state = "RAISED "
 	}
-	if e := a.Event; e != nil {
-		what := "after " + e.ID
-		if a.Raised {
+	if a.Metric == alarm.MetricEvent {
+		e, what := a.Event, "after the event before the restart"
+		switch {
+		case e != nil && !a.Raised:
+			what = "after " + e.ID
+		case e != nil:
 			ext := "residual"
 			if e.Kind == events.Swell {
 				ext = "maximum"

@@ -241,6 +241,9 @@ func TestEventAlarmsUnderRun(t *testing.T) {
 	if len(ae) != 2 || ae[1]["state"] != "cleared" {
 		t.Fatalf("any-event messages %v, want the one raise before the restart and a clear after it (src: README: an alarm raised before a restart is not raised again)", ae)
 	}
+	if _, has := ae[1]["event"]; has || ae[1]["threshold"] != nil || ae[1]["value"] != nil {
+		t.Errorf("any-event cleared after the restart with %v, want no event, value and threshold null (src: README 'Alarm rules': the event is not known after a restart)", ae[1])
+	}
 	if d := secs(msgTime(t, ae[1], "time"), end(intr)); d < 600 || d >= 603 {
 		t.Errorf("any-event cleared %.3f s after the interruption ended, want in [600, 603) (src: default off_delay 10m, config validate.go; 3 s values)", d)
 	}

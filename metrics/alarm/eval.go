@@ -32,7 +32,8 @@ type Transition struct {
 	Text      string
 	Metric    string
 	// Event: event rules: the event that raised the rule (raised) or the
-	// last one that held it (cleared; nil after a restart); nil otherwise.
+	// last one that held it (cleared; nil after a restart, and then Value
+	// and Threshold are NaN); nil otherwise.
 	Event *Event
 }
 

@@ -208,9 +208,10 @@ func (e *Evaluator) eventClock(i int, start, t time.Time) (Transition, bool) {
 
 func (e *Evaluator) eventTransition(i int, t time.Time, raised bool) Transition {
 	ru, er := &e.rules[i], e.c[i].ev
-	tr := Transition{Rule: ru.Name, Raised: raised, Time: t, Value: e.st[i].Value, Level: ru.Level,
+	tr := Transition{Rule: ru.Name, Raised: raised, Time: t, Value: math.NaN(), Threshold: math.NaN(), Level: ru.Level,
 		Severity: ru.Severity, Text: ru.Text, Metric: ru.Metric}
-	if er.last != nil {
+	if er.last != nil { // else: cleared after a restart, the event is not known: value and threshold NaN (null)
+		tr.Value = er.last.ExtremeV
 		kept := *er.last
 		kept.Channels = slices.Clone(er.last.Channels)
 		tr.Event, tr.Threshold = &kept, kept.ThresholdV

@@ -255,6 +255,9 @@ func TestEventRuleRestart(t *testing.T) {
 	// off_delay after the first record's start
 	crash := map[string]State{"supply-dip": {Raised: true, Since: secs(13.8), Value: 0}}
 	got, _ = runEvents(t, r, crash, []evStep{rec(2000), rec(2594), rec(2597), rec(2600)})
+	if len(got) == 1 && (got[0].Event != nil || !math.IsNaN(got[0].Value) || !math.IsNaN(got[0].Threshold)) {
+		t.Errorf("clear after a crash: %+v, want no event and NaN value and threshold (src: Transition doc: the event is not known after a restart)", got[0])
+	}
 	if len(got) != 1 || got[0].Raised || !got[0].Time.Equal(secs(2600)) {
 		t.Errorf("after a crash: %+v, want the clear at 2600 s (src: README 'Alarm rules': off_delay from the start of the first record after the restart; 2000 + 600)", got)
 	}

@@ -378,8 +378,12 @@ func (g *Gateway) transitionsDone() {
 		if t.Raised {
 			state = "raised"
 		}
-		if t.Event != nil {
-			g.log.Warn("alarm", "alarm", t.Rule, "state", state, "event", t.Event.ID, "value", t.Value, "threshold", t.Threshold)
+		if t.Metric == alarm.MetricEvent {
+			id := "" // a clear after a restart: the event is not known
+			if t.Event != nil {
+				id = t.Event.ID
+			}
+			g.log.Warn("alarm", "alarm", t.Rule, "state", state, "event", id, "value", t.Value, "threshold", t.Threshold)
 		} else {
 			g.log.Warn("alarm", "alarm", t.Rule, "state", state, "value", t.Value, "threshold", t.Threshold, "level", t.Level.String())
 		}
