@@ -31,6 +31,8 @@ func (p *Pipeline) initEvents(bf int) error {
 	ec := *p.cfg.Events
 	ec.SampleRate, ec.NominalHz, ec.DeclaredV = p.fs, p.nomHz, p.setup.NominalV
 	ec.Channels, ec.MaxBlock = p.nch, bf
+	// Without a sink nobody reads a waveform (flags only): no ring.
+	ec.NoCapture = p.cfg.EventSink == nil
 	ec.Voltages = nil
 	for i, ch := range p.setup.Channels {
 		if ch.Kind == metrics.Voltage {

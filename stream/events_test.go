@@ -3,6 +3,7 @@ package stream
 import (
 	"context"
 	"math"
+	"slices"
 	"testing"
 	"time"
 
@@ -159,5 +160,52 @@ func TestPipelineEvents(t *testing.T) {
 	}
 	if n10 != 2 || nFlag == 0 || nFlag == n200 {
 		t.Fatalf("%d 10 min records (want 2, both sides of the tick), %d of %d windows flagged", n10, nFlag, n200)
+	}
+}
+
+// TestEventsWithoutSink: with no EventSink (replay without --events) the
+// detector keeps no capture ring, and the records carry the same event
+// flags as with a sink. src: Config.EventSink "nil = flags only" and
+// events.Config.NoCapture.
+func TestEventsWithoutSink(t *testing.T) {
+	const fs, f, udin = 10240.0, 50.0, 230.0
+	dip := func(t float64) float64 {
+		if t >= 0.8133 && t < 0.9333 {
+			return 138.3 / udin
+		}
+		return 1
+	}
+	s := setupOf(t, metrics.Wye, udin, 0, false, []int{1},
+		metrics.Channel{Name: "va", Kind: metrics.Voltage, Phase: 'a'}, metrics.Channel{Name: "ia", Kind: metrics.Current, Phase: 'a'})
+	run := func(sink EventSink) ([]metrics.Flags, int) {
+		src := newSynth(fs, constFreq(f), 2, synthChan{tones: []tone{{1, udin, 10}}, gain: dip}, synthChan{tones: []tone{{1, 40, -20}}})
+		ec := events.DefaultConfig()
+		p, err := New(Config{Setup: s, SampleRate: fs, NominalHz: 50, Events: &ec, EventSink: sink})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var flags []metrics.Flags
+		if err := p.Run(context.Background(), src, func(r *metrics.Record) error { flags = append(flags, r.Flags); return nil }); err != nil {
+			t.Fatal(err)
+		}
+		return flags, p.ev.RingBytes()
+	}
+	sink := &eventSink{}
+	want, ring := run(sink)
+	got, bare := run(nil)
+	if len(sink.ended) != 1 || ring == 0 {
+		t.Fatalf("with a sink: %d events, ring %d bytes; want one dip and a ring", len(sink.ended), ring)
+	}
+	if bare != 0 {
+		t.Errorf("without a sink the ring holds %d bytes, want 0", bare)
+	}
+	flagged := 0
+	for _, fl := range want {
+		if fl&metrics.FlagEvent != 0 {
+			flagged++
+		}
+	}
+	if !slices.Equal(got, want) || flagged == 0 {
+		t.Errorf("window flags without a sink %v, with %v (%d flagged)", got, want, flagged)
 	}
 }

@@ -51,6 +51,13 @@ type Config struct {
 	PreCycles       int     // nominal cycles captured before the start; default 10 (negative = 0)
 	PostCycles      int     // nominal cycles captured after the end; default 20 (negative = 0)
 	MaxCaptureS     float64 // a capture is cut at this length, seconds; default 4
+
+	// NoCapture keeps no waveforms, for a caller that wants the events and
+	// flags only: the ring (Channels float32 values per frame for
+	// MaxCaptureS plus MaxBlock frames, about 1 MB for six channels at
+	// 10.24 kHz) is not allocated. Events, notes and capture bounds are the
+	// same; Waveform has no frames.
+	NoCapture bool
 }
 
 // DefaultConfig returns the thresholds DESIGN's "Voltage events" section
@@ -221,12 +228,15 @@ func New(cfg Config) (*Detector, error) {
 	d.preFrames = min(int(math.Round(float64(cfg.PreCycles)*cyc)), d.maxFrames/2)
 	d.postFrames = int(math.Round(float64(cfg.PostCycles) * cyc))
 	d.ringFrames = d.maxFrames + cfg.MaxBlock
-	d.ring = make([]float32, d.ringFrames*cfg.Channels)
+	if !cfg.NoCapture {
+		d.ring = make([]float32, d.ringFrames*cfg.Channels)
+	}
 	d.advanceEdge()
 	return d, nil
 }
 
-// RingBytes returns the capture ring's size in bytes (constant for the run).
+// RingBytes returns the capture ring's size in bytes (constant for the run;
+// 0 with NoCapture).
 func (d *Detector) RingBytes() int { return 4 * len(d.ring) }
 
 // Config returns the configuration in use, defaults applied.
@@ -305,6 +315,9 @@ func (d *Detector) Write(buf [][]float64, off, k int) {
 
 // capture stores samples [off, off+n) of every channel in the ring.
 func (d *Detector) capture(buf [][]float64, off, n int) {
+	if d.ring == nil {
+		return
+	}
 	nch := d.cfg.Channels
 	pos := int(d.idx % uint64(d.ringFrames))
 	for i := range n {
@@ -558,12 +571,14 @@ func (d *Detector) Skip(k int) {
 	if k > d.cfg.MaxBlock {
 		panic("events: Skip: more than MaxBlock samples")
 	}
-	nch := d.cfg.Channels
-	nan := float32(math.NaN())
-	for i := range k {
-		pos := int((d.idx + uint64(i)) % uint64(d.ringFrames))
-		for c := range nch {
-			d.ring[pos*nch+c] = nan
+	if d.ring != nil {
+		nch := d.cfg.Channels
+		nan := float32(math.NaN())
+		for i := range k {
+			pos := int((d.idx + uint64(i)) % uint64(d.ringFrames))
+			for c := range nch {
+				d.ring[pos*nch+c] = nan
+			}
 		}
 	}
 	d.idx += uint64(k)
@@ -592,8 +607,12 @@ func (d *Detector) Overlaps(from, to uint64) bool {
 }
 
 // Waveform returns a view of ev's capture in the ring. It is valid only
-// until the next Write: copy what you keep.
+// until the next Write: copy what you keep. With NoCapture it has no
+// frames.
 func (d *Detector) Waveform(ev *Event) Waveform {
+	if d.ring == nil {
+		return Waveform{nch: d.cfg.Channels, ringFrames: d.ringFrames, start: ev.CaptureStart}
+	}
 	return Waveform{ring: d.ring, nch: d.cfg.Channels, ringFrames: d.ringFrames,
 		start: ev.CaptureStart, n: ev.CaptureFrames}
 }

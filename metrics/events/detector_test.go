@@ -2,6 +2,7 @@ package events
 
 import (
 	"math"
+	"slices"
 	"testing"
 )
 
@@ -227,4 +228,48 @@ func TestCaptureBounds(t *testing.T) {
 			t.Fatalf("ring %d bytes (then %d), want %d, constant", ring, d.RingBytes(), want)
 		}
 	})
+}
+
+// TestNoCapture: without the ring the detector reports the same notes (the
+// same events, capture bounds and cut flags) through dips, a long dip cut
+// at max_capture_s, a swell and a gap; it holds no ring and its waveforms
+// have no frames. src: the Config.NoCapture contract.
+func TestNoCapture(t *testing.T) {
+	const fs, f, udin = 10240.0, 50.0, 230.0
+	steps := []step{{0, 0.3, 0.4, 170}, {1, 0.9, 1.6, 100}, {2, 2.1, 2.3, 270}, {0, 3.2, 3.3, 150}}
+	sig := signal(fs, f, udin, 4, 3, steps)
+	run := func(noCapture bool) ([]Note, *Detector) {
+		d := newDet(t, fs, f, 3, 512, func(c *Config) { c.MaxCaptureS, c.NoCapture = 0.5, noCapture })
+		var notes []Note
+		drain := func() {
+			for n, ok := d.Next(); ok; n, ok = d.Next() {
+				notes = append(notes, n)
+				if w := d.Waveform(&n.Event); noCapture && (w.Frames() != 0 || w.Channels() != 4) {
+					t.Errorf("NoCapture waveform: %d frames of %d channels, want 0 of 4", w.Frames(), w.Channels())
+				}
+			}
+		}
+		for off := 0; off < len(sig[0]); off += 512 {
+			if off == 512*50 { // a 300-sample gap inside the second dip
+				d.Skip(300)
+				drain()
+			}
+			d.Write(sig, off, min(512, len(sig[0])-off))
+			drain()
+		}
+		d.Close()
+		drain()
+		return notes, d
+	}
+	want, full := run(false)
+	got, bare := run(true)
+	if len(ended(want)) != 4 {
+		t.Fatalf("%d events with the ring, want 4 (the steps)", len(ended(want)))
+	}
+	if !slices.Equal(got, want) {
+		t.Errorf("notes without the ring differ:\n got %+v\nwant %+v", got, want)
+	}
+	if bare.RingBytes() != 0 || full.RingBytes() == 0 {
+		t.Errorf("ring %d bytes with NoCapture (want 0), %d without", bare.RingBytes(), full.RingBytes())
+	}
 }

@@ -5,6 +5,7 @@ import (
 	"html/template"
 	"io"
 	"math"
+	"sync"
 	"time"
 
 	"github.com/gridloupe/gridloupe/metrics/compliance"
@@ -49,71 +50,79 @@ func Write(w io.Writer, d *Data) error {
 	if d.Result == nil {
 		return fmt.Errorf("report: no evaluation result")
 	}
-	if err := page.Execute(w, d); err != nil {
+	if err := page().Execute(w, d); err != nil {
 		return fmt.Errorf("report: %w", err)
 	}
 	return nil
 }
 
-var funcs = template.FuncMap{
-	"bars":   barSVG,
-	"trend":  lineSVG,
-	"legend": legend,
-	"day":    func(t time.Time) string { return t.UTC().Format("2006-01-02") },
-	"stamp":  func(t time.Time) string { return t.UTC().Format("2006-01-02 15:04 UTC") },
-	"pct": func(v float64) string {
-		if math.IsNaN(v) {
-			return "–"
-		}
-		return fmt.Sprintf("%.2f", v)
-	},
-	"num": func(v float64, digits int) string {
-		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return "–"
-		}
-		return fmt.Sprintf("%.*f", digits, v)
-	},
-	"margin": func(l compliance.Line) template.HTML {
-		if math.IsNaN(l.Value) {
-			return "–"
-		}
-		// numbers only: nothing to escape (html/template would turn + into &#43;)
-		return template.HTML(fmt.Sprintf("%+.2f (%.0f %%)", l.Threshold-l.Value, 100*(l.Threshold-l.Value)/l.Threshold))
-	},
-	"cls": func(v compliance.Verdict) string { return v.String() },
-	"worst": func(r *compliance.Result, l compliance.Line) string {
-		if l.WorstDay < 0 || l.Statistic != compliance.DailyP99 {
-			return ""
-		}
-		return r.Days[l.WorstDay].Start.Format("Mon 01-02")
-	},
-	"cov":  func(c float64) string { return fmt.Sprintf("%.0f %%", 100*c) },
-	"week": func(t harmdiag.Table, w int) string { return day(t.Start.Add(time.Duration(w) * 7 * 24 * time.Hour)) },
-	"cell": func(t harmdiag.Table, w, j int) string {
-		if v := t.TDD[w][j]; !math.IsNaN(v) {
+// page parses the report template on first use, not at package
+// initialisation: every gridloupe command links this package, and only
+// `report` renders it.
+var page = sync.OnceValue(func() *template.Template {
+	return template.Must(template.New("report").Funcs(funcs()).Parse(pageHTML))
+})
+
+// funcs are the template's helpers.
+func funcs() template.FuncMap {
+	return template.FuncMap{
+		"bars":   barSVG,
+		"trend":  lineSVG,
+		"legend": legend,
+		"day":    func(t time.Time) string { return t.UTC().Format("2006-01-02") },
+		"stamp":  func(t time.Time) string { return t.UTC().Format("2006-01-02 15:04 UTC") },
+		"pct": func(v float64) string {
+			if math.IsNaN(v) {
+				return "–"
+			}
 			return fmt.Sprintf("%.2f", v)
-		}
-		if t.N[w][j] > 0 {
-			return fmt.Sprintf("(%d)", t.N[w][j])
-		}
-		return ""
-	},
-	"upper": func(b int) int { return b + harmdiag.BinPct },
-	"hi":    func(t harmdiag.Table, j int) bool { return t.Best >= 0 && t.Bins[j] == t.Best },
-	"verdict": func(v compliance.Verdict) string {
-		switch v {
-		case compliance.Pass:
-			return "PASS: every statistic below its threshold"
-		case compliance.Fail:
-			return "FAIL: at least one statistic at or above its threshold"
-		}
-		return "INCOMPLETE: too little data to pass"
-	},
+		},
+		"num": func(v float64, digits int) string {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return "–"
+			}
+			return fmt.Sprintf("%.*f", digits, v)
+		},
+		"margin": func(l compliance.Line) template.HTML {
+			if math.IsNaN(l.Value) {
+				return "–"
+			}
+			// numbers only: nothing to escape (html/template would turn + into &#43;)
+			return template.HTML(fmt.Sprintf("%+.2f (%.0f %%)", l.Threshold-l.Value, 100*(l.Threshold-l.Value)/l.Threshold))
+		},
+		"cls": func(v compliance.Verdict) string { return v.String() },
+		"worst": func(r *compliance.Result, l compliance.Line) string {
+			if l.WorstDay < 0 || l.Statistic != compliance.DailyP99 {
+				return ""
+			}
+			return r.Days[l.WorstDay].Start.Format("Mon 01-02")
+		},
+		"cov":  func(c float64) string { return fmt.Sprintf("%.0f %%", 100*c) },
+		"week": func(t harmdiag.Table, w int) string { return day(t.Start.Add(time.Duration(w) * 7 * 24 * time.Hour)) },
+		"cell": func(t harmdiag.Table, w, j int) string {
+			if v := t.TDD[w][j]; !math.IsNaN(v) {
+				return fmt.Sprintf("%.2f", v)
+			}
+			if t.N[w][j] > 0 {
+				return fmt.Sprintf("(%d)", t.N[w][j])
+			}
+			return ""
+		},
+		"upper": func(b int) int { return b + harmdiag.BinPct },
+		"hi":    func(t harmdiag.Table, j int) bool { return t.Best >= 0 && t.Bins[j] == t.Best },
+		"verdict": func(v compliance.Verdict) string {
+			switch v {
+			case compliance.Pass:
+				return "PASS: every statistic below its threshold"
+			case compliance.Fail:
+				return "FAIL: at least one statistic at or above its threshold"
+			}
+			return "INCOMPLETE: too little data to pass"
+		},
+	}
 }
 
 func day(t time.Time) string { return t.UTC().Format("2006-01-02") }
-
-var page = template.Must(template.New("report").Funcs(funcs).Parse(pageHTML))
 
 const pageHTML = `<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8">
