@@ -61,6 +61,7 @@ type Leakage struct {
 	d     []complex128 // scratch: the last iterate's difference
 	nz    []int32      // scratch: entries of d that still move
 	ab    []float64    // scratch: their real and imaginary parts, packed
+	kh    []complex128 // scratch: the kernel over the first half window (Fundamental)
 	w     float64
 	n     int
 }
@@ -99,6 +100,7 @@ func NewLeakage(orders []int) (*Leakage, error) {
 		dcOut:  make([]complex128, m),
 		nz:     make([]int32, 0, m),
 		ab:     make([]float64, 0, 2*m),
+		kh:     make([]complex128, orders[m-1]+2),
 	}, nil
 }
 
@@ -108,15 +110,11 @@ func NewLeakage(orders []int) (*Leakage, error) {
 func (l *Leakage) Reset(w float64, n int) {
 	l.w, l.n = w, n
 	l.kmax = 0
-	inv := 1 / float64(n)
-	for j := 0; j <= l.off; j++ {
-		d := dirichlet(float64(j)*w, n)
-		d = complex(real(d)*inv, imag(d)*inv)
-		l.k[l.off+j] = d
+	kernel(l.k[l.off:], w, n)
+	for j := 1; j <= l.off; j++ {
+		d := l.k[l.off+j]
 		l.k[l.off-j] = cmplx.Conj(d)
-		if j > 0 {
-			l.kmax = max(l.kmax, abs2(d))
-		}
+		l.kmax = max(l.kmax, abs2(d))
 	}
 	m := len(l.orders)
 	for j, h := range l.orders {
@@ -130,15 +128,45 @@ func (l *Leakage) Reset(w float64, n int) {
 		kk := l.k[l.off-k:]   // kk[h] = K(h − k)
 		kn := l.k[:l.off-k+1] // kn[off−k−h] = K(−h − k)
 		for j, h := range l.orders {
-			a := kk[h]
-			if j == i {
-				a = 0
-			}
-			b := kn[l.off-k-h]
+			a, b := kk[h], kn[l.off-k-h]
 			// P = −(a + b), Q = −j·(a − b) = (Im(a − b), −Re(a − b))
-			re[2*j], re[2*j+1] = -(real(a) + real(b)), imag(a)-imag(b)
-			im[2*j], im[2*j+1] = -(imag(a) + imag(b)), real(b)-real(a)
+			r, q := re[2*j:2*j+2:2*j+2], im[2*j:2*j+2:2*j+2]
+			r[0], r[1] = -(real(a) + real(b)), imag(a)-imag(b)
+			q[0], q[1] = -(imag(a) + imag(b)), real(b)-real(a)
 		}
+		// the diagonal has no K(h − k) term: only b remains
+		b := kn[l.off-2*k]
+		re[2*i], re[2*i+1] = -real(b), -imag(b)
+		im[2*i], im[2*i+1] = -imag(b), real(b)
+	}
+}
+
+// kernel fills k[j] = D(j·2π·w)/n for j = 0..len(k)−1, with D the
+// Dirichlet kernel over n samples: e^{jπ·j·w(n−1)}·sin(π·j·w·n)/(n·sin(π·j·w))
+// (valid for any j·w not an integer: the factors' signs cancel over a
+// period), each factor the j-th power of a unit phasor taken by rotation:
+// rounding grows by about 2e-16 a step, 4e-14 after 200 steps, against the
+// 1e-7 tolerance. Where sin(π·j·w) is small (an order near an alias of the
+// sample rate) it uses the direct formula.
+func kernel(k []complex128, w float64, n int) {
+	if len(k) == 0 {
+		return
+	}
+	nf := float64(n)
+	ph, un, ut := cisTurns(w*(nf-1)/2), cisTurns(w*nf/2), cisTurns(w/2)
+	p, u, t := complex(1, 0), complex(1, 0), complex(1, 0)
+	k[0] = 1
+	for j := 1; j < len(k); j++ {
+		p, u, t = p*ph, u*un, t*ut
+		var d complex128
+		if s := imag(t); math.Abs(s) > 1e-3 {
+			f := imag(u) / (s * nf)
+			d = complex(real(p)*f, imag(p)*f)
+		} else {
+			d = dirichlet(float64(j)*w, n)
+			d = complex(real(d)/nf, imag(d)/nf)
+		}
+		k[j] = d
 	}
 }
 
@@ -338,17 +366,20 @@ func (l *Leakage) Fundamental(samples []float64, x []complex128, dc float64) (fu
 	n, m := l.n, l.n/2
 	full = Phasor(samples, l.w) * complex(float64(n)/math.Sqrt2, 0)
 	half = Phasor(samples[:m], l.w) * complex(float64(m)/math.Sqrt2, 0)
-	full -= complex(dc, 0) * dirichlet(-l.w, n)
-	half -= complex(dc, 0) * dirichlet(-l.w, m)
+	// D over n samples is n·K (Reset's kernel); over m, m·kh
+	kh := l.kh
+	kernel(kh, l.w, m)
+	nf, mf := complex(float64(n), 0), complex(float64(m), 0)
+	full -= complex(dc, 0) * nf * l.kern(-1)
+	half -= complex(dc, 0) * mf * cmplx.Conj(kh[1])
 	for i, h := range l.orders {
 		c := x[i] / math.Sqrt2
-		hf := float64(h)
 		if h != 1 {
-			full -= c * dirichlet((hf-1)*l.w, n)
-			half -= c * dirichlet((hf-1)*l.w, m)
+			full -= c * nf * l.kern(h-1)
+			half -= c * mf * kh[h-1]
 		}
-		full -= cmplx.Conj(c) * dirichlet(-(hf+1)*l.w, n)
-		half -= cmplx.Conj(c) * dirichlet(-(hf+1)*l.w, m)
+		full -= cmplx.Conj(c) * nf * l.kern(-h-1)
+		half -= cmplx.Conj(c) * mf * cmplx.Conj(kh[h+1])
 	}
 	return full, half
 }

@@ -5,6 +5,7 @@ import (
 	"encoding/binary"
 	"math"
 	"testing"
+	"time"
 
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/stream/input"
@@ -103,5 +104,43 @@ func TestClippedAtIntegerRail(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+// TestClippedSingleSample: one sample at the rail (full_scale, either sign)
+// flags the window holding it and no other, wherever it falls: at the
+// start, at even and odd positions, at the last sample of a window and of a
+// block, with blocks of 512 and of 333 frames (segments of odd length; the
+// last samples of the first two blocks of 333 are 332 and 665).
+func TestClippedSingleSample(t *testing.T) {
+	const fs, fullScale = 10240.0, 400.0
+	for _, bf := range []int{512, 333} {
+		for _, n0 := range []int{0, 1, 2, 332, 511, 512, 665, 1000, 1001, 2047, 2048, 5001, 5002, 7777} {
+			x := make([]float64, int(fs))
+			for n := range x {
+				x[n] = 0.5 * fullScale * math.Cos(2*math.Pi*50*float64(n)/fs)
+			}
+			x[n0] = fullScale
+			if n0%2 == 1 {
+				x[n0] = -fullScale
+			}
+			s := setupOf(t, metrics.SinglePhase, 230, 0, false, []int{1},
+				metrics.Channel{Name: "v", Kind: metrics.Voltage, Phase: 'a', FullScale: fullScale})
+			recs, _ := runPipeline(t, Config{Setup: s, SampleRate: fs, NominalHz: 50, BlockFrames: bf}, &memSource{data: x, nch: 1})
+			flagged := 0
+			for _, r := range recs {
+				start := int(math.Round(r.Start.Sub(time.Unix(0, 0)).Seconds() * fs))
+				in := n0 >= start && n0 < start+int(r.Samples)
+				if got := r.Flags&metrics.FlagClipped != 0; got != in {
+					t.Errorf("blocks of %d, rail at sample %d: window [%d, %d) clipped %v, want %v", bf, n0, start, start+int(r.Samples), got, in)
+				}
+				if in {
+					flagged++
+				}
+			}
+			if flagged != 1 {
+				t.Errorf("blocks of %d, rail at sample %d: %d windows hold it, want 1", bf, n0, flagged)
+			}
+		}
 	}
 }

@@ -54,8 +54,9 @@ func newExact(fs, cycles, minHz float64, nch int, orders []int) (*exact, error) 
 	return e, nil
 }
 
-// write stores channel c's samples at offset at of the window.
-func (e *exact) write(c, at int, seg []float64) { copy(e.win[c][at:], seg) }
+// span returns the k samples of channel c's window buffer from offset at,
+// for the caller to fill.
+func (e *exact) span(c, at, k int) []float64 { return e.win[c][at : at+k] }
 
 // refine returns the reference's frequency over its window of n samples,
 // starting from the estimate f1 of the phase method on the uncorrected

@@ -340,16 +340,20 @@ func (p *Pipeline) block(n int, emit func(*metrics.Record) error) error {
 	return nil
 }
 
-// segment accumulates samples [off, off+k) of the current block into the window.
+// segment accumulates samples [off, off+k) of the current block into the
+// window: it stores them in the window's buffer and sums them in the same
+// pass. The sums run in sample order whatever the blocks, so the results do
+// not depend on how a source cuts its reads.
 func (p *Pipeline) segment(off, k int) {
 	for c := range p.nch {
 		seg := p.buf[c][off : off+k]
-		p.ex.write(c, p.filled, seg)
+		win := p.ex.span(c, p.filled, k)
 		ch := &p.in.Ch[c]
 		s, ss, pk := ch.Sum, ch.SumSq, ch.Peak
 		hi, lo := p.clipHi[c], p.clipLo[c]
 		clip := false
-		for _, x := range seg {
+		for i, x := range seg {
+			win[i] = x
 			s += x
 			ss += x * x
 			pk = max(pk, math.Abs(x))
