@@ -13,7 +13,8 @@ import (
 
 // suggestAlarms returns, for a config without alarm rules, the usual
 // starting rules for its channels (alarm.DefaultRules: TDD per current
-// channel, THD per voltage channel, total PF) as YAML to paste under
+// channel, THD per voltage channel, total PF; and a supply-dip event
+// rule when there are voltage channels) as YAML to paste under
 // `alarms:`, or "" when the config has rules or none apply.
 func suggestAlarms(cfg *config.Config) (string, error) {
 	if len(cfg.Alarms) > 0 {
@@ -41,8 +42,16 @@ func suggestAlarms(cfg *config.Config) (string, error) {
 	for _, r := range rules {
 		b.WriteString(ruleYAML(s, cfg.ILA, r))
 	}
+	if len(volt) > 0 {
+		b.WriteString(supplyDipYAML)
+	}
 	return b.String(), nil
 }
+
+// supplyDipYAML is the starting rule on voltage events: a dip or an
+// interruption, cleared 10 minutes after the last one (README "Alarm
+// rules", event rules).
+const supplyDipYAML = "  - {name: supply-dip, metric: event, kind: [dip, interruption], off_delay: 10m, severity: warning}\n"
 
 // ruleYAML writes one rule in the config's flow style.
 func ruleYAML(s *metrics.Setup, il float64, r alarm.Rule) string {

@@ -41,6 +41,7 @@ func TestCheckSuggestsAlarms(t *testing.T) {
 		"metric: tdd_h50_pct, channel: ia, level: 10min, above: 8,",
 		"metric: thd_h50_pct, channel: va, level: 10min, above: 8,",
 		"metric: pf, phase: total, level: 10min, below: 0.9,",
+		"{name: supply-dip, metric: event, kind: [dip, interruption], off_delay: 10m, severity: warning}",
 	} {
 		if !strings.Contains(r.stdout, want) {
 			t.Errorf("suggestion lacks %q:\n%s", want, r.stdout)
@@ -52,8 +53,8 @@ func TestCheckSuggestsAlarms(t *testing.T) {
 	if err != nil {
 		t.Fatalf("the suggested rules do not load: %v", err)
 	}
-	if len(cfg.Alarms) != 7 {
-		t.Errorf("%d rules loaded, want 7 (3 TDD, 3 THD, 1 PF)", len(cfg.Alarms))
+	if len(cfg.Alarms) != 8 {
+		t.Errorf("%d rules loaded, want 8 (3 TDD, 3 THD, 1 PF, 1 event)", len(cfg.Alarms))
 	}
 	if again := runCmd("config", "--check", withRules); strings.Contains(again.stdout, "no alarm rules") {
 		t.Errorf("a config with rules still gets the suggestion: %s", again.stdout)

@@ -3,9 +3,12 @@
 package alarm
 
 import (
+	"runtime"
 	"testing"
+	"time"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/events"
 )
 
 // TestEvaluateAllocs proves STYLE.md §5 for Evaluate: no allocation when
@@ -79,4 +82,32 @@ func benchSetup(tb testing.TB) (*Evaluator, []*metrics.Record) {
 		}
 	}
 	return e, recs
+}
+
+// TestEventClearAllocs: Evaluate allocates nothing when it clears an event
+// rule either (runtime.MemStats around each clearing call: AllocsPerRun
+// would average one allocation away over the non-clearing runs).
+func TestEventClearAllocs(t *testing.T) {
+	ru := Rule{Name: "ev", Metric: MetricEvent, Target: Target{Channel: -1}}
+	e, err := New([]Rule{ru}, northWeir(t, 1), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dst := make([]Transition, 0, 4)
+	rec := &metrics.Record{Interval: metrics.Int3s, DurationS: 3}
+	var m0, m1 runtime.MemStats
+	for k := range 20 {
+		at := t0.Add(time.Duration(k) * time.Minute)
+		dst = e.Event(&Event{Kind: events.Dip, Start: at, DurationS: 0.1, Channels: []string{"va"}}, dst[:0])
+		rec.Start = at.Add(time.Second)
+		runtime.ReadMemStats(&m0)
+		dst = e.Evaluate(rec, dst[:0])
+		runtime.ReadMemStats(&m1)
+		if len(dst) != 1 || dst[0].Raised {
+			t.Fatalf("record %d: %+v, want the clear (off_delay 0)", k, dst)
+		}
+		if n := m1.Mallocs - m0.Mallocs; n != 0 {
+			t.Fatalf("clearing Evaluate: %d allocations, want 0", n)
+		}
+	}
 }

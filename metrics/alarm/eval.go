@@ -33,7 +33,8 @@ type Transition struct {
 	Metric    string
 	// Event: event rules: the event that raised the rule (raised) or the
 	// last one that held it (cleared; nil after a restart, and then Value
-	// and Threshold are NaN); nil otherwise.
+	// and Threshold are NaN); nil otherwise. Read-only: the Evaluator
+	// shares it between transitions.
 	Event *Event
 }
 

@@ -210,11 +210,10 @@ func (e *Evaluator) eventTransition(i int, t time.Time, raised bool) Transition 
 	ru, er := &e.rules[i], e.c[i].ev
 	tr := Transition{Rule: ru.Name, Raised: raised, Time: t, Value: math.NaN(), Threshold: math.NaN(), Level: ru.Level,
 		Severity: ru.Severity, Text: ru.Text, Metric: ru.Metric}
-	if er.last != nil { // else: cleared after a restart, the event is not known: value and threshold NaN (null)
-		tr.Value = er.last.ExtremeV
-		kept := *er.last
-		kept.Channels = slices.Clone(er.last.Channels)
-		tr.Event, tr.Threshold = &kept, kept.ThresholdV
+	if l := er.last; l != nil { // else: cleared after a restart, the event is not known: value and threshold NaN (null)
+		// shared, not copied, so that a clear in Evaluate allocates
+		// nothing: Event replaces er.last, it never changes it
+		tr.Event, tr.Value, tr.Threshold = l, l.ExtremeV, l.ThresholdV
 	}
 	return tr
 }
