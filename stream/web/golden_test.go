@@ -2,6 +2,7 @@ package web
 
 import (
 	"flag"
+	"io"
 	"math"
 	"net/http"
 	"net/http/httptest"
@@ -208,5 +209,34 @@ func compareFamilies(t *testing.T, want, got string) {
 				t.Errorf("extra series %s{%s}", name, k)
 			}
 		}
+	}
+}
+
+// TestMetricsNegotiation: whatever a scraper asks for (Prometheus asks for
+// protobuf first and gzip, from memory), the answer is the uncompressed
+// text format, which every Prometheus accepts (README integration table).
+func TestMetricsNegotiation(t *testing.T) {
+	url, b, _ := start(t)
+	b.Put(record(b.Setup()), nil)
+	req, err := http.NewRequest(http.MethodGet, url+"/metrics", nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	req.Header.Set("Accept", "application/vnd.google.protobuf;proto=io.prometheus.client.MetricFamily;encoding=delimited;q=0.7,text/plain;version=0.0.4;q=0.3")
+	req.Header.Set("Accept-Encoding", "gzip")
+	resp, err := (&http.Transport{DisableCompression: true}).RoundTrip(req)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer resp.Body.Close()
+	body, err := io.ReadAll(resp.Body)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if ct, ce := resp.Header.Get("Content-Type"), resp.Header.Get("Content-Encoding"); ct != expoContentType || ce != "" {
+		t.Errorf("Content-Type %q, Content-Encoding %q; want %q, none", ct, ce, expoContentType)
+	}
+	if fams := parseText(t, string(body)); fams["gridloupe_frequency_hertz"] == nil {
+		t.Errorf("no gridloupe_frequency_hertz in %.300s", body)
 	}
 }
