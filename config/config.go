@@ -150,7 +150,7 @@ type Alarm struct {
 	Channel    string        // per-channel metrics: a configured channel; metric event: a voltage channel, or "" for any
 	Kinds      []string      // metric event: the event kinds watched (EventKinds); empty = every kind
 	Phase      string        // pf, dpf: "a", "b", "c" or "total" (default)
-	Circuit    string        // pf, dpf with circuits: the circuit whose phase or total is watched; required then
+	Circuit    string        // pf, dpf, unbalance_current_pct with circuits: the circuit whose phase, total or phase currents are watched; required then
 	Level      string        // interval label: 200ms, 3s, 10min (default), 2h
 	Severity   string        // info, warning (default) or critical
 	Above      *float64      // raise when the value exceeds this (metric units)

@@ -141,7 +141,7 @@ alarms: []
 {{alarm metrics}}#                                  # (h50: needs harmonics: all; tdd and pct_il: need il_a)
 #     channel: ia                  # per-channel metrics: a configured channel
 #     phase: total                 # pf and dpf: a | b | c | total (default total)
-#     circuit: drive1              # pf and dpf with circuits: required, the circuit watched
+#     circuit: drive1              # pf, dpf, unbalance_current_pct with circuits: required, the circuit watched
 #     harmonic: 5                  # pct and pct_il only: the order, 2..50, among those computed
 #     level: 10min                 # 200ms | 3s | 10min | 2h (default 10min)
 #     above: 8.0                   # exactly one of above or below, in the metric's units

@@ -101,13 +101,15 @@ func (v *validator) deltaHookup(lines, currents [3]int) *Error {
 
 // deltaUnbalance: on delta, unbalance needs two voltages (the third
 // follows) or two currents.
-func (v *validator) deltaUnbalance(p, metric, kind string) *Error {
-	n := len(v.c.VoltageChannels())
-	if kind == KindCurrent {
-		n = len(v.c.CurrentChannels())
+func (v *validator) deltaUnbalance(p, metric, kind string, chans []Channel, of string) *Error {
+	n := 0
+	for _, ch := range chans {
+		if ch.Kind == kind {
+			n++
+		}
 	}
 	if n < 2 {
-		return v.fail(p+".metric", "%s needs two or three %s channels on delta", metric, kind)
+		return v.fail(p+".metric", "%s needs two or three %s channels on delta%s", metric, kind, of)
 	}
 	return nil
 }

@@ -22,6 +22,14 @@ const hdrC = "nominal: {frequency_hz: 50, voltage_v: 230}\nwiring: single-phase\
 	"  - {name: ia, kind: current, phase: a}\n" +
 	"  - {name: i2, kind: current, phase: a}\n"
 
+// hdrW: a wye bus of thirteen lines with two circuits: m on ia, ib, ic and
+// n on i2a, i2b only; cases append from line 14.
+const hdrW = "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n" +
+	"  - {name: va, kind: voltage, phase: a}\n  - {name: vb, kind: voltage, phase: b}\n  - {name: vc, kind: voltage, phase: c}\n" +
+	"  - {name: ia, kind: current, phase: a}\n  - {name: ib, kind: current, phase: b}\n  - {name: ic, kind: current, phase: c}\n" +
+	"  - {name: i2a, kind: current, phase: a}\n  - {name: i2b, kind: current, phase: b}\n" +
+	"circuits:\n  - {name: m, currents: [ia, ib, ic]}\n  - {name: n, currents: [i2a, i2b]}\n"
+
 const hdr1 = "nominal: {frequency_hz: 50, voltage_v: 230}\n" +
 	"channels:\n" +
 	"  - {name: va, kind: voltage, phase: a}\n"
@@ -48,6 +56,7 @@ const (
 	srcEvRule  = "README, Alarm rules: metric: event takes name, kind, channel (a voltage channel), on_delay, off_delay, severity"
 	srcRate    = "DESIGN.md, Performance notes: orders to 50 at up to 69 Hz need fs above 6.9 kHz; rule fs > 2·order·1.15·f"
 	srcMQTT    = "MQTT 3.1.1 §4.7 (topic wildcards +, #; $-topics) and §1.5.3 (UTF-8, control characters)"
+	srcUnbCirc = "README, Alarm rules: unbalance_current_pct with circuits names its circuit"
 	srcYAML    = "YAML 1.2 §6.1 (tabs are not indentation) / §9.2 (documents); go.yaml.in/yaml/v3 parser message"
 )
 
@@ -106,6 +115,10 @@ var badCases = []badCase{
 	{name: "circuit: unknown channel", doc: hdrC + "circuits:\n  - {name: m, currents: [ix]}\n", line: 8, key: "circuits[0].currents[0]", phrase: `"ix" is not a configured channel`, src: "README Several circuits on one bus"},
 	{name: "circuit: two on one phase", doc: hdrC + "circuits:\n  - {name: m, currents: [ia, i2]}\n", line: 8, key: "circuits[0].currents[1]", phrase: "ia and i2 are both on phase a of circuit m", src: "README Several circuits on one bus"},
 	{name: "circuit: pf alarm without circuit", doc: hdrC + "circuits:\n  - {name: m, currents: [ia]}\n  - {name: n, currents: [i2]}\nalarms:\n  - {name: x, metric: pf, below: 0.9}\n", line: 11, key: "alarms[0].circuit", phrase: "required with circuits", src: "README Several circuits on one bus"},
+	{name: "circuit: unbalance_current_pct without circuit", doc: hdrW + "alarms:\n  - {name: x, metric: unbalance_current_pct, above: 5}\n", line: 15, key: "alarms[0].circuit", phrase: "required with circuits: the circuit whose unbalance_current_pct is watched (circuits: m, n)", src: srcUnbCirc},
+	{name: "circuit: unbalance_current_pct of an unknown circuit", doc: hdrW + "alarms:\n  - {name: x, metric: unbalance_current_pct, circuit: p, above: 5}\n", line: 15, key: "alarms[0].circuit", phrase: `no circuit is named "p" (circuits: m, n)`, src: srcUnbCirc},
+	{name: "circuit: unbalance_current_pct on two phases", doc: hdrW + "alarms:\n  - {name: x, metric: unbalance_current_pct, circuit: n, above: 5}\n", line: 15, key: "alarms[0].metric", phrase: "needs current channels on phases a, b and c in circuit n; phase c has none", src: "IEC 61000-4-30 unbalance: three phases; " + srcUnbCirc},
+	{name: "circuit: unbalance_voltage_pct with circuit", doc: hdrW + "alarms:\n  - {name: x, metric: unbalance_voltage_pct, circuit: m, above: 2}\n", line: 15, key: "alarms[0].circuit", phrase: "does not apply to unbalance_voltage_pct (a system-wide value)", src: srcUnbCirc + " (the voltages are the bus's)"},
 	{name: "circuit key without circuits", doc: hdr1 + "  - {name: ia, kind: current, phase: a}\nalarms:\n  - {name: x, metric: pf, circuit: m, below: 0.9}\n", line: 6, key: "alarms[0].circuit", phrase: "there are no circuits", src: "README Several circuits on one bus"},
 	{name: "line-to-line on wye", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: vab, kind: voltage, phase: ab}\n", line: 3, key: "channels[0].phase", phrase: "ab is a line-to-line voltage, for wiring: delta", src: srcDesign + " (Delta wiring)"},
 	{name: "wiring unknown", doc: hdr1 + "wiring: star\n", line: 4, key: "wiring", phrase: `"star" is not allowed; use single-phase, wye or delta`, src: srcDesign},

@@ -677,15 +677,19 @@ func (v *validator) alarm(p string, a *Alarm) *Error {
 			return e
 		}
 	default: // freq_hz and unbalance
+		keys := []string{"channel", "phase", "circuit"}
 		if a.Metric == "unbalance_current_pct" && len(c.Circuits) > 0 {
-			return v.fail(p+".metric", "with circuits, current unbalance is per circuit and alarms on it are not supported yet; watch pf or tdd per circuit instead")
+			if e := v.alarmCircuit(p, a); e != nil {
+				return e
+			}
+			keys = keys[:2] // with circuits, each has its own phase currents
 		}
-		for _, k := range []string{"channel", "phase", "circuit"} {
+		for _, k := range keys {
 			if v.has(p + "." + k) {
 				return v.fail(p+"."+k, "does not apply to %s (a system-wide value)", a.Metric)
 			}
 		}
-		if e := v.unbalance(p, a.Metric); e != nil {
+		if e := v.unbalance(p, a); e != nil {
 			return e
 		}
 	}
@@ -780,21 +784,37 @@ func (v *validator) pfPhase(p string, a *Alarm) *Error {
 	return nil
 }
 
-func (v *validator) unbalance(p, metric string) *Error {
+func (v *validator) unbalance(p string, a *Alarm) *Error {
+	metric := a.Metric
 	kind, ok := strings.CutPrefix(metric, "unbalance_")
 	if !ok {
 		return nil
 	}
 	kind = strings.TrimSuffix(kind, "_pct")
+	// the channels whose unbalance is watched: a circuit's currents, or
+	// every channel of the kind
+	chans, of := v.c.Channels, ""
+	if a.Circuit != "" {
+		chans, of = nil, " in circuit "+a.Circuit
+		for _, ci := range v.c.Circuits {
+			if ci.Name == a.Circuit {
+				for _, name := range ci.Currents {
+					if k := v.c.ChannelIndex(name); k >= 0 {
+						chans = append(chans, v.c.Channels[k])
+					}
+				}
+			}
+		}
+	}
 	if v.c.Wiring == WiringDelta {
-		return v.deltaUnbalance(p, metric, kind)
+		return v.deltaUnbalance(p, metric, kind, chans, of)
 	}
 	if v.c.Wiring != WiringWye {
 		return v.fail(p+".metric", "%s needs wiring: wye or delta", metric)
 	}
 	for _, ph := range []string{"a", "b", "c"} {
-		if !slices.ContainsFunc(v.c.Channels, func(ch Channel) bool { return ch.Kind == kind && ch.Phase == ph }) {
-			return v.fail(p+".metric", "%s needs %s channels on phases a, b and c; phase %s has none", metric, kind, ph)
+		if !slices.ContainsFunc(chans, func(ch Channel) bool { return ch.Kind == kind && ch.Phase == ph }) {
+			return v.fail(p+".metric", "%s needs %s channels on phases a, b and c%s; phase %s has none", metric, kind, of, ph)
 		}
 	}
 	return nil

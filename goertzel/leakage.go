@@ -62,6 +62,7 @@ type Leakage struct {
 	nz    []int32      // scratch: entries of d that still move
 	ab    []float64    // scratch: their real and imaginary parts, packed
 	kh    []complex128 // scratch: the kernel over the first half window (Fundamental)
+	vec   bool         // the rows' dot products by the vector kernel (dotVec; dot_amd64.go)
 	w     float64
 	n     int
 }
@@ -101,6 +102,7 @@ func NewLeakage(orders []int) (*Leakage, error) {
 		nz:     make([]int32, 0, m),
 		ab:     make([]float64, 0, 2*m),
 		kh:     make([]complex128, orders[m-1]+2),
+		vec:    dotVec,
 	}, nil
 }
 
@@ -299,8 +301,8 @@ func (l *Leakage) apply(d []complex128, ddc, budget float64) float64 {
 			sr, si = ddc*real(l.dcOut[i]), ddc*imag(l.dcOut[i])
 		}
 		if dense {
-			sr += dot(ab, re)
-			si += dot(ab, im)
+			r, q := dot2(l.vec, ab, re, im)
+			sr, si = sr+r, si+q
 		} else {
 			for t, j := range nz {
 				a, b := ab[2*t], ab[2*t+1]

@@ -53,7 +53,9 @@ func alarmRules(cfg *config.Config, s *metrics.Setup) ([]alarm.Rule, error) {
 				r.Target.Phase = a.Phase[0]
 			}
 			r.Target.Circuit = a.Circuit
-		case "freq_hz", "unbalance_voltage_pct", "unbalance_current_pct":
+		case "unbalance_current_pct":
+			r.Target.Circuit = a.Circuit // with circuits: the circuit whose phase currents are watched
+		case "freq_hz", "unbalance_voltage_pct":
 		default:
 			r.Target.Channel = ci
 		}

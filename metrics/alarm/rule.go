@@ -82,8 +82,9 @@ type Target struct {
 	Channel int  // index in Setup.Channels for channel metrics; −1 (ignored) otherwise
 	Phase   byte // pf, dpf per phase: 'a', 'b' or 'c'; 0 with Total
 	Total   bool // pf, dpf of the three-phase (or single-phase) total
-	// Circuit names the circuit whose phase or total a pf/dpf rule
-	// watches; required when the setup has circuits, empty otherwise.
+	// Circuit names the circuit whose phase or total a pf/dpf rule, or
+	// whose phase currents an unbalance_current_pct rule, watches;
+	// required for those when the setup has circuits, empty otherwise.
 	Circuit string
 }
 
@@ -137,7 +138,7 @@ type compiled struct {
 	phase int         // index in Setup.Pairs / Record.Phases; −1 for the total
 	load  []int
 	delta bool       // the total of a delta record, which has no phases
-	circ  int        // pf, dpf: index in Setup.Circuits; −1 for the bus itself
+	circ  int        // pf, dpf, unbalance_current_pct: index in Setup.Circuits; −1 for the bus itself
 	binCh []int      // baseline rules: the currents whose fundamental picks the load bin
 	ev    *eventRule // event rules: their kinds, channel and open events; nil otherwise
 }
@@ -204,6 +205,13 @@ func (c *compiled) baseline(r *Rule, s *metrics.Setup) error {
 		c.binCh = slices.Clone(c.load)
 	case c.ch >= 0 && s.Channels[c.ch].Kind == metrics.Current:
 		c.binCh = []int{c.ch}
+	case c.circ >= 0: // the circuit's phase currents, as main channel indices
+		cc := &s.Circuits[c.circ]
+		for _, i := range cc.Sub.IIdx {
+			if i >= 0 {
+				c.binCh = append(c.binCh, cc.Map[i])
+			}
+		}
 	default:
 		for _, i := range s.IIdx {
 			if i >= 0 {
@@ -251,13 +259,9 @@ func (c *compiled) target(r *Rule, s *metrics.Setup) error {
 		}
 		c.ch = ci
 	case m.power():
-		switch k := s.CircuitIndex(r.Target.Circuit); {
-		case r.Target.Circuit != "" && k < 0:
-			return fmt.Errorf("no circuit %q: %w", r.Target.Circuit, ErrTarget)
-		case r.Target.Circuit == "" && len(s.Circuits) > 0:
-			return fmt.Errorf("the setup has circuits: name the circuit watched: %w", ErrTarget)
-		case k >= 0:
-			c.circ, s = k, s.Circuits[k].Sub
+		var err error
+		if c.circ, s, err = circuitOf(r, s); err != nil {
+			return err
 		}
 		switch {
 		case r.Target.Total && r.Target.Phase != 0:
@@ -277,7 +281,13 @@ func (c *compiled) target(r *Rule, s *metrics.Setup) error {
 	case m == mUnbV || m == mUnbI:
 		idx, what := s.VIdx, "voltages"
 		if m == mUnbI {
+			var err error
+			if c.circ, s, err = circuitOf(r, s); err != nil {
+				return err
+			}
 			idx, what = s.IIdx, "currents"
+		} else if r.Target.Circuit != "" {
+			return fmt.Errorf("circuit %q: the voltage unbalance is the bus's, not a circuit's: %w", r.Target.Circuit, ErrTarget)
 		}
 		if s.Wiring == metrics.Delta {
 			if m == mUnbV {
@@ -293,6 +303,20 @@ func (c *compiled) target(r *Rule, s *metrics.Setup) error {
 		}
 	}
 	return nil
+}
+
+// circuitOf returns the index and setup of the circuit r.Target names,
+// or −1 and s itself for a setup without circuits.
+func circuitOf(r *Rule, s *metrics.Setup) (int, *metrics.Setup, error) {
+	switch k := s.CircuitIndex(r.Target.Circuit); {
+	case r.Target.Circuit != "" && k < 0:
+		return -1, nil, fmt.Errorf("no circuit %q: %w", r.Target.Circuit, ErrTarget)
+	case r.Target.Circuit == "" && len(s.Circuits) > 0:
+		return -1, nil, fmt.Errorf("the setup has circuits: name the circuit watched: %w", ErrTarget)
+	case k >= 0:
+		return k, s.Circuits[k].Sub, nil
+	}
+	return -1, s, nil
 }
 
 func countIdx(idx [3]int) int {
@@ -354,6 +378,12 @@ func (c *compiled) value(r *metrics.Record) float64 {
 	case mUnbV:
 		v = r.UnbV
 	case mUnbI:
+		if c.circ >= 0 {
+			if c.circ >= len(r.Circuits) || r.Circuits[c.circ].Rec == nil {
+				return math.NaN()
+			}
+			r = r.Circuits[c.circ].Rec
+		}
 		v = r.UnbI
 	default:
 		return math.NaN()
