@@ -62,7 +62,7 @@ func cmdCalibrate(ctx context.Context, args []string, stdout, stderr io.Writer) 
 	}
 	cfg, err := config.Load(*cfgPath)
 	if err != nil {
-		return &usageError{err}
+		return &usageError{Err: err}
 	}
 	snap, err := takeSnapshot(ctx, cfg, fs.Arg(0), *seconds, stderr)
 	if err != nil {

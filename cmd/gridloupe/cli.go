@@ -6,36 +6,20 @@ import (
 	"flag"
 	"fmt"
 	"io"
-	"strings"
 
-	"github.com/gridloupe/gridloupe/config"
-	"github.com/gridloupe/gridloupe/stream/input"
+	"github.com/gridloupe/gridloupe/cmd/internal/cli"
+	"github.com/gridloupe/gridloupe/cmd/internal/replaycmd"
 )
 
-// usageError marks errors that exit with status 2: bad flags, bad config,
-// unreadable input headers.
-type usageError struct{ err error }
+// The command-line helpers shared with the offline executable live in
+// cmd/internal/cli; these are their local names.
+type usageError = cli.UsageError
 
-func (e *usageError) Error() string { return e.err.Error() }
-func (e *usageError) Unwrap() error { return e.err }
+func usagef(format string, a ...any) error { return cli.Usagef(format, a...) }
 
-func usagef(format string, a ...any) error { return &usageError{fmt.Errorf(format, a...)} }
+var errHelp = cli.ErrHelp
 
-// errHelp is returned after printing help: exit 0.
-var errHelp = errors.New("help requested")
-
-// exitCode maps an error to the process exit status of DESIGN's table:
-// 2 for usage, config and input-header errors, 1 for everything else.
-func exitCode(err error) int {
-	var ue *usageError
-	switch {
-	case err == nil, errors.Is(err, errHelp):
-		return 0
-	case errors.As(err, &ue), errors.Is(err, config.ErrInvalid), errors.Is(err, input.ErrHeader):
-		return 2
-	}
-	return 1
-}
+func exitCode(err error) int { return cli.ExitCode(err) }
 
 const rootHelp = `gridloupe: streaming power-quality analysis for motor-drive cabinets
 
@@ -86,7 +70,7 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 		fmt.Fprint(stdout, rootHelp)
 		return nil
 	case "replay":
-		err = cmdReplay(ctx, rest, stdin, stdout, stderr)
+		err = replaycmd.Run(ctx, "gridloupe replay", rest, stdin, stdout, stderr)
 	case "config":
 		err = cmdConfig(rest, stdout, stderr)
 	case "run":
@@ -123,19 +107,6 @@ func run(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.
 	return err
 }
 
-// parseFlags parses a subcommand's flags, turning flag errors into usage
-// errors and -h into errHelp (help text goes to stdout).
 func parseFlags(fs *flag.FlagSet, args []string, stdout io.Writer) error {
-	var msg strings.Builder
-	fs.SetOutput(&msg)
-	err := fs.Parse(args)
-	if errors.Is(err, flag.ErrHelp) {
-		fs.SetOutput(stdout)
-		fs.Usage()
-		return errHelp
-	}
-	if err != nil {
-		return usagef("%s: %v", fs.Name(), err)
-	}
-	return nil
+	return cli.ParseFlags(fs, args, stdout)
 }

@@ -28,7 +28,7 @@ func cmdConfig(args []string, stdout, stderr io.Writer) error {
 	case *check != "":
 		cfg, err := config.Load(*check)
 		if err != nil {
-			return &usageError{err}
+			return &usageError{Err: err}
 		}
 		if err := preflight(cfg); err != nil {
 			return err

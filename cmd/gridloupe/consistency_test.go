@@ -9,6 +9,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/gridloupe/gridloupe/cmd/internal/replaycmd"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/store"
@@ -169,7 +170,7 @@ func TestShippedExampleHoldsAWeek(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		s, _, err := setupFromConfig(cfg)
+		s, _, err := replaycmd.SetupFromConfig(cfg)
 		if err != nil {
 			t.Fatal(err)
 		}

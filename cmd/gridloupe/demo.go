@@ -13,6 +13,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/gridloupe/gridloupe/cmd/internal/replaycmd"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/alarm"
@@ -65,7 +66,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 		return usagef("demo: %s not found: run the demo from the repository's root folder, or give --config FILE", demoConfigPath)
 	}
 	if err != nil {
-		return &usageError{err}
+		return &usageError{Err: err}
 	}
 	if cfg.Source.Kind != config.SourceSim {
 		return usagef("demo: %s: source.kind must be sim", cfg.Path)
@@ -79,7 +80,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) error
 
 	printDemoIntro(stdout, cfg, *speed)
 
-	setup, _, err := setupFromConfig(cfg)
+	setup, _, err := replaycmd.SetupFromConfig(cfg)
 	if err != nil {
 		return err
 	}

@@ -114,7 +114,7 @@ func evaluateStore(db *store.DB, cfg *config.Config, from time.Time) (*complianc
 		IL: cfg.ILA, Isc: cfg.IscA, Start: from,
 	})
 	if err != nil {
-		return nil, &usageError{fmt.Errorf("evaluate: %s: %w", cfg.Path, err)}
+		return nil, &usageError{Err: fmt.Errorf("evaluate: %s: %w", cfg.Path, err)}
 	}
 	end := from.Add(compliance.Days * 24 * time.Hour)
 	for _, iv := range []metrics.Interval{metrics.Int3s, metrics.Int10min} {

@@ -51,7 +51,7 @@ func storeRequest(cmd, dbPath string, timeout time.Duration, req gateway.ExportR
 		case err == nil:
 			return nil
 		case errors.Is(err, gateway.ErrExport):
-			return &usageError{err}
+			return &usageError{Err: err}
 		case !errors.Is(err, gateway.ErrNoDaemon):
 			return fmt.Errorf("%s: %w", cmd, err)
 		}

@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/gateway"
+	"github.com/gridloupe/gridloupe/cmd/internal/replaycmd"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/encode"
@@ -62,9 +63,9 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 	if *cfgPath != "" {
 		cfg, err := config.Load(*cfgPath)
 		if err != nil {
-			return &usageError{err}
+			return &usageError{Err: err}
 		}
-		req.Title, req.Reference = cfg.Site, ieeeReference(cfg)
+		req.Title, req.Reference = cfg.Site, replaycmd.IEEEReference(cfg)
 	}
 	if _, err := os.Stat(*dbPath); err != nil {
 		return fmt.Errorf("export: %w", err)
@@ -78,7 +79,7 @@ func cmdExport(args []string, stdout, stderr io.Writer) error {
 		case err == nil:
 			return flushOut(out)
 		case errors.Is(err, gateway.ErrExport):
-			return &usageError{err}
+			return &usageError{Err: err}
 		case !errors.Is(err, gateway.ErrNoDaemon):
 			// part of the answer may be out already: never add the file's
 			flushOut(out)

@@ -8,6 +8,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/gridloupe/gridloupe/cmd/internal/replaycmd"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/store"
@@ -43,7 +44,7 @@ func newEvalStore(t *testing.T, cfgText string) (cfgPath, dbPath string, setup *
 	if err != nil {
 		t.Fatal(err)
 	}
-	setup, _, err = setupFromConfig(cfg)
+	setup, _, err = replaycmd.SetupFromConfig(cfg)
 	if err != nil {
 		t.Fatal(err)
 	}

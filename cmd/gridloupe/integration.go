@@ -9,6 +9,7 @@ import (
 	"math"
 	"sync"
 
+	"github.com/gridloupe/gridloupe/cmd/internal/replaycmd"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/store"
@@ -47,9 +48,9 @@ func cmdModbusMap(args []string, stdout io.Writer) error {
 	}
 	cfg, err := config.Load(*cfgPath)
 	if err != nil {
-		return &usageError{err}
+		return &usageError{Err: err}
 	}
-	setup, _, err := setupFromConfig(cfg)
+	setup, _, err := replaycmd.SetupFromConfig(cfg)
 	if err != nil {
 		return err
 	}

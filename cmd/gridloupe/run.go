@@ -22,6 +22,7 @@ import (
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/outbox"
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/sdnotify"
 	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/sysclock"
+	"github.com/gridloupe/gridloupe/cmd/internal/replaycmd"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/alarm"
@@ -119,7 +120,7 @@ func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	}
 	cfg, err := config.Load(*cfgPath)
 	if err != nil {
-		return &usageError{err}
+		return &usageError{Err: err}
 	}
 	if *stopAfter < 0 || (*stopAfter > 0 && cfg.Source.Kind != config.SourceSim) {
 		return usagef("run: --stop-after needs a positive duration and source.kind sim")
@@ -169,7 +170,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	if now == nil {
 		now = time.Now
 	}
-	setup, cal, err := setupFromConfig(cfg)
+	setup, cal, err := replaycmd.SetupFromConfig(cfg)
 	if err != nil {
 		return err
 	}
@@ -194,7 +195,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	}
 	defer src.close()
 	d.source, d.sim = src.source, src.sim
-	if err := checkRate(cfg, src.rate); err != nil {
+	if err := replaycmd.CheckRate(cfg, src.rate); err != nil {
 		return err
 	}
 	clk := newSampleClock(now, o.onRecord)
@@ -392,7 +393,7 @@ func startMQTT(cfg *config.Config, o daemonOptions, db *store.DB, storeNotice st
 // clock_unsynced.
 func daemonPipeline(cfg *config.Config, setup *metrics.Setup, cal []stream.Cal, src *daemonSource,
 	now func() time.Time, log *slog.Logger) stream.Config {
-	pc := pipelineConfig(cfg, setup, cal, src.rate)
+	pc := replaycmd.PipelineConfig(cfg, setup, cal, src.rate)
 	pc.Base = now().UTC()
 	if !src.base.IsZero() {
 		pc.Base = src.base
@@ -688,12 +689,12 @@ func openDaemonSource(ctx context.Context, cfg *config.Config, setup *metrics.Se
 		for i, ch := range setup.Channels {
 			names[i] = ch.Name
 		}
-		src, inRate, _, err := openInput(cfg.Source.Path, f, names)
+		src, inRate, _, err := replaycmd.OpenInput(cfg.Source.Path, f, names)
 		if err != nil {
 			f.Close()
 			return nil, err
 		}
-		if rate, err = resolveRate(cfg, inRate, cfg.Source.Path); err != nil {
+		if rate, err = replaycmd.ResolveRate(cfg, inRate, cfg.Source.Path); err != nil {
 			f.Close()
 			return nil, err
 		}
@@ -711,7 +712,7 @@ func openDaemonSource(ctx context.Context, cfg *config.Config, setup *metrics.Se
 		})
 		ds.source, rate, ds.endIsError, ds.live, ds.base = in.src, in.src.SampleRate(), true, true, first
 	case config.SourceCOMTRADE:
-		rec, r, err := openCOMTRADE(cfg, cfg.Source.Path)
+		rec, r, err := replaycmd.OpenCOMTRADE(cfg, cfg.Source.Path)
 		if err != nil {
 			return nil, err
 		}
@@ -722,12 +723,12 @@ func openDaemonSource(ctx context.Context, cfg *config.Config, setup *metrics.Se
 			return nil, err
 		}
 		cleanup = append(cleanup, func() {
-			if l := in.losses(); l != "" {
+			if l := in.Losses(); l != "" {
 				log.Warn("pcm stream losses", "summary", l)
 			}
-			_ = in.close()
+			_ = in.Close()
 		})
-		ds.source, rate, ds.endIsError, ds.live = in.src, cfg.SampleRateHz, isLive, isLive
+		ds.source, rate, ds.endIsError, ds.live = in.Src, cfg.SampleRateHz, isLive, isLive
 	default:
 		return nil, usagef("%s: source.kind %q: allowed are %s", cfg.Path, cfg.Source.Kind, strings.Join(config.SourceKinds(), ", "))
 	}

@@ -136,7 +136,7 @@ func cmdSimulate(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	}
 	cfg, err := config.Load(*cfgPath)
 	if err != nil {
-		return &usageError{err}
+		return &usageError{Err: err}
 	}
 	rate := cfg.SampleRateHz
 	if rate == 0 {
@@ -147,7 +147,7 @@ func cmdSimulate(ctx context.Context, args []string, stdout, stderr io.Writer) e
 	sc.Limit = uint64(math.Round(dur.Seconds() * rate))
 	src, err := sim.New(sc)
 	if err != nil {
-		return &usageError{fmt.Errorf("%s: %w", *cfgPath, err)}
+		return &usageError{Err: fmt.Errorf("%s: %w", *cfgPath, err)}
 	}
 	src.SetLoad(*load)
 	src.SetFilterCondition(*cond)

@@ -7,6 +7,7 @@ import (
 	"io"
 	"os"
 
+	"github.com/gridloupe/gridloupe/cmd/internal/replaycmd"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/stream"
@@ -44,7 +45,7 @@ func checkSnapshotFlags(cmd, cfgPath string, nargs int, seconds float64) error {
 // window into one record (DESIGN Aggregation rules). The commissioning
 // commands (wiring, calibrate) judge that record.
 func takeSnapshot(ctx context.Context, cfg *config.Config, inPath string, seconds float64, stderr io.Writer) (*snapshot, error) {
-	setup, cal, err := setupFromConfig(cfg)
+	setup, cal, err := replaycmd.SetupFromConfig(cfg)
 	if err != nil {
 		return nil, err
 	}
@@ -83,22 +84,22 @@ func takeSnapshot(ctx context.Context, cfg *config.Config, inPath string, second
 			return nil, fmt.Errorf("input: %w", err)
 		}
 		defer f.Close()
-		r, inRate, _, err := openInput(path, f, names)
+		r, inRate, _, err := replaycmd.OpenInput(path, f, names)
 		if err != nil {
 			return nil, err
 		}
 		if ex, ok := r.(interface{ Extra() []string }); ok && len(ex.Extra()) > 0 {
 			fmt.Fprintf(stderr, "gridloupe: warning: %s: columns not in the config are ignored: %v\n", path, ex.Extra())
 		}
-		if rate, err = resolveRate(cfg, inRate, path); err != nil {
+		if rate, err = replaycmd.ResolveRate(cfg, inRate, path); err != nil {
 			return nil, err
 		}
 		src = r
 	}
-	if err := checkRate(cfg, rate); err != nil {
+	if err := replaycmd.CheckRate(cfg, rate); err != nil {
 		return nil, err
 	}
-	p, err := stream.New(pipelineConfig(cfg, setup, cal, rate))
+	p, err := stream.New(replaycmd.PipelineConfig(cfg, setup, cal, rate))
 	if err != nil {
 		return nil, err
 	}

@@ -6,6 +6,7 @@ import (
 	"strings"
 	"time"
 
+	"github.com/gridloupe/gridloupe/cmd/internal/replaycmd"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/alarm"
@@ -20,7 +21,7 @@ func suggestAlarms(cfg *config.Config) (string, error) {
 	if len(cfg.Alarms) > 0 {
 		return "", nil
 	}
-	s, _, err := setupFromConfig(cfg)
+	s, _, err := replaycmd.SetupFromConfig(cfg)
 	if err != nil {
 		return "", err
 	}

@@ -25,7 +25,7 @@ func openWeek(name, cfgPath, dbPath, fromStr string, timeout time.Duration) (cfg
 	}
 	cfg, err = config.Load(cfgPath)
 	if err != nil {
-		return nil, nil, "", from, &usageError{err}
+		return nil, nil, "", from, &usageError{Err: err}
 	}
 	path = dbPath
 	if path == "" {

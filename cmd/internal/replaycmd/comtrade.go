@@ -1,4 +1,4 @@
-package main
+package replaycmd
 
 import (
 	"context"
@@ -8,17 +8,18 @@ import (
 	"path/filepath"
 	"strings"
 
+	"github.com/gridloupe/gridloupe/cmd/internal/cli"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/stream/comtrade"
 )
 
-// isCOMTRADE reports whether path names a COMTRADE .cfg file.
-func isCOMTRADE(path string) bool { return strings.EqualFold(filepath.Ext(path), ".cfg") }
+// IsCOMTRADE reports whether path names a COMTRADE .cfg file.
+func IsCOMTRADE(path string) bool { return strings.EqualFold(filepath.Ext(path), ".cfg") }
 
-// openCOMTRADE opens the recording whose .cfg is path for the config's
+// OpenCOMTRADE opens the recording whose .cfg is path for the config's
 // channels (matched by name to the channel ids, or by `comtrade: N`). A
 // .cfg that cannot be used is a usage error (exit 2), like a CSV header.
-func openCOMTRADE(cfg *config.Config, path string) (*comtrade.Recording, float64, error) {
+func OpenCOMTRADE(cfg *config.Config, path string) (*comtrade.Recording, float64, error) {
 	names := make([]string, len(cfg.Channels))
 	idx := make([]int, len(cfg.Channels))
 	for i, ch := range cfg.Channels {
@@ -27,11 +28,11 @@ func openCOMTRADE(cfg *config.Config, path string) (*comtrade.Recording, float64
 	rec, err := comtrade.Open(path, names, idx)
 	if err != nil {
 		if errors.Is(err, comtrade.ErrConfig) || errors.Is(err, comtrade.ErrRate) {
-			return nil, 0, &usageError{err}
+			return nil, 0, &cli.UsageError{Err: err}
 		}
 		return nil, 0, err
 	}
-	rate, err := resolveRate(cfg, rec.Rate, path)
+	rate, err := ResolveRate(cfg, rec.Rate, path)
 	if err != nil {
 		rec.Close()
 		return nil, 0, err
@@ -53,7 +54,7 @@ func comtradeWhere(rec *comtrade.Recording) func() string {
 // j.where are filled here); without --start the .cfg's first-sample time
 // is the base.
 func replayCOMTRADE(ctx context.Context, j replayJob, stdout, stderr io.Writer) error {
-	rec, rate, err := openCOMTRADE(j.cfg, j.input)
+	rec, rate, err := OpenCOMTRADE(j.cfg, j.input)
 	if err != nil {
 		return err
 	}

@@ -1,4 +1,4 @@
-package main
+package replaycmd
 
 import (
 	"bufio"
@@ -11,9 +11,9 @@ import (
 	"github.com/gridloupe/gridloupe/stream/encode"
 )
 
-// eventsConfig turns the config's events keys into the detector's
+// EventsConfig turns the config's events keys into the detector's
 // thresholds; the pipeline fills the signal fields.
-func eventsConfig(cfg *config.Config) *events.Config {
+func EventsConfig(cfg *config.Config) *events.Config {
 	e := cfg.Events
 	return &events.Config{DipPct: e.DipPct, SwellPct: e.SwellPct, InterruptionPct: e.InterruptionPct,
 		HysteresisPct: e.HysteresisPct, PreCycles: e.PreCycles, PostCycles: e.PostCycles, MaxCaptureS: e.MaxCaptureS}

@@ -1,4 +1,4 @@
-package main
+package replaycmd
 
 import (
 	"bufio"
@@ -16,7 +16,8 @@ import (
 
 	"golang.org/x/term"
 
-	"github.com/gridloupe/gridloupe/cmd/gridloupe/internal/progress"
+	"github.com/gridloupe/gridloupe/cmd/internal/cli"
+	"github.com/gridloupe/gridloupe/cmd/internal/progress"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/limits"
@@ -26,7 +27,8 @@ import (
 	"github.com/gridloupe/gridloupe/stream/pcm"
 )
 
-const replayHelp = `Usage: gridloupe replay --config FILE [flags] INPUT
+// helpBody is replay's help after the usage line.
+const helpBody = `
 
 Analyses a recorded waveform file and prints one record per interval:
 synchronized 10-cycle (50 Hz) or 12-cycle (60 Hz) windows of about 200 ms,
@@ -49,8 +51,12 @@ amperes. Samples a stream lost are flagged gap, never stitched.
 Flags:
 `
 
-func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stderr io.Writer) error {
-	f, err := parseReplayFlags(args, stdout)
+// Run is the replay command: args are its flags and INPUT, prog is how
+// the help's usage line names it ("gridloupe replay" for the gateway
+// executable). The output, the warnings on stderr and the errors do not
+// depend on prog. Help returns cli.ErrHelp.
+func Run(ctx context.Context, prog string, args []string, stdin io.Reader, stdout, stderr io.Writer) error {
+	f, err := parseReplayFlags(prog, args, stdout)
 	if err != nil {
 		return err
 	}
@@ -65,9 +71,9 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 	}
 	cfg, err := config.Load(f.config)
 	if err != nil {
-		return &usageError{err}
+		return &cli.UsageError{Err: err}
 	}
-	setup, cal, err := setupFromConfig(cfg)
+	setup, cal, err := SetupFromConfig(cfg)
 	if err != nil {
 		return err
 	}
@@ -76,7 +82,7 @@ func cmdReplay(ctx context.Context, args []string, stdin io.Reader, stdout, stde
 		return replayPCM(ctx, replayPCMArgs{cfg: cfg, setup: setup, cal: cal, base: base, iv: iv, format: fmtKind,
 			pcm: f.pcm, framing: f.framing, input: f.input, events: f.events}, stdin, stdout, stderr)
 	}
-	if isCOMTRADE(f.input) {
+	if IsCOMTRADE(f.input) {
 		return replayCOMTRADE(ctx, job, stdout, stderr)
 	}
 	return replayRecording(ctx, job, f.progress, stdin, stdout, stderr)
@@ -91,7 +97,7 @@ type replayFlags struct {
 
 // parseReplayFlags parses replay's command line; --config and exactly one
 // INPUT are required.
-func parseReplayFlags(args []string, stdout io.Writer) (*replayFlags, error) {
+func parseReplayFlags(prog string, args []string, stdout io.Writer) (*replayFlags, error) {
 	fs := flag.NewFlagSet("replay", flag.ContinueOnError)
 	f := &replayFlags{}
 	fs.StringVar(&f.config, "config", "", "config `FILE` (YAML); required")
@@ -103,17 +109,17 @@ func parseReplayFlags(args []string, stdout io.Writer) (*replayFlags, error) {
 	fs.StringVar(&f.pcm, "pcm", "", "INPUT is a raw PCM stream in `FORMAT`: "+strings.Join(pcm.FormatNames(), ", "))
 	fs.StringVar(&f.framing, "framing", "raw", "with --pcm: raw (bare samples) or glf1 (frames with sample index and CRC)")
 	fs.Usage = func() {
-		fmt.Fprint(fs.Output(), replayHelp)
+		fmt.Fprintf(fs.Output(), "Usage: %s --config FILE [flags] INPUT%s", prog, helpBody)
 		fs.PrintDefaults()
 	}
-	if err := parseFlags(fs, args, stdout); err != nil {
+	if err := cli.ParseFlags(fs, args, stdout); err != nil {
 		return nil, err
 	}
 	if f.config == "" {
-		return nil, usagef("replay: --config FILE is required")
+		return nil, cli.Usagef("replay: --config FILE is required")
 	}
 	if fs.NArg() != 1 {
-		return nil, usagef("replay: want exactly one INPUT file, got %d", fs.NArg())
+		return nil, cli.Usagef("replay: want exactly one INPUT file, got %d", fs.NArg())
 	}
 	f.input = fs.Arg(0)
 	return f, nil
@@ -125,26 +131,26 @@ func (f *replayFlags) check() (metrics.Interval, encode.Format, time.Time, error
 	var base time.Time
 	if f.pcm != "" {
 		if _, ok := pcm.ParseFormat(f.pcm); !ok {
-			return 0, 0, base, usagef("replay: --pcm %q: allowed are %s", f.pcm, strings.Join(pcm.FormatNames(), ", "))
+			return 0, 0, base, cli.Usagef("replay: --pcm %q: allowed are %s", f.pcm, strings.Join(pcm.FormatNames(), ", "))
 		}
 		if f.framing != config.FramingRaw && f.framing != config.FramingGLF1 {
-			return 0, 0, base, usagef("replay: --framing %q: allowed are raw, glf1", f.framing)
+			return 0, 0, base, cli.Usagef("replay: --framing %q: allowed are raw, glf1", f.framing)
 		}
 	} else if f.framing != config.FramingRaw {
-		return 0, 0, base, usagef("replay: --framing applies to --pcm input only")
+		return 0, 0, base, cli.Usagef("replay: --framing applies to --pcm input only")
 	}
 	iv, ok := metrics.ParseInterval(f.interval)
 	if !ok || iv == metrics.Int2h {
-		return 0, 0, base, usagef("replay: --interval %q: allowed are 200ms, 3s, 10min", f.interval)
+		return 0, 0, base, cli.Usagef("replay: --interval %q: allowed are 200ms, 3s, 10min", f.interval)
 	}
 	fmtKind, ok := encode.ParseFormat(f.format)
 	if !ok {
-		return 0, 0, base, usagef("replay: --format %q: allowed are %s", f.format, strings.Join(encode.FormatNames(), ", "))
+		return 0, 0, base, cli.Usagef("replay: --format %q: allowed are %s", f.format, strings.Join(encode.FormatNames(), ", "))
 	}
 	if f.start != "" {
 		t, err := time.Parse(time.RFC3339Nano, f.start)
 		if err != nil {
-			return 0, 0, base, usagef("replay: --start %q is not RFC 3339 (e.g. 2026-03-01T10:00:00Z)", f.start)
+			return 0, 0, base, cli.Usagef("replay: --start %q is not RFC 3339 (e.g. 2026-03-01T10:00:00Z)", f.start)
 		}
 		base = t.UTC()
 	}
@@ -167,14 +173,14 @@ func replayRecording(ctx context.Context, job replayJob, progress bool, stdin io
 	for i, ch := range job.setup.Channels {
 		names[i] = ch.Name
 	}
-	src, inRate, where, err := openInput(job.input, r, names)
+	src, inRate, where, err := OpenInput(job.input, r, names)
 	if err != nil {
 		return err
 	}
 	if ex, ok := src.(interface{ Extra() []string }); ok && len(ex.Extra()) > 0 {
 		fmt.Fprintf(stderr, "gridloupe: warning: %s: columns not in the config are ignored: %s\n", job.input, strings.Join(ex.Extra(), ", "))
 	}
-	if job.rate, err = resolveRate(job.cfg, inRate, job.input); err != nil {
+	if job.rate, err = ResolveRate(job.cfg, inRate, job.input); err != nil {
 		return err
 	}
 	job.src, job.where = src, where
@@ -223,10 +229,10 @@ const replayBuffers = 4
 // replayAnalyse runs the pipeline over j.src and prints j.iv's records.
 func replayAnalyse(ctx context.Context, j replayJob, stdout, stderr io.Writer) error {
 	cfg, setup, rate, inPath, fmtKind, iv, src, where := j.cfg, j.setup, j.rate, j.input, j.format, j.iv, j.src, j.where
-	if err := checkRate(cfg, rate); err != nil {
+	if err := CheckRate(cfg, rate); err != nil {
 		return err
 	}
-	pc := pipelineConfig(cfg, setup, j.cal, rate)
+	pc := PipelineConfig(cfg, setup, j.cal, rate)
 	pc.Base = j.base
 	var evf *eventFile
 	if j.events != "" {
@@ -301,17 +307,17 @@ func replayAnalyse(ctx context.Context, j replayJob, stdout, stderr io.Writer) e
 }
 
 func newEncoder(k encode.Format, w io.Writer, s *metrics.Setup, cfg *config.Config) (encode.Writer, error) {
-	enc, err := encode.New(k, w, s, encode.TableOptions{Title: cfg.Site, Reference: ieeeReference(cfg)})
+	enc, err := encode.New(k, w, s, encode.TableOptions{Title: cfg.Site, Reference: IEEEReference(cfg)})
 	if err != nil {
-		return nil, &usageError{err}
+		return nil, &cli.UsageError{Err: err}
 	}
 	return enc, nil
 }
 
-// ieeeReference is the IEEE 519-2014 reference of the config's site for
+// IEEEReference is the IEEE 519-2014 reference of the config's site for
 // the tables: Table 1 by the bus voltage, Table 2 by isc_a/il_a (the
 // strictest row without isc_a; no TDD limit without il_a).
-func ieeeReference(cfg *config.Config) *encode.Reference {
+func IEEEReference(cfg *config.Config) *encode.Reference {
 	if !(cfg.Nominal.VoltageV > 0) {
 		return nil
 	}
@@ -337,7 +343,7 @@ func ieeeReference(cfg *config.Config) *encode.Reference {
 func openReplayInput(inPath string, stdin io.Reader, stderr io.Writer, show bool) (io.Reader, func(), error) {
 	if inPath == "-" {
 		if stdin == nil {
-			return nil, nil, usagef("replay: INPUT - reads standard input, which is not available")
+			return nil, nil, cli.Usagef("replay: INPUT - reads standard input, which is not available")
 		}
 		return stdin, func() {}, nil
 	}
@@ -356,10 +362,10 @@ func openReplayInput(inPath string, stdin io.Reader, stderr io.Writer, show bool
 	return io.TeeReader(f, line), func() { line.Finish(); f.Close() }, nil
 }
 
-// openInput opens a CSV or WAV source by file extension. It returns the
+// OpenInput opens a CSV or WAV source by file extension. It returns the
 // source, the sample rate the file carries (0 if none) and a function that
 // says where in the file reading stopped (for the cut-recording warning).
-func openInput(path string, r io.Reader, names []string) (stream.FrameReader, float64, func() string, error) {
+func OpenInput(path string, r io.Reader, names []string) (stream.FrameReader, float64, func() string, error) {
 	if strings.EqualFold(filepath.Ext(path), ".wav") {
 		w, err := input.NewWAV(path, r, len(names))
 		if err != nil {
@@ -394,15 +400,15 @@ type replayPCMArgs struct {
 
 // replayPCM replays a raw or GLF1 stream from a file, a FIFO or stdin.
 func replayPCM(ctx context.Context, a replayPCMArgs, stdin io.Reader, stdout, stderr io.Writer) error {
-	rate, err := pcmRate(a.cfg, a.input)
+	rate, err := PCMRate(a.cfg, a.input)
 	if err != nil {
 		return err
 	}
-	in, _, err := openPCMPath(a.input, stdin, len(a.setup.Channels), a.pcm, a.framing)
+	in, _, err := OpenPCMPath(a.input, stdin, len(a.setup.Channels), a.pcm, a.framing)
 	if err != nil {
 		return err
 	}
-	defer in.close()
+	defer in.Close()
 	return replayAnalyse(ctx, replayJob{cfg: a.cfg, setup: a.setup, cal: a.cal, rate: rate, base: a.base, iv: a.iv,
-		format: a.format, src: in.src, input: a.input, where: in.where, losses: in.losses, events: a.events}, stdout, stderr)
+		format: a.format, src: in.Src, input: a.input, where: in.Where, losses: in.Losses, events: a.events}, stdout, stderr)
 }

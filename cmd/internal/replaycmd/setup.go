@@ -1,17 +1,18 @@
-package main
+package replaycmd
 
 import (
 	"fmt"
 	"math"
 
+	"github.com/gridloupe/gridloupe/cmd/internal/cli"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/stream"
 )
 
-// setupFromConfig translates the validated config into the computations'
+// SetupFromConfig translates the validated config into the computations'
 // setup and the per-channel calibration.
-func setupFromConfig(cfg *config.Config) (*metrics.Setup, []stream.Cal, error) {
+func SetupFromConfig(cfg *config.Config) (*metrics.Setup, []stream.Cal, error) {
 	s := metrics.Setup{
 		Orders:    cfg.Harmonics.Orders,
 		AllOrders: cfg.Harmonics.All,
@@ -64,26 +65,26 @@ func setupFromConfig(cfg *config.Config) (*metrics.Setup, []stream.Cal, error) {
 	}
 	setup, err := metrics.NewSetup(s)
 	if err != nil {
-		return nil, nil, &usageError{fmt.Errorf("%s: %w", cfg.Path, err)}
+		return nil, nil, &cli.UsageError{Err: fmt.Errorf("%s: %w", cfg.Path, err)}
 	}
 	return setup, cal, nil
 }
 
-// pipelineConfig builds the stream configuration for a sample rate.
-func pipelineConfig(cfg *config.Config, setup *metrics.Setup, cal []stream.Cal, fs float64) stream.Config {
+// PipelineConfig builds the stream configuration for a sample rate.
+func PipelineConfig(cfg *config.Config, setup *metrics.Setup, cal []stream.Cal, fs float64) stream.Config {
 	return stream.Config{
 		Setup:      setup,
 		Cal:        cal,
 		SampleRate: fs,
 		NominalHz:  cfg.Nominal.FrequencyHz,
 		LockMinRMS: cfg.LockMinPct / 100 * cfg.Nominal.VoltageV,
-		Events:     eventsConfig(cfg),
+		Events:     EventsConfig(cfg),
 	}
 }
 
-// resolveRate reconciles the config's sample_rate_hz with the input's own
+// ResolveRate reconciles the config's sample_rate_hz with the input's own
 // rate (WAV header or CSV t column): they must agree when both are given.
-func resolveRate(cfg *config.Config, fromInput float64, inputPath string) (float64, error) {
+func ResolveRate(cfg *config.Config, fromInput float64, inputPath string) (float64, error) {
 	// a rate from a t column carries rounding: snap to a whole hertz when
 	// it is within a part per million of one
 	if r := math.Round(fromInput); fromInput > 0 && math.Abs(fromInput-r) <= 1e-6*fromInput {
@@ -92,7 +93,7 @@ func resolveRate(cfg *config.Config, fromInput float64, inputPath string) (float
 	switch {
 	case fromInput > 0 && cfg.SampleRateHz > 0:
 		if math.Abs(fromInput-cfg.SampleRateHz) > 1e-4*cfg.SampleRateHz {
-			return 0, usagef("%s: sample_rate_hz %v disagrees with %v Hz from %s; remove the key or correct it", cfg.Path, cfg.SampleRateHz, fromInput, inputPath)
+			return 0, cli.Usagef("%s: sample_rate_hz %v disagrees with %v Hz from %s; remove the key or correct it", cfg.Path, cfg.SampleRateHz, fromInput, inputPath)
 		}
 		return cfg.SampleRateHz, nil
 	case fromInput > 0:
@@ -100,15 +101,15 @@ func resolveRate(cfg *config.Config, fromInput float64, inputPath string) (float
 	case cfg.SampleRateHz > 0:
 		return cfg.SampleRateHz, nil
 	}
-	return 0, usagef("%s: %s carries no sample rate (no t column); set sample_rate_hz in the config", cfg.Path, inputPath)
+	return 0, cli.Usagef("%s: %s carries no sample rate (no t column); set sample_rate_hz in the config", cfg.Path, inputPath)
 }
 
-// checkRate rejects rates too low for the requested orders by config's
+// CheckRate rejects rates too low for the requested orders by config's
 // one sample-rate rule (config.Config.CheckSampleRate: order h at up to
 // 1.15 × nominal needs fs above 2·h·1.15·f), as a usage error.
-func checkRate(cfg *config.Config, fs float64) error {
+func CheckRate(cfg *config.Config, fs float64) error {
 	if err := cfg.CheckSampleRate(fs); err != nil {
-		return &usageError{err}
+		return &cli.UsageError{Err: err}
 	}
 	return nil
 }
