@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"os"
 
+	"github.com/gridloupe/gridloupe/cmd/internal/replaycmd"
 	"github.com/gridloupe/gridloupe/config"
 )
 
@@ -22,7 +23,7 @@ func preflight(cfg *config.Config) error {
 		if _, err := mqttTLS(cfg); err != nil {
 			return err
 		}
-		setup, _, err := setupFromConfig(cfg)
+		setup, _, err := replaycmd.SetupFromConfig(cfg)
 		if err != nil {
 			return err
 		}
