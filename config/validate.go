@@ -473,6 +473,9 @@ func (v *validator) mqtt() *Error {
 	if e := v.broker(); e != nil {
 		return e
 	}
+	if e := v.summaryCircuits(); e != nil {
+		return e
+	}
 	if m.Listen != "" {
 		host, port, err := splitHostPort(m.Listen)
 		switch {

@@ -190,8 +190,12 @@ func (w *WAV) decode(dst []float64, b []byte) {
 	le := binary.LittleEndian
 	switch w.kind {
 	case kindInt16:
-		for i := range len(b) / 2 {
-			dst[i] = float64(int32(uint32(le.Uint16(b[2*i:]))<<16) >> w.shift)
+		// the shift hoisted (and masked: it is 16 to 31 here, and a Go
+		// shift of 32 or more would need a guard) and the indices advanced
+		// together, so the loop drops most bounds checks and the reload of w
+		sh := w.shift & 31
+		for i, j := 0, 0; i < len(dst) && j+1 < len(b); i, j = i+1, j+2 {
+			dst[i] = float64(int32((uint32(b[j])|uint32(b[j+1])<<8)<<16) >> sh)
 		}
 	case kindInt24:
 		for i := range len(b) / 3 {
