@@ -191,3 +191,25 @@ func (v *validator) circuitPhase(p string, a *Alarm) *Error {
 	}
 	return v.fail(p+".phase", "circuit %s has no current on phase %s, so no %s", a.Circuit, a.Phase, a.Metric)
 }
+
+// summaryCircuits checks mqtt.summary_circuits: only with circuits, each
+// name a circuit, none twice.
+func (v *validator) summaryCircuits() *Error {
+	c := v.c
+	if !v.has("mqtt.summary_circuits") {
+		return nil
+	}
+	if len(c.Circuits) == 0 {
+		return v.fail("mqtt.summary_circuits", "there are no circuits; remove the key, or add circuits")
+	}
+	for i, name := range c.MQTT.SummaryCircuits {
+		p := fmt.Sprintf("mqtt.summary_circuits[%d]", i)
+		if !slices.ContainsFunc(c.Circuits, func(x Circuit) bool { return x.Name == name }) {
+			return v.fail(p, "no circuit is named %q (%s)", name, v.circuitNames())
+		}
+		if slices.Index(c.MQTT.SummaryCircuits, name) < i {
+			return v.fail(p, "%q is listed twice", name)
+		}
+	}
+	return nil
+}

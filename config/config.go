@@ -133,7 +133,10 @@ type MQTT struct {
 	Telemetry    []string       // interval labels published; default ["10min"]; from 3s, 10min, 2h
 	TelemetryQoS map[string]int // MQTT QoS per interval label, 0..2; default 1 for every level
 	Summary      []string       // interval labels whose slim summary is published retained on …/summary/<interval>; default ["10min"]
-	Base         string         // added: "<prefix>/<site level>/<gateway level>", sanitized; topics are Base+"/status" and so on
+	// SummaryCircuits, with circuits: the circuits whose entries the
+	// summary carries, by name; nil = every circuit.
+	SummaryCircuits []string
+	Base            string // added: "<prefix>/<site level>/<gateway level>", sanitized; topics are Base+"/status" and so on
 }
 
 // TLS names PEM files (resolved against the config's folder). Cert and Key

@@ -31,7 +31,7 @@ var sections = map[string][]string{
 	"store":                 {"path", "commit_every", "max_size_mb", "retention", "on_damage"},
 	"store.retention":       {"3s", "10min", "2h"},
 	"mqtt": {"broker", "listen", "client_id", "username", "password_file", "password_env", "tls",
-		"topic_prefix", "telemetry", "telemetry_qos", "summary"},
+		"topic_prefix", "telemetry", "telemetry_qos", "summary", "summary_circuits"},
 	"mqtt.tls":           {"ca", "cert", "key"},
 	"mqtt.telemetry_qos": {"3s", "10min", "2h"},
 	"modbus":             {"listen", "unit_id", "word_order"},
@@ -644,6 +644,16 @@ func (d *decoder) mqtt(n *yaml.Node, path string, m *MQTT) *Error {
 			return d.levels(v, p, &m.Telemetry)
 		case "summary":
 			return d.levels(v, p, &m.Summary)
+		case "summary_circuits":
+			m.SummaryCircuits = []string{}
+			return d.sequence(v, p, "circuit names, such as [incomer, pump1]", maxCircuits, func(_ int, v *yaml.Node, ip string) *Error {
+				var name string
+				if e := d.str(v, ip, &name); e != nil {
+					return e
+				}
+				m.SummaryCircuits = append(m.SummaryCircuits, name)
+				return nil
+			})
 		}
 		return d.errf(v, p, "internal: key has no decoder")
 	})

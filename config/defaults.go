@@ -125,6 +125,7 @@ mqtt:
   telemetry: [10min]       # levels published, from 3s, 10min, 2h; [] = none
   telemetry_qos: {3s: 1, 10min: 1, 2h: 1}  # MQTT QoS per level, 0..2; 1 = kept until the broker acknowledges
   summary: [10min]         # levels whose slim summary (< 1 KB, for a BMS) is published retained, QoS 1; [] = none
+  # summary_circuits: [incomer, pump1]  # with circuits: the circuits in the summary; default all (as many as fit 1 KB)
 
 events:                    # voltage dips, swells and interruptions (IEC 61000-4-30 style, on Urms(1/2))
   dip_pct: 90              # % of nominal.voltage_v: an event opens when a voltage falls below this

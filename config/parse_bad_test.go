@@ -57,6 +57,7 @@ const (
 	srcRate    = "DESIGN.md, Performance notes: orders to 50 at up to 69 Hz need fs above 6.9 kHz; rule fs > 2·order·1.15·f"
 	srcMQTT    = "MQTT 3.1.1 §4.7 (topic wildcards +, #; $-topics) and §1.5.3 (UTF-8, control characters)"
 	srcUnbCirc = "README, Alarm rules: unbalance_current_pct with circuits names its circuit"
+	srcSumCirc = "README, MQTT topics and payloads: mqtt.summary_circuits lists circuits by name"
 	srcYAML    = "YAML 1.2 §6.1 (tabs are not indentation) / §9.2 (documents); go.yaml.in/yaml/v3 parser message"
 )
 
@@ -119,6 +120,9 @@ var badCases = []badCase{
 	{name: "circuit: unbalance_current_pct of an unknown circuit", doc: hdrW + "alarms:\n  - {name: x, metric: unbalance_current_pct, circuit: p, above: 5}\n", line: 15, key: "alarms[0].circuit", phrase: `no circuit is named "p" (circuits: m, n)`, src: srcUnbCirc},
 	{name: "circuit: unbalance_current_pct on two phases", doc: hdrW + "alarms:\n  - {name: x, metric: unbalance_current_pct, circuit: n, above: 5}\n", line: 15, key: "alarms[0].metric", phrase: "needs current channels on phases a, b and c in circuit n; phase c has none", src: "IEC 61000-4-30 unbalance: three phases; " + srcUnbCirc},
 	{name: "circuit: unbalance_voltage_pct with circuit", doc: hdrW + "alarms:\n  - {name: x, metric: unbalance_voltage_pct, circuit: m, above: 2}\n", line: 15, key: "alarms[0].circuit", phrase: "does not apply to unbalance_voltage_pct (a system-wide value)", src: srcUnbCirc + " (the voltages are the bus's)"},
+	{name: "summary_circuits without circuits", doc: hdr3 + "mqtt: {broker: \"tcp://127.0.0.1:1883\", summary_circuits: [m]}\n", line: 10, key: "mqtt.summary_circuits", phrase: "there are no circuits; remove the key, or add circuits", src: srcSumCirc},
+	{name: "summary_circuits unknown", doc: hdrW + "mqtt: {broker: \"tcp://127.0.0.1:1883\", summary_circuits: [m, p]}\n", line: 14, key: "mqtt.summary_circuits[1]", phrase: `no circuit is named "p" (circuits: m, n)`, src: srcSumCirc},
+	{name: "summary_circuits twice", doc: hdrW + "mqtt: {broker: \"tcp://127.0.0.1:1883\", summary_circuits: [m, n, m]}\n", line: 14, key: "mqtt.summary_circuits[2]", phrase: `"m" is listed twice`, src: srcSumCirc},
 	{name: "circuit key without circuits", doc: hdr1 + "  - {name: ia, kind: current, phase: a}\nalarms:\n  - {name: x, metric: pf, circuit: m, below: 0.9}\n", line: 6, key: "alarms[0].circuit", phrase: "there are no circuits", src: "README Several circuits on one bus"},
 	{name: "line-to-line on wye", doc: "nominal: {frequency_hz: 50, voltage_v: 230}\nchannels:\n  - {name: vab, kind: voltage, phase: ab}\n", line: 3, key: "channels[0].phase", phrase: "ab is a line-to-line voltage, for wiring: delta", src: srcDesign + " (Delta wiring)"},
 	{name: "wiring unknown", doc: hdr1 + "wiring: star\n", line: 4, key: "wiring", phrase: `"star" is not allowed; use single-phase, wye or delta`, src: srcDesign},

@@ -13,7 +13,7 @@ func cmdConfig(args []string, stdout, stderr io.Writer) error {
 	defaults := fs.Bool("defaults", false, "print every config key with its default and allowed values")
 	check := fs.String("check", "", "validate a config `FILE` and report the first problem with its line")
 	fs.Usage = func() {
-		fmt.Fprintln(fs.Output(), "Usage: gridloupe config --defaults | --check FILE\n\n--check validates the file as run reads it: keys, values, the sample rate\nfor the computed orders, and the files it names (mqtt.password_file, TLS\nfiles, a csv or wav source) exist and are readable. A file without alarm\nrules also gets the usual starting rules for its channels, as YAML to paste.\nGive one of the two.\n\nFlags:")
+		fmt.Fprintln(fs.Output(), "Usage: gridloupe config --defaults | --check FILE\n\n--check validates the file as run reads it: keys, values, the sample rate\nfor the computed orders, and the files it names (mqtt.password_file, TLS\nfiles, a csv or wav source) exist and are readable, and that with circuits\nthe MQTT summary's circuits fit its 1 KB. A file without alarm\nrules also gets the usual starting rules for its channels, as YAML to paste.\nGive one of the two.\n\nFlags:")
 		fs.PrintDefaults()
 	}
 	if err := parseFlags(fs, args, stdout); err != nil {

@@ -4,14 +4,16 @@ import (
 	"fmt"
 	"os"
 
+	"github.com/gridloupe/gridloupe/cmd/internal/replaycmd"
 	"github.com/gridloupe/gridloupe/config"
 )
 
 // preflight checks what `run` would find missing at start beyond the
 // config's own validation: the files the config names exist and are
 // readable (mqtt.password_file or password_env, the TLS files, a csv or wav
-// source). `config --check` runs it so that a file that passes there does
-// not fail under `run` for one of these reasons. Exit codes as run's: 2 for
+// source), and the summary's circuits fit its 1 KB (summaryCircuits).
+// `config --check` runs it so that a file that passes there does not fail
+// under `run` for one of these reasons. Exit codes as run's: 2 for
 // the MQTT files, 1 for a missing or unreadable source file.
 func preflight(cfg *config.Config) error {
 	if cfg.MQTT.Broker != "" {
@@ -19,6 +21,13 @@ func preflight(cfg *config.Config) error {
 			return usagef("%s: mqtt: %v", cfg.Path, err)
 		}
 		if _, err := mqttTLS(cfg); err != nil {
+			return err
+		}
+		setup, _, err := replaycmd.SetupFromConfig(cfg)
+		if err != nil {
+			return err
+		}
+		if _, err := summaryCircuits(cfg, setup); err != nil {
 			return err
 		}
 	}

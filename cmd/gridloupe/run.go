@@ -174,7 +174,7 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 	if err != nil {
 		return err
 	}
-	if err := checkRunConfig(cfg); err != nil {
+	if err := checkRunConfig(cfg, setup); err != nil {
 		return err
 	}
 	d := &daemon{setup: setup}
@@ -240,14 +240,15 @@ func runDaemon(ctx context.Context, cfg *config.Config, o daemonOptions, stderr 
 
 // checkRunConfig checks what run needs beyond a valid config: a store
 // path and a source.
-func checkRunConfig(cfg *config.Config) error {
+func checkRunConfig(cfg *config.Config, setup *metrics.Setup) error {
 	if cfg.Store.Path == "" {
 		return usagef("%s: store.path is required for run", cfg.Path)
 	}
 	if cfg.Source.Kind == "" {
 		return usagef("%s: source is required for run (kind: %s)", cfg.Path, strings.Join(config.SourceKinds(), ", "))
 	}
-	return nil
+	_, err := summaryCircuits(cfg, setup)
+	return err
 }
 
 // openDaemonStore opens (or, if damaged, replaces) the store at
@@ -420,6 +421,10 @@ func clockSynced() bool { s, _ := sysclock.Synced(); return s }
 func newDaemonGateway(cfg *config.Config, o daemonOptions, pc stream.Config, src *daemonSource, db *store.DB,
 	ev *alarm.Evaluator, mq *daemonMQTT, integ *integration, clk *sampleClock, storeNotice string,
 	now func() time.Time, log *slog.Logger) (*gateway.Gateway, error) {
+	pick, err := summaryCircuits(cfg, pc.Setup) // checked at start by checkRunConfig
+	if err != nil {
+		return nil, err
+	}
 	onStoreErr := func(error) {}
 	var publishHealth func(topic string, payload []byte)
 	if mq.pub != nil {
@@ -434,7 +439,7 @@ func newDaemonGateway(cfg *config.Config, o daemonOptions, pc stream.Config, src
 	}
 	return gateway.New(gateway.Config{Pipeline: pc, Source: src.source, EndIsError: src.endIsError, Live: src.live,
 		Store: db, Alarms: ev, Telemetry: parseLevels(cfg.MQTT.Telemetry), TelemetryQoS: parseLevelQoS(cfg.MQTT.TelemetryQoS),
-		Summary: parseLevels(cfg.MQTT.Summary), Base: mq.base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: mq.kick(),
+		Summary: parseLevels(cfg.MQTT.Summary), SummaryCircuits: pick, Base: mq.base, Site: cfg.Site, Gateway: cfg.Gateway, Kick: mq.kick(),
 		CommitEvery: cfg.Store.CommitEvery, Now: now, Synced: clockSynced, Logger: log.With("component", "gateway"),
 		OnRecord: integ.onRecord(clk.record), OnWindow: integ.onWindow, OnTransition: o.onTransition,
 		OnEvent: integ.onEvent(o.onEvent), OnStoreError: onStoreErr, Notice: storeNotice, PublishHealth: publishHealth})

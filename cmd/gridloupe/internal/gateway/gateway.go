@@ -36,6 +36,9 @@ type Config struct {
 	Channels  []string         // channel names, for alarm payloads; nil = from the setup
 	Telemetry []metrics.Interval
 	Summary   []metrics.Interval // levels whose slim summary is published, retained (stream/summary)
+	// SummaryCircuits: with circuits, the indices in Setup.Circuits of
+	// those the summary carries; nil = every circuit.
+	SummaryCircuits []int
 	// TelemetryQoS is the MQTT QoS per telemetry level; a level absent
 	// here is published at QoS 1 (deleted from the outbox on PUBACK).
 	TelemetryQoS map[metrics.Interval]byte
@@ -334,7 +337,7 @@ func (g *Gateway) handle(r *metrics.Record) {
 			Payload: telemetryPayload(nil, g.cfg.Site, g.cfg.Gateway, g.setup, r)})
 	}
 	if g.cfg.Base != "" && int(r.Interval) < len(g.summ) && g.summ[r.Interval] {
-		g.msgs = append(g.msgs, summaryMessage(g.cfg.Base, g.cfg.Site, g.cfg.Gateway, g.setup, r))
+		g.msgs = append(g.msgs, summaryMessage(g.cfg.Base, g.cfg.Site, g.cfg.Gateway, g.setup, g.cfg.SummaryCircuits, r))
 	}
 	if g.cfg.OnRecord != nil {
 		var active []string
