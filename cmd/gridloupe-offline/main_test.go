@@ -205,8 +205,8 @@ func TestSameAsGateway(t *testing.T) {
 		t.Fatal(err)
 	}
 	cases := []struct {
-		name  string
-		args  []string
+		name   string
+		args   []string
 		stdin  []byte
 		ok     bool // exit status 0 with output expected
 		events bool // add --events FILE and compare the files too
