@@ -1,7 +1,6 @@
 package config
 
 import (
-	"net"
 	"time"
 
 	"go.yaml.in/yaml/v3"
@@ -92,7 +91,7 @@ func (v *validator) integration() *Error {
 		if !v.has(l.key) {
 			continue
 		}
-		if _, port, err := net.SplitHostPort(*l.dst); err != nil || port == "" {
+		if _, port, err := splitHostPort(*l.dst); err != nil || port == "" {
 			return v.fail(l.key, "%q is not host:port, such as 127.0.0.1:5020 (loopback) or 0.0.0.0:5020 (every interface)", *l.dst)
 		}
 	}

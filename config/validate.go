@@ -3,7 +3,6 @@ package config
 import (
 	"fmt"
 	"math"
-	"net"
 	"net/url"
 	"path/filepath"
 	"slices"
@@ -436,7 +435,7 @@ func (v *validator) pcmSource() *Error {
 		return v.fail("source", "kind pcm needs sample_rate_hz: a raw stream carries no sample rate")
 	}
 	if s.Connect != "" {
-		if _, _, err := net.SplitHostPort(s.Connect); err != nil {
+		if _, _, err := splitHostPort(s.Connect); err != nil {
 			return v.fail("source.connect", "%q is not host:port (e.g. 127.0.0.1:7001): %v", s.Connect, err)
 		}
 	}
@@ -478,14 +477,13 @@ func (v *validator) mqtt() *Error {
 		return e
 	}
 	if m.Listen != "" {
-		host, port, err := net.SplitHostPort(m.Listen)
-		ip := net.ParseIP(host)
+		host, port, err := splitHostPort(m.Listen)
 		switch {
 		case m.Broker != BrokerEmbedded:
 			return v.fail("mqtt.listen", "applies only with broker: embedded")
 		case err != nil || port == "":
 			return v.fail("mqtt.listen", "%q is not host:port, such as 127.0.0.1:1883", m.Listen)
-		case (ip == nil || !ip.IsLoopback()) && host != "localhost" &&
+		case !isLoopbackIP(host) && host != "localhost" &&
 			(m.TLS.Cert == "" || m.Username == "" || (m.PasswordFile == "" && m.PasswordEnv == "")):
 			return v.fail("mqtt.listen", "%q is beyond loopback: the embedded broker then needs tls.cert/tls.key, username and a password", m.Listen)
 		}

@@ -5,10 +5,12 @@ import (
 	"bytes"
 	"encoding/binary"
 	"errors"
+	"fmt"
 	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -123,6 +125,42 @@ func wavFloat(vals []float64) []byte {
 	return append(b, data...)
 }
 
+// comtradeASCII writes vals as an ASCII COMTRADE recording (IEEE
+// C37.111-1999 layout: station line, channel counts, one line per analog
+// channel, frequency, rates, time stamps, file type, time multiplier)
+// with the config's channel names as ids, counts of 1 mV or 1 mA (a =
+// 0.001), and returns the .cfg path.
+func comtradeASCII(t *testing.T, dir string, vals []float64) string {
+	t.Helper()
+	n := len(vals) / 6
+	var c strings.Builder
+	c.WriteString("North Weir DC-2,offline-test,1999\n6,6A,0D\n")
+	for i, id := range []string{"va", "vb", "vc", "ia", "ib", "ic"} {
+		unit := "V"
+		if i >= 3 {
+			unit = "A"
+		}
+		fmt.Fprintf(&c, "%d,%s,%c,dc2,%s,0.001,0,0,-999999,999999,1,1,P\n", i+1, id, 'A'+i%3, unit)
+	}
+	fmt.Fprintf(&c, "50\n1\n10240,%d\n01/03/2026,10:00:00.000000\n01/03/2026,10:00:00.000000\nASCII\n1\n", n)
+	var d strings.Builder
+	for k := range n {
+		fmt.Fprintf(&d, "%d,%d", k+1, int64(math.Round(float64(k)*1e6/10240)))
+		for _, v := range vals[k*6 : k*6+6] {
+			fmt.Fprintf(&d, ",%d", int64(math.Round(v*1000)))
+		}
+		d.WriteString("\r\n")
+	}
+	cfg := filepath.Join(dir, "rec.cfg")
+	if err := os.WriteFile(cfg, []byte(c.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(filepath.Join(dir, "rec.dat"), []byte(d.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return cfg
+}
+
 // TestSameAsGateway: for recordings in every input kind and format, and
 // for bad command lines, gridloupe-offline prints exactly what
 // `gridloupe replay` prints, byte for byte on stdout, with the same
@@ -151,38 +189,58 @@ func TestSameAsGateway(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	cfgCOMTRADE := comtradeASCII(t, dir, vals)
+	dipped := append([]float64(nil), vals...)
+	for k := 10000; k < 13000; k++ { // about 0.3 s at 40 % of the voltage: a dip (IEC 61000-4-30 5.4.2: below 90 %)
+		for ch := range 3 {
+			dipped[k*6+ch] *= 0.4
+		}
+	}
+	dip := filepath.Join(dir, "dip.wav")
+	if err := os.WriteFile(dip, wavFloat(dipped), 0o644); err != nil {
+		t.Fatal(err)
+	}
 	badCfg := filepath.Join(dir, "bad.yaml")
 	if err := os.WriteFile(badCfg, []byte("site: x\nnominal: {frequency_hz: 55}\n"), 0o644); err != nil {
 		t.Fatal(err)
 	}
 	cases := []struct {
-		name  string
-		args  []string
-		stdin []byte
-		ok    bool // exit status 0 with output expected
+		name   string
+		args   []string
+		stdin  []byte
+		ok     bool // exit status 0 with output expected
+		events bool // add --events FILE and compare the files too
 	}{
-		{"csv jsonl 200ms", []string{"--config", cfg, csvIn}, nil, true},
-		{"csv csv 3s", []string{"--config", cfg, "--interval", "3s", "--format", "csv", csvIn}, nil, true},
-		{"csv table", []string{"--config", cfg, "--format", "table", csvIn}, nil, true},
-		{"csv wide with start", []string{"--config", cfg, "--format", "wide", "--start", "2026-03-01T10:00:00Z", csvIn}, nil, true},
-		{"stdin csv", []string{"--config", cfg, "-"}, csvBytes, true},
-		{"wav float", []string{"--config", cfg, wav}, nil, true},
-		{"wav cut mid-frame", []string{"--config", cfg, "--format", "csv", cut}, nil, true},
-		{"pcm f32le", []string{"--config", cfg, "--pcm", "f32le", raw}, nil, true},
-		{"no args", nil, nil, false},
-		{"no input", []string{"--config", cfg}, nil, false},
-		{"bad interval", []string{"--config", cfg, "--interval", "2h", csvIn}, nil, false},
-		{"bad format", []string{"--config", cfg, "--format", "xml", csvIn}, nil, false},
-		{"unknown flag", []string{"--config", cfg, "--store", "x", csvIn}, nil, false},
-		{"framing without pcm", []string{"--config", cfg, "--framing", "glf1", csvIn}, nil, false},
-		{"bad config", []string{"--config", badCfg, csvIn}, nil, false},
-		{"missing input", []string{"--config", cfg, filepath.Join(dir, "none.csv")}, nil, false},
-		{"missing config", []string{"--config", filepath.Join(dir, "none.yaml"), csvIn}, nil, false},
+		{"csv jsonl 200ms", []string{"--config", cfg, csvIn}, nil, true, false},
+		{"csv csv 3s", []string{"--config", cfg, "--interval", "3s", "--format", "csv", csvIn}, nil, true, false},
+		{"csv table", []string{"--config", cfg, "--format", "table", csvIn}, nil, true, false},
+		{"csv wide with start", []string{"--config", cfg, "--format", "wide", "--start", "2026-03-01T10:00:00Z", csvIn}, nil, true, false},
+		{"stdin csv", []string{"--config", cfg, "-"}, csvBytes, true, false},
+		{"wav float", []string{"--config", cfg, wav}, nil, true, false},
+		{"wav cut mid-frame", []string{"--config", cfg, "--format", "csv", cut}, nil, true, false},
+		{"comtrade ascii", []string{"--config", cfg, "--interval", "3s", cfgCOMTRADE}, nil, true, false},
+		{"pcm f32le", []string{"--config", cfg, "--pcm", "f32le", raw}, nil, true, false},
+		{"wav with a dip, events", []string{"--config", cfg, "--format", "csv", dip}, nil, true, true},
+		{"no args", nil, nil, false, false},
+		{"no input", []string{"--config", cfg}, nil, false, false},
+		{"bad interval", []string{"--config", cfg, "--interval", "2h", csvIn}, nil, false, false},
+		{"bad format", []string{"--config", cfg, "--format", "xml", csvIn}, nil, false, false},
+		{"unknown flag", []string{"--config", cfg, "--store", "x", csvIn}, nil, false, false},
+		{"framing without pcm", []string{"--config", cfg, "--framing", "glf1", csvIn}, nil, false, false},
+		{"bad config", []string{"--config", badCfg, csvIn}, nil, false, false},
+		{"missing input", []string{"--config", cfg, filepath.Join(dir, "none.csv")}, nil, false, false},
+		{"missing config", []string{"--config", filepath.Join(dir, "none.yaml"), csvIn}, nil, false, false},
 	}
 	for _, c := range cases {
 		t.Run(c.name, func(t *testing.T) {
-			want := runProc(t, nil, c.stdin, gw, append([]string{"replay"}, c.args...)...)
-			got := runProc(t, []string{"GRIDLOUPE_OFFLINE_AS_MAIN=1"}, c.stdin, self, c.args...)
+			wantArgs, gotArgs := append([]string{"replay"}, c.args...), c.args
+			wantEv, gotEv := filepath.Join(dir, "want-events.jsonl"), filepath.Join(dir, "got-events.jsonl")
+			if c.events {
+				wantArgs = append([]string{"replay", "--events", wantEv}, c.args...)
+				gotArgs = append([]string{"--events", gotEv}, c.args...)
+			}
+			want := runProc(t, nil, c.stdin, gw, wantArgs...)
+			got := runProc(t, []string{"GRIDLOUPE_OFFLINE_AS_MAIN=1"}, c.stdin, self, gotArgs...)
 			if c.ok && (want.code != 0 || len(want.stdout) < 1000) {
 				t.Fatalf("gridloupe replay: exit %d, %d bytes out, stderr %q", want.code, len(want.stdout), want.stderr)
 			}
@@ -194,6 +252,18 @@ func TestSameAsGateway(t *testing.T) {
 			}
 			if got.stdout != want.stdout {
 				t.Errorf("stdout differs from gridloupe replay's (%d vs %d bytes)", len(got.stdout), len(want.stdout))
+			}
+			if c.events {
+				w, werr := os.ReadFile(wantEv)
+				g, gerr := os.ReadFile(gotEv)
+				switch {
+				case werr != nil || gerr != nil:
+					t.Fatalf("events files: %v, %v", werr, gerr)
+				case !bytes.Contains(w, []byte(`"dip"`)):
+					t.Errorf("gridloupe replay's events file holds no dip:\n%s", w)
+				case !bytes.Equal(g, w):
+					t.Errorf("events file\n%s\nwant gridloupe replay's\n%s", g, w)
+				}
 			}
 			if g, w := strings.Replace(got.stderr, "gridloupe-offline: ", "gridloupe: ", 1), want.stderr; g != w {
 				t.Errorf("stderr\n%q\nwant (gridloupe replay's, the program name aside)\n%q", got.stderr, w)
@@ -221,20 +291,21 @@ func TestHelp(t *testing.T) {
 }
 
 // forbidden are the packages the offline executable must not link: the
-// network stack and TLS, the HTTP server, the store, the MQTT client and
-// broker, Modbus (README "Offline analysis").
-var forbidden = []string{
-	"crypto/tls",
-	"net/http",
-	"go.etcd.io/bbolt",
-	"github.com/eclipse/paho.mqtt.golang",
-	"github.com/mochi-mqtt/server/v2",
-	"github.com/simonvetter/modbus",
-}
+// network stack (package net; net/netip and net/url are parsers and may
+// stay), TLS, the HTTP server, and every package of the store, MQTT
+// client, broker and Modbus modules (README "Offline analysis").
+var (
+	forbidden       = []string{"net", "crypto/tls", "net/http"}
+	forbiddenModule = []string{
+		"go.etcd.io/bbolt",
+		"github.com/eclipse/paho.mqtt.golang",
+		"github.com/mochi-mqtt/server/v2",
+		"github.com/simonvetter/modbus",
+	}
+)
 
 // TestLinksNoNetwork lists the executable's dependencies (`go list -deps`,
-// which names every package linked) and fails on any forbidden one or a
-// package beneath it.
+// which names every package linked) and fails on any forbidden one.
 func TestLinksNoNetwork(t *testing.T) {
 	out, err := exec.Command("go", "list", "-deps", "github.com/gridloupe/gridloupe/cmd/gridloupe-offline").Output()
 	if err != nil {
@@ -245,8 +316,11 @@ func TestLinksNoNetwork(t *testing.T) {
 		t.Fatalf("go list -deps gave %d packages: %q", len(deps), out)
 	}
 	for _, d := range deps {
-		for _, f := range forbidden {
-			if d == f || strings.HasPrefix(d, f+"/") {
+		if slices.Contains(forbidden, d) {
+			t.Errorf("gridloupe-offline links %s", d)
+		}
+		for _, m := range forbiddenModule {
+			if d == m || strings.HasPrefix(d, m+"/") {
 				t.Errorf("gridloupe-offline links %s", d)
 			}
 		}

@@ -9,6 +9,7 @@ import (
 	"github.com/gridloupe/gridloupe/cmd/internal/replaycmd"
 	"github.com/gridloupe/gridloupe/config"
 	"github.com/gridloupe/gridloupe/stream/pcm"
+	"github.com/gridloupe/gridloupe/stream/pcm/pcmtcp"
 )
 
 // openPCMSource opens the daemon's pcm source: a path (file, FIFO, "-",
@@ -26,7 +27,7 @@ func openPCMSource(ctx context.Context, cfg *config.Config, channels int, log *s
 	if !ok {
 		return nil, false, usagef("%s: source.format %q: allowed are %s", cfg.Path, s.Format, strings.Join(pcm.FormatNames(), ", "))
 	}
-	c, err := pcm.Dial(ctx, pcm.ConnConfig{Addr: s.Connect, Channels: channels, Format: f, GLF1: s.Framing == config.FramingGLF1,
+	c, err := pcmtcp.Dial(ctx, pcmtcp.ConnConfig{Addr: s.Connect, Channels: channels, Format: f, GLF1: s.Framing == config.FramingGLF1,
 		SampleRate: cfg.SampleRateHz, Logger: log})
 	if err != nil {
 		return nil, false, usagef("%s: source: %v", cfg.Path, err)

@@ -4,10 +4,7 @@ package pcm
 
 import (
 	"bytes"
-	"context"
-	"net"
 	"testing"
-	"time"
 )
 
 // TestReadAllocs: steady-state reading allocates nothing per frame, for
@@ -41,57 +38,5 @@ func TestReadAllocs(t *testing.T) {
 	}
 	if st := g.Stats(); st.Missing == 0 || st.Frames < 100 {
 		t.Errorf("stats %+v: the loop did not exercise gaps", st)
-	}
-}
-
-// TestConnReadAllocs: once connected, reading a TCP sender allocates
-// nothing per call, bare or GLF1-framed (STYLE.md §5); only a redial may.
-func TestConnReadAllocs(t *testing.T) {
-	const nch = 6
-	vals := frames(4096, nch)
-	raw := make([]byte, len(vals)*3)
-	S24LE.Encode(raw, vals)
-	var framed bytes.Buffer
-	w, _ := NewGLF1Writer(&framed, nch, S24LE)
-	_ = w.Write(vals, 256)
-	for _, tc := range []struct {
-		name string
-		glf1 bool
-		b    []byte
-	}{{"raw", false, raw}, {"glf1", true, framed.Bytes()}} {
-		t.Run(tc.name, func(t *testing.T) {
-			done := make(chan struct{})
-			defer close(done)
-			addr := serve(t, func(c net.Conn) { // an endless sender
-				for {
-					select {
-					case <-done:
-						return
-					default:
-					}
-					if _, err := c.Write(tc.b); err != nil {
-						return
-					}
-				}
-			})
-			c, err := Dial(context.Background(), ConnConfig{Addr: addr, Channels: nch, Format: S24LE, GLF1: tc.glf1,
-				SampleRate: 10240, MinBackoff: time.Millisecond})
-			if err != nil {
-				t.Fatal(err)
-			}
-			defer c.Close()
-			dst := make([]float64, 512*nch)
-			for range 8 { // connect and fill the buffers
-				if _, err := c.ReadFrames(dst); err != nil {
-					t.Fatal(err)
-				}
-			}
-			if a := testing.AllocsPerRun(300, func() { _, _ = c.ReadFrames(dst) }); a != 0 {
-				t.Errorf("Conn.ReadFrames (%s): %v allocs per call, want 0", tc.name, a)
-			}
-			if c.Redials() != 0 {
-				t.Errorf("%d redials on a steady link", c.Redials())
-			}
-		})
 	}
 }

@@ -1,4 +1,4 @@
-package pcm
+package pcmtcp
 
 import (
 	"bytes"
@@ -10,6 +10,7 @@ import (
 	"time"
 
 	"github.com/gridloupe/gridloupe/stream"
+	"github.com/gridloupe/gridloupe/stream/pcm"
 )
 
 // serve accepts connections on a loopback listener and hands each to the
@@ -62,7 +63,7 @@ func TestConnGLF1Reconnect(t *testing.T) {
 	const nch = 2
 	vals := frames(300, nch)
 	var buf bytes.Buffer
-	w, _ := NewGLF1Writer(&buf, nch, S16LE)
+	w, _ := pcm.NewGLF1Writer(&buf, nch, pcm.S16LE)
 	_ = w.Write(vals[:100*nch], 50)
 	first := append([]byte(nil), buf.Bytes()...)
 	buf.Reset()
@@ -72,7 +73,7 @@ func TestConnGLF1Reconnect(t *testing.T) {
 	addr := serve(t,
 		func(c net.Conn) { c.Write(first); c.Write(second[:7]) }, // and a cut frame
 		func(c net.Conn) { c.Write(second) })
-	c, err := Dial(context.Background(), ConnConfig{Addr: addr, Channels: nch, Format: S16LE, GLF1: true, SampleRate: 10240,
+	c, err := Dial(context.Background(), ConnConfig{Addr: addr, Channels: nch, Format: pcm.S16LE, GLF1: true, SampleRate: 10240,
 		MinBackoff: time.Millisecond})
 	if err != nil {
 		t.Fatal(err)
@@ -100,7 +101,7 @@ func TestConnRawReconnect(t *testing.T) {
 	const nch = 3
 	vals := frames(40, nch)
 	b := make([]byte, len(vals)*2)
-	S16LE.Encode(b, vals)
+	pcm.S16LE.Encode(b, vals)
 	addr := serve(t, func(c net.Conn) { c.Write(b[:20*nch*2+1]) }, func(c net.Conn) { c.Write(b[20*nch*2:]) })
 	clock := time.Date(2026, 3, 1, 10, 0, 0, 0, time.UTC)
 	calls := 0
@@ -111,7 +112,7 @@ func TestConnRawReconnect(t *testing.T) {
 		}
 		return clock
 	}
-	c, err := Dial(context.Background(), ConnConfig{Addr: addr, Channels: nch, Format: S16LE, SampleRate: 1000,
+	c, err := Dial(context.Background(), ConnConfig{Addr: addr, Channels: nch, Format: pcm.S16LE, SampleRate: 1000,
 		MinBackoff: time.Millisecond, Now: now})
 	if err != nil {
 		t.Fatal(err)
@@ -140,7 +141,7 @@ func TestConnShutdown(t *testing.T) {
 	ln.Close()
 	for _, a := range []string{addr, dead} {
 		ctx, cancel := context.WithCancel(context.Background())
-		c, err := Dial(ctx, ConnConfig{Addr: a, Channels: 1, Format: S16LE, SampleRate: 1000, MinBackoff: 5 * time.Millisecond})
+		c, err := Dial(ctx, ConnConfig{Addr: a, Channels: 1, Format: pcm.S16LE, SampleRate: 1000, MinBackoff: 5 * time.Millisecond})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -170,14 +171,23 @@ func TestConnShutdown(t *testing.T) {
 // reason to redial forever.
 func TestConnFormatMismatch(t *testing.T) {
 	var buf bytes.Buffer
-	w, _ := NewGLF1Writer(&buf, 2, S32LE)
+	w, _ := pcm.NewGLF1Writer(&buf, 2, pcm.S32LE)
 	_ = w.Write(frames(10, 2), 10)
 	addr := serve(t, func(c net.Conn) { c.Write(buf.Bytes()) })
-	c, _ := Dial(context.Background(), ConnConfig{Addr: addr, Channels: 2, Format: S16LE, GLF1: true, SampleRate: 1000})
+	c, _ := Dial(context.Background(), ConnConfig{Addr: addr, Channels: 2, Format: pcm.S16LE, GLF1: true, SampleRate: 1000})
 	defer c.Close()
-	if _, _, err := readConn(t, c, 2, 10); !errors.Is(err, ErrFormat) {
-		t.Fatalf("err %v, want ErrFormat", err)
+	if _, _, err := readConn(t, c, 2, 10); !errors.Is(err, pcm.ErrFormat) {
+		t.Fatalf("err %v, want pcm.ErrFormat", err)
 	}
+}
+
+// frames makes n interleaved frames of nch channels with distinct values.
+func frames(n, nch int) []float64 {
+	v := make([]float64, n*nch)
+	for i := range v {
+		v[i] = float64((i*7919)%20001 - 10000)
+	}
+	return v
 }
 
 func equal(a, b []float64) bool {

@@ -1,4 +1,4 @@
-package pcm
+package pcmtcp
 
 import (
 	"context"
@@ -12,15 +12,16 @@ import (
 	"time"
 
 	"github.com/gridloupe/gridloupe/stream"
+	"github.com/gridloupe/gridloupe/stream/pcm"
 )
 
 // ConnConfig configures a TCP pcm source. Zero values are documented per field.
 type ConnConfig struct {
-	Addr       string  // host:port of the sender; required
-	Channels   int     // channels per frame; required
-	Format     Format  // sample format; required
-	GLF1       bool    // frames are GLF1 (else bare samples)
-	SampleRate float64 // Hz, to size the gap of a raw stream's reconnect; required
+	Addr       string     // host:port of the sender; required
+	Channels   int        // channels per frame; required
+	Format     pcm.Format // sample format; required
+	GLF1       bool       // frames are GLF1 (else bare samples)
+	SampleRate float64    // Hz, to size the gap of a raw stream's reconnect; required
 	// MinBackoff and MaxBackoff bound the wait between dial attempts,
 	// doubling from the first to the second; 0 means 200 ms and 10 s.
 	MinBackoff, MaxBackoff time.Duration
@@ -37,7 +38,7 @@ type ConnConfig struct {
 // least one sample, so the window is flagged). When ctx ends, a blocked
 // read is released by closing the connection and ReadFrames returns io.EOF.
 // A frame format that does not match the configuration is returned as an
-// error wrapping ErrFormat (redialling would not help). Conn is not safe for
+// error wrapping pcm.ErrFormat (redialling would not help). Conn is not safe for
 // concurrent use apart from Close.
 type Conn struct {
 	cfg ConnConfig
@@ -51,8 +52,8 @@ type Conn struct {
 	stop    chan struct{}
 	watcher sync.WaitGroup
 
-	raw      *Raw
-	glf1     *GLF1
+	raw      *pcm.Raw
+	glf1     *pcm.GLF1
 	fr       stream.FrameReader
 	up       bool      // a connection is open for reading
 	everUp   bool      // connected at least once
@@ -68,7 +69,7 @@ type Conn struct {
 // ReadFrames. Close releases it.
 func Dial(ctx context.Context, cfg ConnConfig) (*Conn, error) {
 	if cfg.Addr == "" || !cfg.Format.Valid() || cfg.Channels < 1 || !(cfg.SampleRate > 0) {
-		return nil, fmt.Errorf("%w: connect %q needs an address, channels, a format and a sample rate", ErrFormat, cfg.Addr)
+		return nil, fmt.Errorf("%w: connect %q needs an address, channels, a format and a sample rate", pcm.ErrFormat, cfg.Addr)
 	}
 	if cfg.MinBackoff <= 0 {
 		cfg.MinBackoff = 200 * time.Millisecond
@@ -89,10 +90,10 @@ func Dial(ctx context.Context, cfg ConnConfig) (*Conn, error) {
 	}
 	var err error
 	if cfg.GLF1 {
-		c.glf1, err = NewGLF1(cfg.Addr, nil, cfg.Channels, cfg.Format)
+		c.glf1, err = pcm.NewGLF1(cfg.Addr, nil, cfg.Channels, cfg.Format)
 		c.fr = c.glf1
 	} else {
-		c.raw, err = NewRaw(cfg.Addr, nil, cfg.Channels, cfg.Format)
+		c.raw, err = pcm.NewRaw(cfg.Addr, nil, cfg.Channels, cfg.Format)
 		c.fr = c.raw
 	}
 	if err != nil {
@@ -118,9 +119,9 @@ func Dial(ctx context.Context, cfg ConnConfig) (*Conn, error) {
 func (c *Conn) Redials() uint64 { return c.redials }
 
 // GLF1Stats returns the frame counters of a GLF1 link (zero for bare PCM).
-func (c *Conn) GLF1Stats() GLF1Stats {
+func (c *Conn) GLF1Stats() pcm.GLF1Stats {
 	if c.glf1 == nil {
-		return GLF1Stats{}
+		return pcm.GLF1Stats{}
 	}
 	return c.glf1.Stats()
 }
@@ -164,7 +165,7 @@ func (c *Conn) ReadFrames(dst []float64) (int, error) {
 		if err == nil || asGap(err) {
 			return n, err
 		}
-		if errors.Is(err, ErrFormat) {
+		if errors.Is(err, pcm.ErrFormat) {
 			return n, err
 		}
 		c.lost(err)
