@@ -121,3 +121,25 @@ func TestUnbalanceCurrentCircuitErrors(t *testing.T) {
 		})
 	}
 }
+
+// TestBaselineCircuitBins: a baseline rule on a circuit (pf of pump1,
+// unbalance_current_pct of pump1) with no load channels bins its load by
+// that circuit's phase currents, not the bus's, which has none (README
+// "Alarm rules": the load bins are of the phase currents).
+func TestBaselineCircuitBins(t *testing.T) {
+	s := busSetup(t)
+	for _, m := range []string{MetricPF, MetricUnbalanceI} {
+		t.Run(m, func(t *testing.T) {
+			ru := Rule{Name: "b", Metric: m, Level: metrics.Int10min, Above: m == MetricUnbalanceI, Threshold: 0.05,
+				Target:   Target{Channel: -1, Total: m == MetricPF, Circuit: "pump1"},
+				Baseline: &Baseline{Learn: time.Hour, Base: 128}}
+			e, err := New([]Rule{ru}, s, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if got := e.c[0].binCh; len(got) != 3 || got[0] != 6 || got[1] != 7 || got[2] != 8 {
+				t.Errorf("load bins by channels %v, want pump1's p1a, p1b, p1c [6 7 8]", got)
+			}
+		})
+	}
+}
