@@ -2,41 +2,13 @@ package main
 
 import (
 	"encoding/json"
-	"fmt"
 	"math"
-	"os"
-	"path/filepath"
 	"strings"
 	"testing"
 	"time"
 
 	"github.com/gridloupe/gridloupe/stream/mqtt/mqtttest"
 )
-
-// busBase is the topic base of busDaemon's gateway.
-const busBase = "gridloupe/north-weir-dc2/gw-bus"
-
-// busDaemon writes the shipped several-circuit example
-// (testdata/north-weir-bus.yaml) as a gateway config: the simulator at
-// full speed, a real bbolt store in a fresh folder, the given broker with
-// 3 s telemetry and summaries; edits are editConfig's old/new pairs.
-func busDaemon(t *testing.T, broker string, edits ...string) string {
-	t.Helper()
-	text, err := os.ReadFile(filepath.Join("..", "..", "testdata", "north-weir-bus.yaml"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	dir := t.TempDir()
-	cfg := writeFile(t, dir, "bus.yaml", string(text)+fmt.Sprintf(`gateway: gw-bus
-source: {kind: sim, speed: 0}
-store: {path: %s, commit_every: 1s}
-mqtt: {broker: %q, telemetry: [3s], summary: [3s]}
-`, filepath.Join(dir, "gl.db"), broker))
-	if len(edits) > 0 {
-		editConfig(t, cfg, edits...)
-	}
-	return cfg
-}
 
 // TestUnbalanceCircuitAlarm: under `run` on the shipped bus, an
 // unbalance_current_pct rule that names circuit pump2 reads that circuit's
