@@ -12,6 +12,7 @@ import (
 	mb "github.com/simonvetter/modbus"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/metricstest"
 	"github.com/gridloupe/gridloupe/stream/live"
 )
 
@@ -23,23 +24,6 @@ import (
 // f32Rel is the relative rounding step of IEEE-754 binary32 (24-bit
 // significand: half an ulp is 2^-24 of the value; IEEE 754-2008 §3.6).
 const f32Rel = 1.0 / (1 << 23)
-
-func wyeSetup(t testing.TB) *metrics.Setup {
-	t.Helper()
-	orders := make([]int, 50)
-	for i := range orders {
-		orders[i] = i + 1
-	}
-	s, err := metrics.NewSetup(metrics.Setup{
-		Channels: []metrics.Channel{
-			{Name: "va", Kind: metrics.Voltage, Phase: 'a'}, {Name: "vb", Kind: metrics.Voltage, Phase: 'b'}, {Name: "vc", Kind: metrics.Voltage, Phase: 'c'},
-			{Name: "ia", Kind: metrics.Current, Phase: 'a'}, {Name: "ib", Kind: metrics.Current, Phase: 'b'}, {Name: "ic", Kind: metrics.Current, Phase: 'c'}},
-		Orders: orders, AllOrders: true, Wiring: metrics.Wye, NominalV: 230, ILA: 160})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return s
-}
 
 // northWeir is an invented 3 s record of the North Weir DC-2 cabinet
 // (DESIGN.md scenario) at awkward values.
@@ -72,7 +56,7 @@ type rig struct {
 
 func startServer(t testing.TB, lowFirst bool, alarms []string) *rig {
 	t.Helper()
-	s := wyeSetup(t)
+	s := metricstest.Wye(t)
 	rg := &rig{now: time.Date(2026, 3, 1, 10, 0, 10, 0, time.UTC)}
 	rg.board = live.New(s, func() time.Time { return rg.now }, nil)
 	m, err := NewMap(s, alarms, []string{"main"}, lowFirst)

@@ -13,6 +13,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/energy"
+	"github.com/gridloupe/gridloupe/metrics/metricstest"
 	"github.com/gridloupe/gridloupe/stream/live"
 )
 
@@ -134,7 +135,7 @@ func TestExceptions(t *testing.T) {
 }
 
 func TestMapCSV(t *testing.T) {
-	m, err := NewMap(wyeSetup(t), []string{"pf,low"}, nil, false)
+	m, err := NewMap(metricstest.Wye(t), []string{"pf,low"}, nil, false)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -18,6 +18,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/energy"
+	"github.com/gridloupe/gridloupe/metrics/metricstest"
 	"github.com/gridloupe/gridloupe/stream/live"
 )
 
@@ -35,7 +36,7 @@ type goldenCase struct {
 var goldenCases = []goldenCase{
 	// The site name carries a quote, a backslash and a newline: label
 	// escaping (Prometheus text format 0.0.4, from memory).
-	{"wye", testSetup, "north \"weir\"\\dc2\nb"},
+	{"wye", metricstest.Wye, "north \"weir\"\\dc2\nb"},
 	{"circuits", circuitSetup, "south-lock"},
 }
 

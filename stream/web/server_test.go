@@ -16,29 +16,13 @@ import (
 
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/metrics/energy"
+	"github.com/gridloupe/gridloupe/metrics/metricstest"
 	"github.com/gridloupe/gridloupe/stream/live"
 )
 
 // relTol: values pass through float64 untouched except the % → ratio
 // scaling, one rounding (common practice, no source).
 const relTol = 1e-12
-
-func testSetup(t testing.TB) *metrics.Setup {
-	t.Helper()
-	orders := make([]int, 50)
-	for i := range orders {
-		orders[i] = i + 1
-	}
-	s, err := metrics.NewSetup(metrics.Setup{
-		Channels: []metrics.Channel{
-			{Name: "va", Kind: metrics.Voltage, Phase: 'a'}, {Name: "vb", Kind: metrics.Voltage, Phase: 'b'}, {Name: "vc", Kind: metrics.Voltage, Phase: 'c'},
-			{Name: "ia", Kind: metrics.Current, Phase: 'a'}, {Name: "ib", Kind: metrics.Current, Phase: 'b'}, {Name: "ic", Kind: metrics.Current, Phase: 'c'}},
-		Orders: orders, AllOrders: true, Wiring: metrics.Wye, NominalV: 230, ILA: 160})
-	if err != nil {
-		t.Fatal(err)
-	}
-	return s
-}
 
 // record is an invented North Weir 3 s record (DESIGN.md scenario values).
 func record(s *metrics.Setup) *metrics.Record {
@@ -65,7 +49,7 @@ func record(s *metrics.Setup) *metrics.Record {
 
 func start(t *testing.T) (string, *live.Board, *time.Time) {
 	t.Helper()
-	s := testSetup(t)
+	s := metricstest.Wye(t)
 	now := new(time.Time)
 	*now = time.Date(2026, 3, 1, 10, 0, 10, 0, time.UTC)
 	b := live.New(s, func() time.Time { return *now }, func() live.Health {
