@@ -239,3 +239,14 @@ func (b *Bank) Orders() []int { return append([]int(nil), b.orders...) }
 
 // Len returns the number of orders, the length Phasors wants for dst.
 func (b *Bank) Len() int { return len(b.orders) }
+
+// Kernel names the code path Bank.Write takes on this build and CPU:
+// "AVX2+FMA" (amd64 with both), "NEON" (arm64) or "pure Go" (armv7, other
+// architectures, an amd64 CPU without AVX2 or FMA, the purego build tag).
+// gridloupe version prints it, so a field report says which path ran.
+func Kernel() string {
+	if vecOK {
+		return vecName
+	}
+	return "pure Go"
+}

@@ -10,6 +10,7 @@ import "golang.org/x/sys/cpu"
 const (
 	vecLanes = 4
 	vecMaxK  = 7
+	vecName  = "AVX2+FMA"
 )
 
 // vecOK reports whether this CPU (and OS) runs the kernel. It is set once,

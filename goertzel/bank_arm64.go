@@ -9,6 +9,7 @@ const (
 	vecLanes = 2
 	vecMaxK  = 10
 	vecOK    = true
+	vecName  = "NEON"
 )
 
 // bankNEON advances k NEON vectors of recurrences over x; see bank_arm64.s.

@@ -8,6 +8,7 @@ const (
 	vecLanes = 1
 	vecMaxK  = 1
 	vecOK    = false
+	vecName  = ""
 )
 
 // writeVec is never called here (vecOK is false); it keeps Write the same

@@ -212,3 +212,18 @@ func TestAsmGenerated(t *testing.T) {
 		}
 	}
 }
+
+// TestKernelName: the name Kernel reports follows the path Write takes
+// (bank_*.go build files: vecOK and vecName; common practice, no source).
+func TestKernelName(t *testing.T) {
+	want := "pure Go"
+	if vecOK {
+		want = vecName
+	}
+	if got := Kernel(); got != want || got == "" {
+		t.Errorf("Kernel() = %q, want %q", got, want)
+	}
+	if b, _ := NewBank([]int{1}); b.vec != vecOK {
+		t.Errorf("Bank.vec = %v, want vecOK %v", b.vec, vecOK)
+	}
+}

@@ -12,6 +12,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"github.com/gridloupe/gridloupe/goertzel"
 )
 
 const singleCfg = `site: test-bench
@@ -243,7 +245,10 @@ func TestReplayWAV(t *testing.T) {
 }
 
 func TestVersionAndDefaults(t *testing.T) {
-	if r := runCmd("version"); r.code != 0 || !strings.HasPrefix(r.stdout, "gridloupe ") {
+	// the kernel named is the one goertzel reports for this build and CPU
+	// (README, Commands: gridloupe version)
+	if r := runCmd("version"); r.code != 0 || !strings.HasPrefix(r.stdout, "gridloupe ") ||
+		!strings.HasSuffix(r.stdout, ", Goertzel kernel "+goertzel.Kernel()+"\n") {
 		t.Errorf("version: %+v", r)
 	}
 	r := runCmd("config", "--defaults")

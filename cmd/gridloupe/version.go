@@ -6,6 +6,8 @@ import (
 	"io"
 	"runtime"
 	"runtime/debug"
+
+	"github.com/gridloupe/gridloupe/goertzel"
 )
 
 // version is set at build time with -ldflags "-X main.version=v1.2.3";
@@ -15,7 +17,7 @@ var version = ""
 func cmdVersion(args []string, stdout io.Writer) error {
 	fs := flag.NewFlagSet("version", flag.ContinueOnError)
 	fs.Usage = func() {
-		fmt.Fprintln(fs.Output(), "Usage: gridloupe version\n\nPrints the version, Go version and target platform.")
+		fmt.Fprintln(fs.Output(), "Usage: gridloupe version\n\nPrints the version, Go version, target platform and the Goertzel\nkernel this CPU runs (AVX2+FMA, NEON or pure Go).")
 	}
 	if err := parseFlags(fs, args, stdout); err != nil {
 		return err
@@ -38,6 +40,6 @@ func cmdVersion(args []string, stdout io.Writer) error {
 	if rev != "" {
 		fmt.Fprintf(stdout, " (%s)", rev)
 	}
-	fmt.Fprintf(stdout, " %s %s/%s\n", runtime.Version(), runtime.GOOS, runtime.GOARCH)
+	fmt.Fprintf(stdout, " %s %s/%s, Goertzel kernel %s\n", runtime.Version(), runtime.GOOS, runtime.GOARCH, goertzel.Kernel())
 	return nil
 }
