@@ -1,5 +1,3 @@
-// Command gridloupe is a streaming power-quality analyzer for motor-drive
-// cabinets. See `gridloupe --help` and the README.
 package main
 
 import (
