@@ -515,7 +515,7 @@ func startWatchdog(ctx context.Context, sd sdnotify.Notifier, gw *gateway.Gatewa
 func logStopping(gw *gateway.Gateway, log *slog.Logger) {
 	st := gw.Stats()
 	log.Info("gateway stopping", "windows", st.Windows, "aggregates", st.Aggregates, "stored", st.Stored,
-		"alarm_transitions", st.Transitions, "queued", st.Queued)
+		"alarm_transitions", st.Transitions, "queued", st.Queued, "dropped", st.Dropped, "events_lost", st.EventsLost)
 }
 
 // drainOutbox gives a connected publisher up to drainTimeout to send what
