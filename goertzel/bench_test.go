@@ -46,31 +46,25 @@ func BenchmarkWindow(b *testing.B) {
 	for _, set := range sets {
 		dst := make([]complex128, len(set.orders))
 
-		b.Run(set.name+"/bank", func(b *testing.B) {
-			// The vector kernels where this build and CPU have them.
-			bank := mustBank(b, set.orders)
-			b.ReportAllocs()
-			for b.Loop() {
-				bank.Reset(benchW)
-				bank.Write(x)
-				bank.Phasors(dst)
-			}
-			reportPerSample(b, benchN)
-			checkFund(b, dst[0])
-		})
-
-		b.Run(set.name+"/bankgo", func(b *testing.B) {
-			// The pure-Go loops, as armv7 and -tags purego run them.
-			bank := goBank(b, set.orders)
-			b.ReportAllocs()
-			for b.Loop() {
-				bank.Reset(benchW)
-				bank.Write(x)
-				bank.Phasors(dst)
-			}
-			reportPerSample(b, benchN)
-			checkFund(b, dst[0])
-		})
+		for _, path := range []struct {
+			name string
+			bank func(testing.TB, []int) *Bank
+		}{
+			{"bank", mustBank}, // the vector kernels where this build and CPU have them
+			{"bankgo", goBank}, // the pure-Go loops, as armv7 and -tags purego run them
+		} {
+			b.Run(set.name+"/"+path.name, func(b *testing.B) {
+				bank := path.bank(b, set.orders)
+				b.ReportAllocs()
+				for b.Loop() {
+					bank.Reset(benchW)
+					bank.Write(x)
+					bank.Phasors(dst)
+				}
+				reportPerSample(b, benchN)
+				checkFund(b, dst[0])
+			})
+		}
 
 		b.Run(set.name+"/naive", func(b *testing.B) {
 			// One order after another: the recurrences cannot overlap.

@@ -204,3 +204,41 @@ func TestCrestFactorOfSine(t *testing.T) {
 		}
 	}
 }
+
+// TestSumsIndependentOfReads: the window's sums (Σx, Σx², Σv·i) split their
+// samples by index since the start, not by position in a read, so the RMS,
+// DC and P of each window are the same bit for bit however the source cuts
+// its reads (Pipeline.odd's doc). Odd read lengths put segments on odd
+// indices.
+func TestSumsIndependentOfReads(t *testing.T) {
+	t.Parallel()
+	const fs, seconds, f = 6400.0, 1.0, 50.02 // src: an awkward off-nominal frequency, common practice, no source
+	chans := []synthChan{{tones: []tone{{1, 230, 0}, {5, 11.5, 30}}}, {tones: []tone{{1, 40, -25}, {7, 6, 80}}}}
+	s := setupOf(t, metrics.SinglePhase, 230, 0, false, []int{1, 5, 7},
+		metrics.Channel{Name: "v", Kind: metrics.Voltage, Phase: 'a'}, metrics.Channel{Name: "i", Kind: metrics.Current, Phase: 'a'})
+	cfg := Config{Setup: s, SampleRate: fs, NominalHz: 50, BlockFrames: 256}
+	ref, _ := runPipeline(t, cfg, newSynth(fs, constFreq(f), seconds, chans...))
+	if len(ref) < 5 || len(ref[0].Phases) != 1 {
+		t.Fatalf("reference run: %d windows", len(ref))
+	}
+	for _, per := range []int{1, 97, 255} {
+		got, _ := runPipeline(t, cfg, &misbehaving{src: newSynth(fs, constFreq(f), seconds, chans...), nch: 2, perCall: per})
+		if len(got) != len(ref) {
+			t.Fatalf("reads of %d frames: %d windows, want %d", per, len(got), len(ref))
+		}
+		for i := range ref {
+			g, w := &got[i], &ref[i]
+			// src: Pipeline.odd's doc: the same result however a source cuts its reads
+			for c := range w.Channels {
+				if math.Float64bits(g.Channels[c].RMS) != math.Float64bits(w.Channels[c].RMS) ||
+					math.Float64bits(g.Channels[c].DC) != math.Float64bits(w.Channels[c].DC) {
+					t.Errorf("reads of %d frames, window %d, channel %d: rms %v dc %v, want %v %v", per, i, c,
+						g.Channels[c].RMS, g.Channels[c].DC, w.Channels[c].RMS, w.Channels[c].DC)
+				}
+			}
+			if math.Float64bits(g.Phases[0].P) != math.Float64bits(w.Phases[0].P) {
+				t.Errorf("reads of %d frames, window %d: p %v, want %v", per, i, g.Phases[0].P, w.Phases[0].P)
+			}
+		}
+	}
+}

@@ -16,25 +16,15 @@ import (
 	"github.com/gridloupe/gridloupe/stream"
 )
 
-// dipSource is va, ia at 50 Hz, 6.4 kHz, with va at 60 % from 1.0 to 1.1 s.
-type dipSource struct{ n, limit int }
-
-func (s *dipSource) ReadFrames(dst []float64) (int, error) {
-	k := 0
-	for ; k < len(dst)/2 && s.n < s.limit; k++ {
-		t := float64(s.n) / 6400
-		a := 230.0
+// dipSource is va, ia at 50 Hz, 6.4 kHz, with va at 60 % from 1.0 to 1.1 s
+// for limit samples.
+func dipSource(limit int) *levelSource {
+	return &levelSource{limit: limit, a: func(t float64) float64 {
 		if t >= 1.0 && t < 1.1 {
-			a = 138
+			return 138
 		}
-		dst[2*k] = math.Sqrt2 * a * math.Cos(2*math.Pi*50*t)
-		dst[2*k+1] = math.Sqrt2 * 100 * math.Cos(2*math.Pi*50*t-0.3)
-		s.n++
-	}
-	if k == 0 {
-		return 0, io.EOF
-	}
-	return k, nil
+		return 230
+	}}
 }
 
 // TestGatewayStoresEvents: under the gateway, a dip is stored with its
@@ -46,7 +36,7 @@ func TestGatewayStoresEvents(t *testing.T) {
 	var seen []events.Record
 	g, err := New(Config{
 		Pipeline: stream.Config{Setup: r.setup, SampleRate: 6400, NominalHz: 50, Base: t0, Events: &ec},
-		Source:   &dipSource{limit: 3 * 6400}, Store: r.db, Base: "gridloupe/test-site/gw1", Site: "test-site", Gateway: "gw1",
+		Source:   dipSource(3 * 6400), Store: r.db, Base: "gridloupe/test-site/gw1", Site: "test-site", Gateway: "gw1",
 		CommitEvery: 20 * time.Millisecond, OnEvent: func(e events.Record) { seen = append(seen, e) }})
 	if err != nil {
 		t.Fatal(err)
