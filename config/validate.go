@@ -625,24 +625,13 @@ func (v *validator) eventAlarm(p string, a *Alarm) *Error {
 		switch {
 		case i < 0:
 			return v.fail(p+".channel", "rule %q: no channel is named %q; allowed: a voltage channel (%s), or leave channel out to watch every one",
-				a.Name, a.Channel, strings.Join(v.c.voltageNames(), ", "))
+				a.Name, a.Channel, v.voltageNames())
 		case v.c.Channels[i].Kind != KindVoltage:
 			return v.fail(p+".channel", "rule %q: %q is a %s channel; voltage events are on voltage channels (%s)",
-				a.Name, a.Channel, v.c.Channels[i].Kind, strings.Join(v.c.voltageNames(), ", "))
+				a.Name, a.Channel, v.c.Channels[i].Kind, v.voltageNames())
 		}
 	}
 	return nil
-}
-
-// voltageNames lists the voltage channels' names.
-func (c *Config) voltageNames() []string {
-	var out []string
-	for _, ch := range c.Channels {
-		if ch.Kind == KindVoltage {
-			out = append(out, ch.Name)
-		}
-	}
-	return out
 }
 
 func (v *validator) alarm(p string, a *Alarm) *Error {

@@ -170,7 +170,7 @@ func (db *DB) deleteStoredEvents(kind storedKind, limit int, ok func(k, v []byte
 		for k, v := c.First(); k != nil && n < limit && ok(k, v); k, v = c.First() {
 			if kind == storedEvents && wb != nil {
 				if w := wb.Get(k); w != nil {
-					ok(k, w)
+					ok(k, w) // counts the waveform's bytes as freed; it goes with its event whatever ok says
 					if err := wb.Delete(k); err != nil {
 						return err
 					}

@@ -140,15 +140,15 @@ func TestEventLookupIsKeyed(t *testing.T) {
 	for _, i := range []int{0, 1, 2, n / 2, n - 2, n - 1} {
 		r, w, err := db.Event(ids[i])
 		if err != nil || r.ID != ids[i] || r.DurationS != float64(i) || len(w) != len(wave) {
-			t.Fatalf("Event(%s): %+v, %d bytes, %v", ids[i], r, len(w), err)
+			t.Fatalf("Event(%s): %+v, %d bytes, %v; want the record put under that id, with its waveform (src: DB.Event doc)", ids[i], r, len(w), err)
 		}
 	}
 	if r, _, err := db.Event(twin.ID); r.DurationS != -1 || !errors.Is(err, ErrNoWaveform) {
-		t.Fatalf("twin: %+v %v, want it, without a waveform", r, err)
+		t.Fatalf("twin: %+v %v, want it, without a waveform (src: DB.Event doc, ErrNoWaveform; metrics/events.ID names the start to the microsecond)", r, err)
 	}
 	for _, id := range []string{"dip-nope", "sag-20260301T100000.123456Z", events.ID(events.Dip, base.Add(time.Hour*1000))} {
 		if _, _, err := db.Event(id); !errors.Is(err, ErrNoEvent) {
-			t.Fatalf("Event(%q): %v, want ErrNoEvent", id, err)
+			t.Fatalf("Event(%q): %v, want ErrNoEvent (src: DB.Event doc; a malformed id, an unknown kind, no event then)", id, err)
 		}
 	}
 }
@@ -249,23 +249,23 @@ func TestTrimTakesStoredEvents(t *testing.T) {
 	trimBy(int64(nev/2) * int64(len(wave)))
 	evs, waves := counts()
 	if evs != nev || waves == nev || waves == 0 || db.Stats().Records[metrics.Int3s] != 300 {
-		t.Fatalf("after a small trim: %d events, %d waveforms, %d 3 s records; want all events and records, some waveforms gone",
+		t.Fatalf("after a small trim: %d events, %d waveforms, %d 3 s records; want all events and records, some waveforms gone (src: README \"MQTT topics and payloads\", the order of sacrifice)",
 			evs, waves, db.Stats().Records[metrics.Int3s])
 	}
 	if got := db.Losses()[ClassEventWaveform]; got != uint64(nev-waves) {
-		t.Fatalf("event_waveform losses %d, want %d", got, nev-waves)
+		t.Fatalf("event_waveform losses %d, want %d, one per waveform deleted (src: README \"MQTT topics and payloads\": every record or message given up is counted)", got, nev-waves)
 	}
 	if _, _, err := db.Event(events.ID(events.Dip, t0)); !errors.Is(err, ErrNoWaveform) {
-		t.Fatalf("oldest event after the trim: %v, want ErrNoWaveform", err)
+		t.Fatalf("oldest event after the trim: %v, want ErrNoWaveform (src: README \"MQTT topics and payloads\": the oldest stored captures go first)", err)
 	}
 	// 2. Enough to take every waveform and then some 3 s records, not events.
 	trimBy(int64(waves)*int64(len(wave)) + 20_000)
 	evs, waves = counts()
 	if evs != nev || waves != 0 || db.Stats().Records[metrics.Int3s] == 300 {
-		t.Fatalf("after a larger trim: %d events, %d waveforms, %d 3 s records", evs, waves, db.Stats().Records[metrics.Int3s])
+		t.Fatalf("after a larger trim: %d events, %d waveforms, %d 3 s records; want all events, no waveform, fewer records (src: README \"MQTT topics and payloads\", the order of sacrifice)", evs, waves, db.Stats().Records[metrics.Int3s])
 	}
 	if got := db.Losses()[ClassEventWaveform]; got != nev {
-		t.Fatalf("event_waveform losses %d, want %d", got, nev)
+		t.Fatalf("event_waveform losses %d, want %d, every waveform (src: README \"MQTT topics and payloads\": every record or message given up is counted)", got, nev)
 	}
 	// 3. Past every 3 s record: the oldest events go, counted.
 	for range 200 {
@@ -275,10 +275,10 @@ func TestTrimTakesStoredEvents(t *testing.T) {
 		trimBy(20_000)
 	}
 	if db.Stats().Records[metrics.Int3s] != 0 || evs == nev {
-		t.Fatalf("after trimming everything: %d 3 s records, %d events", db.Stats().Records[metrics.Int3s], evs)
+		t.Fatalf("after trimming everything: %d 3 s records, %d events; want no record and fewer events (src: README \"MQTT topics and payloads\", the order of sacrifice)", db.Stats().Records[metrics.Int3s], evs)
 	}
 	if got := db.Losses()[ClassEvent]; got != uint64(nev-evs) {
-		t.Fatalf("event losses %d, want %d", got, nev-evs)
+		t.Fatalf("event losses %d, want %d, one per event deleted (src: README \"MQTT topics and payloads\": every record or message given up is counted)", got, nev-evs)
 	}
 	checkBolt(t, db)
 }

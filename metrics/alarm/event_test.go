@@ -294,13 +294,7 @@ func TestEventRuleValidation(t *testing.T) {
 	}
 }
 
-// FuzzEventRule feeds arbitrary sequences of dips, swells, open and ended
-// interruptions and 3 s records to an event rule on dips and interruptions
-// and checks the Evaluator.Event doc: transitions alternate starting with
-// a raise; a raise comes from a matching event, a clear from a record, never
-// while an open event holds the rule, and never before OffDelay past the
-// end of the last event that raised or held it; and a raised rule with no
-// open event clears once records pass that time.
+// later returns the later of a and b.
 func later(a, b time.Time) time.Time {
 	if b.After(a) {
 		return b
@@ -308,6 +302,13 @@ func later(a, b time.Time) time.Time {
 	return a
 }
 
+// FuzzEventRule feeds arbitrary sequences of dips, swells, open and ended
+// interruptions and 3 s records to an event rule on dips and interruptions
+// and checks the Evaluator.Event doc: transitions alternate starting with
+// a raise; a raise comes from a matching event, a clear from a record, never
+// while an open event holds the rule, and never before OffDelay past the
+// end of the last event that raised or held it; and a raised rule with no
+// open event clears once records pass that time.
 func FuzzEventRule(f *testing.F) {
 	f.Add([]byte{1, 0, 0, 0, 2, 0, 0, 3, 0, 0, 0})
 	f.Add([]byte{2, 0, 1, 5, 3, 0, 0, 0, 0, 0, 0, 0, 0})
