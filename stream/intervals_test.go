@@ -325,6 +325,18 @@ func TestIntervalsTwoHour(t *testing.T) {
 			src: "DESIGN \"Time\": a restart mid-interval gives a partial value; the value closes with the last slot, not the twelfth record (common practice, no source)",
 		},
 		{
+			name: "a 10 min value missing: partial though seen from its start", base: day.Add(50 * time.Minute), n: 7 * per10,
+			seed: []*metrics.Record{
+				ivTenMin(s, day, per10, false), ivTenMin(s, day.Add(10*time.Minute), per10, false),
+				ivTenMin(s, day.Add(20*time.Minute), per10, false), ivTenMin(s, day.Add(30*time.Minute), per10, false),
+				// 00:40 never stored (the gateway was off), the run starts on the 00:50 tick
+			},
+			want: []ivLevel{
+				{metrics.Int2h, day, 11 * per10, true}, // 4 stored + 7 run values: eleven of twelve
+			},
+			src: "DESIGN \"Time\" (a value holding less than its full length is partial; 2 h from the twelve 10 min values) and the Intervals doc (a 2 h value missing any of its twelve 10 min values)",
+		},
+		{
 			name: "restart in the last slot of a stored interval", base: day.Add(116 * time.Minute), n: 4*per10/10 + per10 + 10, skip: true,
 			want: []ivLevel{
 				{metrics.Int2h, day.Add(2 * time.Hour), per10 + 10, true}, // open at Flush
