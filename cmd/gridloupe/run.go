@@ -139,9 +139,6 @@ func newLogger(w io.Writer, format string, lvl slog.Level) *slog.Logger {
 // Daemon wiring constants: the figures runDaemon's steps would otherwise
 // carry as bare numbers.
 const (
-	// defaultEmbeddedAddr is where the embedded broker listens when
-	// mqtt.listen is empty: loopback, the standard MQTT port.
-	defaultEmbeddedAddr = "127.0.0.1:1883"
 	// recordsShareTenths is the part of store.max_size_mb, in tenths, the
 	// stored records may fill before run warns that retention will be
 	// trimmed; the rest is left to the outbox classes (store: classShare).
@@ -367,7 +364,6 @@ func startMQTT(cfg *config.Config, o daemonOptions, db *store.DB, storeNotice st
 		// its own: no certificate to match, the only publisher under base.
 		url, pubTLS = b.GatewayURL(), nil
 		user, pw = b.GatewayLogin()
-		log.Info("embedded MQTT broker listening", "addr", b.Addr())
 	}
 	pub, err := mqtt.New(mqtt.Config{Broker: url, ClientID: cfg.MQTT.ClientID, Username: user,
 		Password: pw, TLS: pubTLS, Base: m.base, Outbox: outbox.Store{DB: db}, Logger: log, Now: now})
@@ -515,7 +511,7 @@ func startWatchdog(ctx context.Context, sd sdnotify.Notifier, gw *gateway.Gatewa
 func logStopping(gw *gateway.Gateway, log *slog.Logger) {
 	st := gw.Stats()
 	log.Info("gateway stopping", "windows", st.Windows, "aggregates", st.Aggregates, "stored", st.Stored,
-		"alarm_transitions", st.Transitions, "queued", st.Queued)
+		"alarm_transitions", st.Transitions, "queued", st.Queued, "dropped", st.Dropped, "events_lost", st.EventsLost)
 }
 
 // drainOutbox gives a connected publisher up to drainTimeout to send what
@@ -555,7 +551,7 @@ func embeddedAddr(o daemonOptions, cfg *config.Config) string {
 	if cfg.MQTT.Listen != "" {
 		return cfg.MQTT.Listen
 	}
-	return defaultEmbeddedAddr
+	return broker.DefaultAddr
 }
 
 func mqttTLS(cfg *config.Config) (*tls.Config, error) {

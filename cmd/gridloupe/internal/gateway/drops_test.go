@@ -3,12 +3,15 @@ package gateway
 import (
 	"context"
 	"errors"
+	"io"
+	"math"
 	"path/filepath"
 	"sync"
 	"testing"
 	"time"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/metrics/events"
 	"github.com/gridloupe/gridloupe/stream"
 )
 
@@ -68,5 +71,64 @@ func TestLiveDropsAreGaps(t *testing.T) {
 	}
 	if gaps == 0 {
 		t.Error("no 3 s record after a dropped one: the test did not exercise the drop path")
+	}
+}
+
+// dipTrain is va, ia at 50 Hz, 6.4 kHz, with va at 60 % for 100 ms every
+// 500 ms from 1 s on: a dip each (closed form: (seconds-1)/0.5 of them).
+type dipTrain struct{ n, limit int }
+
+func (s *dipTrain) ReadFrames(dst []float64) (int, error) {
+	k := 0
+	for ; k < len(dst)/2 && s.n < s.limit; k++ {
+		t := float64(s.n) / 6400
+		a := 230.0
+		if t >= 1 && math.Mod(t-1, 0.5) < 0.1 {
+			a = 138
+		}
+		dst[2*k] = math.Sqrt2 * a * math.Cos(2*math.Pi*50*t)
+		dst[2*k+1] = math.Sqrt2 * 100 * math.Cos(2*math.Pi*50*t-0.3)
+		s.n++
+	}
+	if k == 0 {
+		return 0, io.EOF
+	}
+	return k, nil
+}
+
+// TestLiveEventsLostAreCounted: a live source whose store goroutine is
+// stalled drops voltage events rather than block, and counts each one in
+// Stats.EventsLost: stored and lost together are every dip the source made.
+func TestLiveEventsLostAreCounted(t *testing.T) {
+	r := newRig(t, filepath.Join(t.TempDir(), "g.db"), 1)
+	ec := events.DefaultConfig()
+	const dips = 20 // dipTrain over 11 s: (11-1)/0.5
+	var g *Gateway
+	first := true
+	onEvent := func(events.Record) {
+		if first {
+			first = false
+			deadline := time.Now().Add(10 * time.Second)
+			for g.Stats().EventsLost == 0 && time.Now().Before(deadline) {
+				time.Sleep(time.Millisecond)
+			}
+		}
+	}
+	var err error
+	g, err = New(Config{Pipeline: stream.Config{Setup: r.setup, SampleRate: 6400, NominalHz: 50, Base: t0, Events: &ec},
+		Source: &dipTrain{limit: 11 * 6400}, Live: true, Store: r.db, CommitEvery: 20 * time.Millisecond, OnEvent: onEvent})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := g.Run(context.Background()); err != nil {
+		t.Fatal(err)
+	}
+	stored := 0
+	if err := r.db.Events(time.Time{}, time.Time{}, func(events.Record) error { stored++; return nil }); err != nil {
+		t.Fatal(err)
+	}
+	lost := g.Stats().EventsLost
+	if lost == 0 || stored+int(lost) != dips {
+		t.Errorf("%d events stored, %d counted lost; want some lost and %d in all", stored, lost, dips)
 	}
 }

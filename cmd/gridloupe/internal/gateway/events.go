@@ -169,11 +169,7 @@ func (g *Gateway) eventThreshold(k events.Kind) float64 {
 // eventPayload is the …/event summary: site and gateway, then the event
 // record's keys (DESIGN "Voltage events"); the waveform stays in the store.
 func eventPayload(site, gw string, r *events.Record) []byte {
-	b := []byte(`{"site":`)
-	b = encode.AppendString(b, site)
-	b = append(b, `,"gateway":`...)
-	b = encode.AppendString(b, gw)
-	b = append(b, ',')
+	b := append(appendHead(nil, site, gw), ',')
 	ev := encode.AppendEvent(nil, r)
 	return append(b, ev[1:]...)
 }

@@ -71,7 +71,10 @@ func TestGatewayStoresEvents(t *testing.T) {
 	for _, m := range msgs {
 		if m.Topic == "gridloupe/test-site/gw1/event" {
 			n++
-			if m.QoS != 1 || m.Seq != got[0].Seq || !strings.Contains(string(m.Payload), `"event":"dip"`) || strings.Contains(string(m.Payload), "samples\":[") {
+			// DESIGN "Voltage events": site and gateway first, then the
+			// event record's keys, no samples
+			if m.QoS != 1 || m.Seq != got[0].Seq || !strings.HasPrefix(string(m.Payload), `{"site":"test-site","gateway":"gw1",`) ||
+				!strings.Contains(string(m.Payload), `"event":"dip"`) || strings.Contains(string(m.Payload), "samples\":[") {
 				t.Fatalf("event message %+v %s", m, m.Payload)
 			}
 		}

@@ -102,6 +102,7 @@ type Stats struct {
 	Transitions uint64
 	Queued      uint64 // messages queued in the outbox
 	StoreErrors uint64
+	EventsLost  uint64 // voltage events dropped by a live source's full event queue
 }
 
 // Health is what the health payload reports.
@@ -189,7 +190,8 @@ func New(cfg Config) (*Gateway, error) {
 // Stats returns the counters.
 func (g *Gateway) Stats() Stats {
 	return Stats{Windows: g.windows.Load(), Aggregates: g.aggregates.Load(), Stored: g.stored.Load(),
-		Dropped: g.dropped.Load(), Transitions: g.transitions.Load(), Queued: g.queued.Load(), StoreErrors: g.storeErrs.Load()}
+		Dropped: g.dropped.Load(), Transitions: g.transitions.Load(), Queued: g.queued.Load(), StoreErrors: g.storeErrs.Load(),
+		EventsLost: g.eventsLost.Load()}
 }
 
 // Run measures until the source ends or ctx is cancelled, then drains the

@@ -32,13 +32,11 @@ func telemetryPayload(dst []byte, site, gw string, s *metrics.Setup, r *metrics.
 	return dst
 }
 
-func appendNum(dst []byte, v float64) []byte { return encode.AppendNumber(dst, v) }
-
 // alarmPayload describes one transition.
 func alarmPayload(site, gw string, t alarm.Transition, channel string) []byte {
 	b := appendHead(nil, site, gw)
 	b = append(b, `,"time":"`...)
-	b = append(b, encode.FormatTime(t.Time)...)
+	b = encode.AppendTime(b, t.Time)
 	b = append(b, `","alarm":`...)
 	b = encode.AppendString(b, t.Rule)
 	state := "cleared"
@@ -59,9 +57,9 @@ func alarmPayload(site, gw string, t alarm.Transition, channel string) []byte {
 		b = append(b, '"')
 	}
 	b = append(b, `,"value":`...)
-	b = appendNum(b, t.Value)
+	b = encode.AppendNumber(b, t.Value)
 	b = append(b, `,"threshold":`...)
-	b = appendNum(b, t.Threshold)
+	b = encode.AppendNumber(b, t.Threshold)
 	b = append(b, `,"severity":`...)
 	b = encode.AppendString(b, t.Severity)
 	b = append(b, `,"text":`...)
@@ -80,9 +78,9 @@ func appendAlarmEvent(b []byte, e *alarm.Event) []byte {
 	b = append(b, `,"kind":"`...)
 	b = append(b, e.Kind.String()...)
 	b = append(b, `","start":"`...)
-	b = append(b, encode.FormatTime(e.Start)...)
+	b = encode.AppendTime(b, e.Start)
 	b = append(b, `","duration_s":`...)
-	b = appendNum(b, e.DurationS)
+	b = encode.AppendNumber(b, e.DurationS)
 	b = append(b, `,"channels":[`...)
 	for i, c := range e.Channels {
 		if i > 0 {
@@ -91,9 +89,9 @@ func appendAlarmEvent(b []byte, e *alarm.Event) []byte {
 		b = encode.AppendString(b, c)
 	}
 	b = append(b, `],"extreme_v":`...)
-	b = appendNum(b, e.ExtremeV)
+	b = encode.AppendNumber(b, e.ExtremeV)
 	b = append(b, `,"extreme_pct":`...)
-	b = appendNum(b, e.ExtremePct)
+	b = encode.AppendNumber(b, e.ExtremePct)
 	if e.Open {
 		b = append(b, `,"ongoing":true`...)
 	}
@@ -109,7 +107,7 @@ func appendAlarmEvent(b []byte, e *alarm.Event) []byte {
 func healthPayload(site, gw string, now time.Time, h Health) []byte {
 	b := appendHead(nil, site, gw)
 	b = append(b, `,"time":"`...)
-	b = append(b, encode.FormatTime(now)...)
+	b = encode.AppendTime(b, now)
 	b = append(b, `","store_bytes":`...)
 	b = strconv.AppendInt(b, h.StoreBytes, 10)
 	b = append(b, `,"records_stored":`...)
