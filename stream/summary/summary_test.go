@@ -263,8 +263,8 @@ func TestSummaryCircuitFigures(t *testing.T) {
 	if b := string(FromCircuits(s, r, []int{2, 0}).AppendJSON(nil, "x", "y")); !strings.Contains(b, `"circuits":{"pump2":`) || !strings.Contains(b, `},"incomer":`) || strings.Contains(b, "pump1") {
 		t.Errorf("picked pump2, incomer: %s", b)
 	}
-	// a pick outside the circuits is skipped, never a panic (COMMON rules:
-	// bad input never panics; common practice, no source)
+	// a pick outside the circuits is skipped, never a panic (STYLE.md:
+	// panic only on programmer error in DSP calls; common practice, no source)
 	if b := string(FromCircuits(s, r, []int{-1, 3, 1}).AppendJSON(nil, "x", "y")); !strings.Contains(b, `"circuits":{"pump1":`) || strings.Contains(b, "incomer") || strings.Contains(b, "pump2") {
 		t.Errorf("picked -1, 3 (no such circuits), pump1: %s", b)
 	}
