@@ -73,11 +73,15 @@ func copyCase(tb testing.TB) (*Setup, *Record) {
 
 // TestRecordCopyTo: CopyTo gives a deep copy, bit for bit (nulls included),
 // the circuit's record too, into a fresh record and into one of another
-// shape; changing the source afterwards leaves the copy alone.
+// shape, and by Clone; changing the source afterwards leaves the copy alone.
 func TestRecordCopyTo(t *testing.T) {
 	s, r := copyCase(t)
-	for name, dst := range map[string]*Record{"same shape": NewRecord(s), "empty": {}} {
-		r.CopyTo(dst)
+	for name, dst := range map[string]*Record{"same shape": NewRecord(s), "empty": {}, "Clone": nil} {
+		if dst == nil {
+			dst = r.Clone()
+		} else {
+			r.CopyTo(dst)
+		}
 		if ok, where := sameBits(reflect.ValueOf(*r), reflect.ValueOf(*dst), "Record"); !ok {
 			t.Fatalf("%s: copy differs at %s", name, where)
 		}

@@ -239,25 +239,9 @@ type Record struct {
 // Clone returns a deep copy of r, for handing a record to another
 // goroutine or keeping it past the producer's next window.
 func (r *Record) Clone() *Record {
-	c := *r
-	c.Channels = append([]ChannelValues(nil), r.Channels...)
-	for i := range c.Channels {
-		c.Channels[i].H = append([]Harmonic(nil), r.Channels[i].H...)
-	}
-	c.Phases = append([]PhaseValues(nil), r.Phases...)
-	c.SeqV = append([]Seq(nil), r.SeqV...)
-	c.SeqI = append([]Seq(nil), r.SeqI...)
-	c.cin = nil
-	if r.Circuits != nil {
-		c.Circuits = make([]CircuitValues, len(r.Circuits))
-		for k, cv := range r.Circuits {
-			c.Circuits[k] = CircuitValues{Name: cv.Name}
-			if cv.Rec != nil {
-				c.Circuits[k].Rec = cv.Rec.Clone()
-			}
-		}
-	}
-	return &c
+	c := &Record{}
+	r.CopyTo(c)
+	return c
 }
 
 // CopyTo makes dst a deep copy of r, reusing dst's slices where their
