@@ -123,7 +123,9 @@ func (db *DB) capEvents(eb, wb *bolt.Bucket, ot *outboxTx) error {
 		}
 		ot.losses[ClassEventWaveform]++
 	}
-	if n := eb.Stats().KeyN; n > maxEvents {
+	// Stats counts the committed pages only: the record PutEvent has just
+	// put (always a new key) is not in it yet.
+	if n := eb.Stats().KeyN + 1; n > maxEvents {
 		ec := eb.Cursor()
 		for k, _ := ec.First(); k != nil && n > maxEvents; k, _ = ec.First() {
 			if err := ec.Delete(); err != nil {

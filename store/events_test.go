@@ -282,3 +282,82 @@ func TestTrimTakesStoredEvents(t *testing.T) {
 	}
 	checkBolt(t, db)
 }
+
+// TestEventCapsCountWaveforms: an event record given up while its waveform
+// is still kept takes the waveform with it, and both are counted: by the
+// 20,000-record cap (README "Voltage events": "the oldest record goes,
+// counted under event (its waveform, if still kept, under
+// event_waveform)") and by the whole-file cap's stored events (README "MQTT
+// topics and payloads": the oldest stored records with any capture still
+// kept; every record or message given up is counted).
+func TestEventCapsCountWaveforms(t *testing.T) {
+	t.Parallel()
+	meta, at := testWave(64)
+	wave := EncodeWaveform(meta, 64, at)
+	put := func(db *DB, start time.Time, w []byte) {
+		t.Helper()
+		r := events.Record{Kind: events.Dip, ID: events.ID(events.Dip, start), Start: start}
+		if _, err := db.PutEvent(r, w, nil); err != nil {
+			t.Fatal(err)
+		}
+	}
+	counts := func(db *DB) (evs, waves int) {
+		_ = db.bdb.View(func(tx *bolt.Tx) error {
+			evs, waves = tx.Bucket(bktEvents).Stats().KeyN, tx.Bucket(bktWaveforms).Stats().KeyN
+			return nil
+		})
+		return
+	}
+	t.Run("max events", func(t *testing.T) {
+		db := openTest(t, Options{})
+		put(db, t0, wave)
+		put(db, t0.Add(time.Second), wave)
+		// fill up to maxEvents directly, in one transaction, between them and the last
+		err := db.bdb.Update(func(tx *bolt.Tx) error {
+			eb := tx.Bucket(bktEvents)
+			for i := range maxEvents - 1 {
+				start := t0.Add(time.Minute + time.Duration(i)*time.Second)
+				v, err := encodeEvent(&events.Record{Kind: events.Swell, ID: events.ID(events.Swell, start), Start: start})
+				if err != nil {
+					return err
+				}
+				if err := eb.Put(aggKey(nil, start, uint64(10+i)), v); err != nil {
+					return err
+				}
+			}
+			return nil
+		})
+		if err != nil {
+			t.Fatal(err)
+		}
+		put(db, t0.Add(48*time.Hour), nil) // maxEvents + 2 records: the two oldest go
+		evs, waves := counts(db)
+		l := db.Losses()
+		if evs != maxEvents || waves != 0 || l[ClassEvent] != 2 || l[ClassEventWaveform] != 2 {
+			t.Fatalf("%d events, %d waveforms, losses event %d, event_waveform %d; want %d, 0, 2, 2 (src: README \"Voltage events\")",
+				evs, waves, l[ClassEvent], l[ClassEventWaveform], maxEvents)
+		}
+	})
+	t.Run("size cap", func(t *testing.T) {
+		db := openTest(t, Options{})
+		for i := range 3 {
+			put(db, t0.Add(time.Duration(i)*time.Minute), wave)
+		}
+		db.wmu.Lock()
+		n, err := db.deleteStoredEvents(storedEvents, 2, func(_, _ []byte) bool { return true })
+		db.wmu.Unlock()
+		if err != nil || n != 2 {
+			t.Fatalf("deleteStoredEvents: %d, %v; want 2 (the limit)", n, err)
+		}
+		evs, waves := counts(db)
+		l := db.Losses()
+		if evs != 1 || waves != 1 || l[ClassEvent] != 2 || l[ClassEventWaveform] != 2 {
+			t.Fatalf("%d events, %d waveforms, losses event %d, event_waveform %d; want 1, 1, 2, 2 (src: README \"MQTT topics and payloads\", the order of sacrifice)",
+				evs, waves, l[ClassEvent], l[ClassEventWaveform])
+		}
+		if _, _, err := db.Event(events.ID(events.Dip, t0.Add(2*time.Minute))); err != nil {
+			t.Fatalf("newest event: %v, want it with its waveform (src: the oldest go first)", err)
+		}
+		checkBolt(t, db)
+	})
+}
