@@ -1,10 +1,18 @@
 package web
 
 import (
+	"bytes"
+	"log/slog"
 	"math"
+	"net/http"
+	"net/http/httptest"
 	"strings"
 	"testing"
+	"time"
 	"unicode/utf8"
+
+	"github.com/gridloupe/gridloupe/metrics/metricstest"
+	"github.com/gridloupe/gridloupe/stream/live"
 )
 
 // TestAppendValue: sample values as the text format writes them. src:
@@ -133,4 +141,27 @@ func FuzzExposition(f *testing.F) {
 			t.Errorf("value %v, want %v (%q)", gv, v, body)
 		}
 	})
+}
+
+// TestMetricsDuplicateWarned: a series written twice (here two alarms of
+// one name and severity) is served once, so the scrape stays valid, and
+// the drop is logged with its count (expo.go appendExposition doc; a
+// repeated series fails the whole scrape in Prometheus, from memory).
+func TestMetricsDuplicateWarned(t *testing.T) {
+	var logBuf bytes.Buffer
+	b := live.New(metricstest.Wye(t), time.Now, func() live.Health { return live.Health{} })
+	srv, err := New(Config{Addr: "127.0.0.1:0", Board: b, Site: "s", Gateway: "g",
+		Alarms: []Alarm{{"thd-va", "warning"}, {"thd-va", "warning"}}, Logger: slog.New(slog.NewTextHandler(&logBuf, nil))})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rec := httptest.NewRecorder()
+	srv.srv.Handler.ServeHTTP(rec, httptest.NewRequest(http.MethodGet, "/metrics", nil))
+	fams := parseText(t, rec.Body.String())
+	if f := fams["gridloupe_alarm_active"]; f == nil || len(f.Metric) != 1 {
+		t.Errorf("gridloupe_alarm_active: %v, want one series", f)
+	}
+	if log := logBuf.String(); !strings.Contains(log, "same labels dropped") || !strings.Contains(log, "count=1") {
+		t.Errorf("log %q, want the drop warned with count=1", log)
+	}
 }
