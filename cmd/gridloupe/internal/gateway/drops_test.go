@@ -3,7 +3,6 @@ package gateway
 import (
 	"context"
 	"errors"
-	"io"
 	"math"
 	"path/filepath"
 	"sync"
@@ -74,26 +73,15 @@ func TestLiveDropsAreGaps(t *testing.T) {
 	}
 }
 
-// dipTrain is va, ia at 50 Hz, 6.4 kHz, with va at 60 % for 100 ms every
-// 500 ms from 1 s on: a dip each (closed form: (seconds-1)/0.5 of them).
-type dipTrain struct{ n, limit int }
-
-func (s *dipTrain) ReadFrames(dst []float64) (int, error) {
-	k := 0
-	for ; k < len(dst)/2 && s.n < s.limit; k++ {
-		t := float64(s.n) / 6400
-		a := 230.0
+// dipTrain is a levelSource with va at 60 % for 100 ms every 500 ms from
+// 1 s on: a dip each (closed form: (seconds-1)/0.5 of them).
+func dipTrain(limit int) *levelSource {
+	return &levelSource{limit: limit, a: func(t float64) float64 {
 		if t >= 1 && math.Mod(t-1, 0.5) < 0.1 {
-			a = 138
+			return 138
 		}
-		dst[2*k] = math.Sqrt2 * a * math.Cos(2*math.Pi*50*t)
-		dst[2*k+1] = math.Sqrt2 * 100 * math.Cos(2*math.Pi*50*t-0.3)
-		s.n++
-	}
-	if k == 0 {
-		return 0, io.EOF
-	}
-	return k, nil
+		return 230
+	}}
 }
 
 // TestLiveEventsLostAreCounted: a live source whose store goroutine is
@@ -116,7 +104,7 @@ func TestLiveEventsLostAreCounted(t *testing.T) {
 	}
 	var err error
 	g, err = New(Config{Pipeline: stream.Config{Setup: r.setup, SampleRate: 6400, NominalHz: 50, Base: t0, Events: &ec},
-		Source: &dipTrain{limit: 11 * 6400}, Live: true, Store: r.db, CommitEvery: 20 * time.Millisecond, OnEvent: onEvent})
+		Source: dipTrain(11 * 6400), Live: true, Store: r.db, CommitEvery: 20 * time.Millisecond, OnEvent: onEvent})
 	if err != nil {
 		t.Fatal(err)
 	}

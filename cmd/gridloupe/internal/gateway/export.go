@@ -47,6 +47,15 @@ func exportFormat(req ExportRequest) (encode.Format, error) {
 	return f, nil
 }
 
+// exportInterval parses req.Interval: a stored level, not the 200 ms window.
+func exportInterval(req ExportRequest) (metrics.Interval, error) {
+	iv, ok := metrics.ParseInterval(req.Interval)
+	if !ok || iv == metrics.Int200ms {
+		return 0, fmt.Errorf("%w: interval %q: allowed are 3s, 10min, 2h", ErrExport, req.Interval)
+	}
+	return iv, nil
+}
+
 // ErrExport reports a bad export request.
 var ErrExport = errors.New("gateway: export")
 
@@ -68,9 +77,9 @@ const requestTimeout = 3 * time.Second
 // schema. It is used by the daemon's socket and by `gridloupe export` when
 // no daemon holds the file.
 func WriteExport(w io.Writer, db *store.DB, req ExportRequest) error {
-	iv, ok := metrics.ParseInterval(req.Interval)
-	if !ok || iv == metrics.Int200ms {
-		return fmt.Errorf("%w: interval %q: allowed are 3s, 10min, 2h", ErrExport, req.Interval)
+	iv, err := exportInterval(req)
+	if err != nil {
+		return err
 	}
 	layout, err := db.Layout()
 	if err != nil {
@@ -159,12 +168,12 @@ func serveOne(c net.Conn, db *store.DB, log *slog.Logger) {
 		return
 	}
 	// validate before answering ok, so a bad request gets a clear error
-	if iv, ok := metrics.ParseInterval(req.Interval); !ok || iv == metrics.Int200ms {
-		fmt.Fprintf(c, "error: interval %q: allowed are 3s, 10min, 2h\n", req.Interval)
+	if _, err := exportInterval(req); err != nil {
+		refuse(c, err)
 		return
 	}
 	if _, err := exportFormat(req); err != nil {
-		fmt.Fprintf(c, "error: %v\n", err)
+		refuse(c, err)
 		return
 	}
 	bw := bufio.NewWriterSize(c, 64<<10)
@@ -176,6 +185,12 @@ func serveOne(c net.Conn, db *store.DB, log *slog.Logger) {
 		bw.WriteString(trailerOK + "\n")
 	}
 	bw.Flush()
+}
+
+// refuse answers a bad request with its error; RequestExport puts
+// ErrExport back in front, so the text carries it once.
+func refuse(w io.Writer, err error) {
+	fmt.Fprintf(w, "error: %s\n", strings.TrimPrefix(err.Error(), ErrExport.Error()+": "))
 }
 
 // The answer ends with a trailer line, so a client can tell a complete
@@ -207,34 +222,22 @@ func RequestExport(path string, req ExportRequest, w io.Writer) error {
 	if head != "ok\n" {
 		return fmt.Errorf("%w: %s", ErrExport, strings.TrimSpace(strings.TrimPrefix(head, "error: ")))
 	}
-	// Copy line by line, holding each back until the next arrives: the
-	// last line must be the trailer.
-	var prev []byte
+	// Copy whole lines until the trailer, which must come last; a line
+	// cut short by the connection ending is not copied.
 	for {
 		line, err := br.ReadBytes('\n')
-		if len(line) > 0 && line[len(line)-1] == '\n' {
-			if bytes.HasPrefix(line, []byte("#end ")) {
-				if prev != nil {
-					if _, werr := w.Write(prev); werr != nil {
-						return werr
-					}
-				}
-				t := strings.TrimSpace(string(line))
-				if t == trailerOK {
-					return nil
-				}
-				return fmt.Errorf("%w: the daemon reported: %s", ErrExportCut, strings.TrimPrefix(t, trailerErr))
-			}
-			if prev != nil {
-				if _, werr := w.Write(prev); werr != nil {
-					return werr
-				}
-			}
-			prev = append(prev[:0], line...)
-			continue
-		}
 		if err != nil {
 			return fmt.Errorf("%w: the answer ended without its trailer: %v", ErrExportCut, err)
+		}
+		if bytes.HasPrefix(line, []byte("#end ")) {
+			t := strings.TrimSpace(string(line))
+			if t == trailerOK {
+				return nil
+			}
+			return fmt.Errorf("%w: the daemon reported: %s", ErrExportCut, strings.TrimPrefix(t, trailerErr))
+		}
+		if _, err := w.Write(line); err != nil {
+			return err
 		}
 	}
 }

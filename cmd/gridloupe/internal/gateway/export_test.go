@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"github.com/gridloupe/gridloupe/metrics"
+	"github.com/gridloupe/gridloupe/stream/encode"
 )
 
 // TestExportSocket: a complete answer ends with the trailer and is copied
@@ -45,6 +46,20 @@ func TestExportSocket(t *testing.T) {
 	}
 	if n := strings.Count(out.String(), "\n"); n != 300 || strings.Contains(out.String(), "#end") {
 		t.Errorf("%d lines (want 300, trailer stripped)", n)
+	}
+	// a bad request is refused before "ok", its error named once (DESIGN
+	// "Errors and exit codes": usage errors name what is allowed, nothing on stdout)
+	for _, c := range []struct {
+		req  ExportRequest
+		want string
+	}{
+		{ExportRequest{Interval: "200ms"}, `gateway: export: interval "200ms": allowed are 3s, 10min, 2h`},
+		{ExportRequest{Interval: "3s", Format: "xml"}, `gateway: export: format "xml": allowed are ` + strings.Join(encode.FormatNames(), ", ")},
+	} {
+		out.Reset()
+		if err := RequestExport(sock, c.req, &out); !errors.Is(err, ErrExport) || err.Error() != c.want || out.Len() != 0 {
+			t.Errorf("request %+v: err %v, output %q; want %q and nothing written", c.req, err, out.String(), c.want)
+		}
 	}
 
 	// a server that dies mid-answer
