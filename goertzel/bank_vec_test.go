@@ -16,8 +16,10 @@ import (
 // (common practice, no source): both evaluate the same recurrence, and the
 // kernels differ only by fusing the multiply-add, a rounding difference of
 // the order of 1e-16 per step that the recurrence carries over a window.
-// TestBankVecMatchesGo logs the worst case it sees.
-const vecRelTol = 1e-12
+// About 2x the worst case measured: 1.76e-13 with AVX2+FMA; 0 on arm64
+// (run under qemu), where the Go compiler fuses the pure-Go loops'
+// multiply-add too. TestBankVecMatchesGo logs the worst case it sees.
+const vecRelTol = 4e-13
 
 // goBank is NewBank forced onto the pure-Go loops, the reference for the
 // kernels.
