@@ -3,6 +3,7 @@ package mqtt_test
 import (
 	"bytes"
 	"encoding/json"
+	"math"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -11,6 +12,7 @@ import (
 
 	"github.com/gridloupe/gridloupe/stream/mqtt"
 	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
+	"github.com/gridloupe/gridloupe/stream/summary"
 )
 
 func TestTopics(t *testing.T) {
@@ -140,5 +142,16 @@ func TestStatusTopicAsDocumented(t *testing.T) {
 	// src: README, MQTT topics and payloads, the table's status row
 	if row := "| `…" + suffix + "` | 1, retained |"; !strings.Contains(string(b), row) {
 		t.Errorf("README has no row %q for the status topic %q", row, topic.Status(base))
+	}
+}
+
+// TestWithSeqWithinSummaryBound: "seq" adds exactly summary.SeqBytes to a
+// summary at the largest sequence number, so summary.Widest, which the
+// gateway checks against summary.MaxBytes, bounds what is published
+// (closed form: len(`"seq":`) 6 + 20 digits of 2^64−1 + a comma = 28).
+func TestWithSeqWithinSummaryBound(t *testing.T) {
+	p := []byte(`{"site":"north-weir-dc2"}`)
+	if n := len(mqtt.WithSeq(p, math.MaxUint64)) - len(p); n != summary.SeqBytes {
+		t.Errorf(`"seq" adds %d bytes at the largest seq, summary.SeqBytes is %d`, n, summary.SeqBytes)
 	}
 }

@@ -629,3 +629,30 @@ func TestNewRejects(t *testing.T) {
 		t.Errorf("zero Config defaults IL %v Isc %v V %v, want 160, 6100, 230 (North Weir)", tr.IL, tr.Isc, tr.V1)
 	}
 }
+
+// TestShareScalesCurrent: a current channel with Share s carries s times
+// the load current of its phase, sample by sample (Chan.Share doc; the
+// several-circuit bus of README "Circuits" is built from it), and a
+// voltage channel ignores Share. Exact: a share of 0.25 is a power of two,
+// so every product and sum of the model scales without rounding (closed
+// form; measured: no difference in any sample).
+func TestShareScalesCurrent(t *testing.T) {
+	t.Parallel()
+	cfg := idealConfig()
+	cfg.Channels = append(sim.DefaultChannels(),
+		sim.Chan{Name: "ia-drive", Kind: metrics.Current, Phase: 'a', Share: 0.25},
+		sim.Chan{Name: "va2", Kind: metrics.Voltage, Phase: 'a', Share: 0.25})
+	const nch = nDefault + 2
+	s := newSource(t, cfg)
+	s.SetLoad(0.7)
+	buf := readFrames(t, s, nch, window10, 500)
+	for i := 0; i < window10; i++ {
+		f := buf[i*nch:]
+		if f[nDefault] != 0.25*f[chIA] {
+			t.Fatalf("frame %d: ia-drive %.17g, a quarter of ia %.17g", i, f[nDefault], 0.25*f[chIA])
+		}
+		if f[nDefault+1] != f[chVA] {
+			t.Fatalf("frame %d: va2 %.17g, va %.17g (Share is for currents)", i, f[nDefault+1], f[chVA])
+		}
+	}
+}

@@ -150,7 +150,7 @@ func busIL(t *testing.T, il float64) *metrics.Setup {
 		{Name: "va", Kind: metrics.Voltage, Phase: 'a'}, {Name: "vb", Kind: metrics.Voltage, Phase: 'b'}, {Name: "vc", Kind: metrics.Voltage, Phase: 'c'},
 	}
 	var circ []metrics.Circuit
-	for k, c := range []struct {
+	for _, c := range []struct {
 		name string
 		il   float64
 	}{{"incomer", 0}, {"pump1", 128}, {"pump2", 192}} {
@@ -159,7 +159,6 @@ func busIL(t *testing.T, il float64) *metrics.Setup {
 			cc.Currents = append(cc.Currents, len(ch))
 			ch = append(ch, metrics.Channel{Name: c.name + string(ph), Kind: metrics.Current, Phase: byte(ph)})
 		}
-		_ = k
 		circ = append(circ, cc)
 	}
 	orders := make([]int, 50)
@@ -263,5 +262,10 @@ func TestSummaryCircuitFigures(t *testing.T) {
 	// only the picked circuits, in the order given
 	if b := string(FromCircuits(s, r, []int{2, 0}).AppendJSON(nil, "x", "y")); !strings.Contains(b, `"circuits":{"pump2":`) || !strings.Contains(b, `},"incomer":`) || strings.Contains(b, "pump1") {
 		t.Errorf("picked pump2, incomer: %s", b)
+	}
+	// a pick outside the circuits is skipped, never a panic (STYLE.md:
+	// panic only on programmer error in DSP calls; common practice, no source)
+	if b := string(FromCircuits(s, r, []int{-1, 3, 1}).AppendJSON(nil, "x", "y")); !strings.Contains(b, `"circuits":{"pump1":`) || strings.Contains(b, "incomer") || strings.Contains(b, "pump2") {
+		t.Errorf("picked -1, 3 (no such circuits), pump1: %s", b)
 	}
 }

@@ -10,9 +10,9 @@ import (
 // under 1 KB), "seq" included.
 const MaxBytes = 1024
 
-// SeqBytes is the most the publisher adds for "seq":
+// SeqBytes is the most the publisher adds for "seq" (27 bytes):
 // `"seq":18446744073709551615,`.
-const SeqBytes = 28
+const SeqBytes = 27
 
 // Widest returns the size in bytes, "seq" included, of the largest summary
 // setup s can give with the circuits at pick (nil = all) and these site
