@@ -14,6 +14,7 @@ import (
 	"github.com/gridloupe/gridloupe/store"
 	"github.com/gridloupe/gridloupe/stream/encode"
 	"github.com/gridloupe/gridloupe/stream/live"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 )
 
 // energyCircuits are the circuits energy is counted for: the configured
@@ -136,11 +137,11 @@ func (k *energyKeeper) record(r *metrics.Record) {
 		}
 	case metrics.Int10min:
 		if k.base != "" {
-			if _, err := k.db.Enqueue(store.Message{Class: store.ClassTelemetry, QoS: 1, Topic: k.base + "/diagnostics",
+			if _, err := k.db.Enqueue(store.Message{Class: store.ClassTelemetry, QoS: 1, Topic: topic.Diagnostics(k.base),
 				Payload: k.diagnostics(r, end)}); err != nil {
 				k.log.Warn("diagnostics message not queued", "err", err)
 			}
-			if _, err := k.db.Enqueue(store.Message{Class: store.ClassTelemetry, QoS: 1, Topic: k.base + "/energy",
+			if _, err := k.db.Enqueue(store.Message{Class: store.ClassTelemetry, QoS: 1, Topic: topic.Energy(k.base),
 				Payload: k.payload(end)}); err != nil {
 				k.log.Warn("energy message not queued", "err", err)
 			} else if k.kick != nil {

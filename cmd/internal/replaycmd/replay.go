@@ -79,8 +79,7 @@ func Run(ctx context.Context, prog string, args []string, stdin io.Reader, stdou
 	}
 	job := replayJob{cfg: cfg, setup: setup, cal: cal, base: base, iv: iv, format: fmtKind, input: f.input, events: f.events}
 	if f.pcm != "" {
-		return replayPCM(ctx, replayPCMArgs{cfg: cfg, setup: setup, cal: cal, base: base, iv: iv, format: fmtKind,
-			pcm: f.pcm, framing: f.framing, input: f.input, events: f.events}, stdin, stdout, stderr)
+		return replayPCM(ctx, job, f.pcm, f.framing, stdin, stdout, stderr)
 	}
 	if IsCOMTRADE(f.input) {
 		return replayCOMTRADE(ctx, job, stdout, stderr)
@@ -385,30 +384,18 @@ func isTerminal(w io.Writer) bool {
 	return ok && term.IsTerminal(int(f.Fd()))
 }
 
-// replayPCMArgs are a --pcm replay's settings.
-type replayPCMArgs struct {
-	cfg          *config.Config
-	setup        *metrics.Setup
-	cal          []stream.Cal
-	base         time.Time
-	iv           metrics.Interval
-	format       encode.Format
-	pcm, framing string
-	input        string
-	events       string // --events FILE, "" = none
-}
-
-// replayPCM replays a raw or GLF1 stream from a file, a FIFO or stdin.
-func replayPCM(ctx context.Context, a replayPCMArgs, stdin io.Reader, stdout, stderr io.Writer) error {
-	rate, err := PCMRate(a.cfg, a.input)
+// replayPCM replays a raw or GLF1 stream from a file, a FIFO or stdin:
+// job without its source, in the --pcm format and --framing given.
+func replayPCM(ctx context.Context, job replayJob, format, framing string, stdin io.Reader, stdout, stderr io.Writer) error {
+	rate, err := PCMRate(job.cfg, job.input)
 	if err != nil {
 		return err
 	}
-	in, _, err := OpenPCMPath(a.input, stdin, len(a.setup.Channels), a.pcm, a.framing)
+	in, _, err := OpenPCMPath(job.input, stdin, len(job.setup.Channels), format, framing)
 	if err != nil {
 		return err
 	}
 	defer in.Close()
-	return replayAnalyse(ctx, replayJob{cfg: a.cfg, setup: a.setup, cal: a.cal, rate: rate, base: a.base, iv: a.iv,
-		format: a.format, src: in.Src, input: a.input, where: in.Where, losses: in.Losses, events: a.events}, stdout, stderr)
+	job.rate, job.src, job.where, job.losses = rate, in.Src, in.Where, in.Losses
+	return replayAnalyse(ctx, job, stdout, stderr)
 }

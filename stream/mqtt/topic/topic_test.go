@@ -20,6 +20,9 @@ func TestLayoutAsDocumented(t *testing.T) {
 	for _, c := range []struct{ name, got, row string }{
 		{"status", Status(base), "| `…/status` |"},
 		{"telemetry", Telemetry(base, "<interval>"), "| `…/telemetry/<interval>` |"},
+		{"summary", Summary(base, "<interval>"), "| `…/summary/<interval>` |"},
+		{"energy", Energy(base), "| `…/energy` |"},
+		{"diagnostics", Diagnostics(base), "| `…/diagnostics` |"},
 		{"alarm", Alarm(base), "| `…/alarm` |"},
 		{"health", Health(base), "| `…/health` |"},
 	} {

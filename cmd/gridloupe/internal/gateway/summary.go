@@ -3,12 +3,9 @@ package gateway
 import (
 	"github.com/gridloupe/gridloupe/metrics"
 	"github.com/gridloupe/gridloupe/store"
+	"github.com/gridloupe/gridloupe/stream/mqtt/topic"
 	"github.com/gridloupe/gridloupe/stream/summary"
 )
-
-// levelSummary is the topic level of the slim summaries (DESIGN "Field
-// contract": <base>/summary/<interval>).
-const levelSummary = "summary"
 
 // summaryMessage is the retained QoS 1 summary of record r with the
 // circuits at pick (nil = all; see summary.FromCircuits). Its class is
@@ -17,5 +14,5 @@ const levelSummary = "summary"
 func summaryMessage(base, site, gw string, s *metrics.Setup, pick []int, r *metrics.Record) store.Message {
 	sm := summary.FromCircuits(s, r, pick)
 	return store.Message{Class: store.ClassSummary, QoS: 1, Retain: true,
-		Topic: base + "/" + levelSummary + "/" + r.Interval.String(), Payload: sm.AppendJSON(nil, site, gw)}
+		Topic: topic.Summary(base, r.Interval.String()), Payload: sm.AppendJSON(nil, site, gw)}
 }
