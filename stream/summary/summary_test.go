@@ -269,3 +269,28 @@ func TestSummaryCircuitFigures(t *testing.T) {
 		t.Errorf("picked -1, 3 (no such circuits), pump1: %s", b)
 	}
 }
+
+// TestSummaryCircuitNeutral: a circuit's neutral current has no phase
+// figure of its own in the summary: the per-phase distortion lists a, b
+// and c only (README "MQTT topics and payloads": TDD per phase current).
+func TestSummaryCircuitNeutral(t *testing.T) {
+	ch := []metrics.Channel{
+		{Name: "va", Kind: metrics.Voltage, Phase: 'a'}, {Name: "vb", Kind: metrics.Voltage, Phase: 'b'}, {Name: "vc", Kind: metrics.Voltage, Phase: 'c'},
+		{Name: "ia", Kind: metrics.Current, Phase: 'a'}, {Name: "ib", Kind: metrics.Current, Phase: 'b'}, {Name: "ic", Kind: metrics.Current, Phase: 'c'},
+		{Name: "in", Kind: metrics.Current, Phase: 'n'}, {Name: "ja", Kind: metrics.Current, Phase: 'a'},
+	}
+	s, err := metrics.NewSetup(metrics.Setup{Channels: ch, Orders: []int{1, 3, 5}, Wiring: metrics.Wye, NominalV: 230, ILA: 100, Reference: -1,
+		Circuits: []metrics.Circuit{{Name: "main", Currents: []int{3, 4, 5, 6}}, {Name: "aux", Currents: []int{7}, ILA: 10}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	r := metrics.NewRecord(s)
+	fill(r, 1)
+	for _, c := range r.Circuits {
+		fill(c.Rec, 2)
+	}
+	b := string(From(s, r).AppendJSON(nil, "x", "y"))
+	if !strings.Contains(b, `"main":{`) || !strings.Contains(b, `_pct":{"a":1,"b":1,"c":1},"lead_lag"`) || strings.Contains(b, `"n":`) {
+		t.Errorf("main's phase currents a, b, c only, no neutral:\n%s", b)
+	}
+}
