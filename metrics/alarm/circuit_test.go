@@ -88,6 +88,14 @@ func TestUnbalanceCurrentPerCircuit(t *testing.T) {
 	if len(tr) != 1 || tr[0].Rule != "pump1-unb" || !tr[0].Raised || math.Abs(tr[0].Value-want) > tolUnb {
 		t.Fatalf("transitions %+v; want pump1-unb raised at %.4f %% and nothing from the balanced incomer", tr, want)
 	}
+	// a record without the circuits (none computed) is a null value for
+	// the circuit's rule: no transition, no panic (Evaluator doc: a null
+	// value holds the state)
+	bare := *r
+	bare.Circuits, bare.Start = nil, t0.Add(time.Second)
+	if tr := e.Evaluate(&bare, nil); len(tr) != 0 {
+		t.Fatalf("record without circuits: transitions %+v, want none (a null value holds the state)", tr)
+	}
 	// the pump's currents balanced again: the rule clears (below 5 − 0.5)
 	x[8] = 100 * rot(120)
 	r2 := metrics.NewRecord(s)

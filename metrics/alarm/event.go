@@ -198,7 +198,7 @@ func (e *Evaluator) eventClock(i int, start, t time.Time) (Transition, bool) {
 		}
 		st.Pending, st.PendingSince, er.wait = true, start, false
 	}
-	if t.Before(st.PendingSince) || t.Sub(st.PendingSince) < e.rules[i].OffDelay {
+	if t.Sub(st.PendingSince) < e.rules[i].OffDelay { // OffDelay ≥ 0: also a record ending before the timer started
 		return Transition{}, false
 	}
 	st.Raised, st.Since = false, t

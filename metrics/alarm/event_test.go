@@ -162,6 +162,23 @@ func TestEventRules(t *testing.T) {
 			src:  srcEvRule + "; " + srcEvTime,
 		},
 		{
+			name:  "off_delay 0: a record that ended before the event did leaves it raised",
+			rule:  with(dip, func(r *Rule) { r.OffDelay = 0 }),
+			steps: []evStep{evs(evAt(events.Dip, 10, 5)), rec(9), rec(12)},
+			// end 15 s: the record 9..12 was on its way when the dip was reported; 12..15 clears
+			want: []want{{true, 15}, {false, 15}},
+			src:  srcEvRule + "; eventClock doc: records that end before the timer started change nothing",
+		},
+		{
+			name: "the timer runs from the later end of overlapping events of the two machines",
+			rule: with(dip, func(r *Rule) { r.Kinds = nil }),
+			steps: []evStep{evs(evAt(events.Swell, 10, 90, "vc")), evs(evAt(events.Dip, 95, 4)),
+				rec(696), rec(699)},
+			// the swell ends 100 s, the dip (reported after it) 99 s: cleared by the record ending ≥ 700 s, 699..702
+			want: []want{{true, 100}, {false, 702}},
+			src:  srcEvRule + ": off_delay after the last event ended; " + srcEvTime,
+		},
+		{
 			name: "an open dip that ends as an interruption releases a dip rule at its end",
 			rule: dip,
 			steps: []evStep{evs(opened(evAt(events.Dip, 100, 3.8))), rec(800),
@@ -260,6 +277,21 @@ func TestEventRuleRestart(t *testing.T) {
 	}
 	if len(got) != 1 || got[0].Raised || !got[0].Time.Equal(secs(2600)) {
 		t.Errorf("after a crash: %+v, want the clear at 2600 s (src: README 'Alarm rules': off_delay from the start of the first record after the restart; 2000 + 600)", got)
+	}
+}
+
+// TestEventRuleKindsCopied: New keeps its own copy of a rule's kinds, so
+// Rules reports what was configured whatever the caller does with its
+// slice later (common practice, no source).
+func TestEventRuleKindsCopied(t *testing.T) {
+	kinds := []events.Kind{events.Dip}
+	e, err := New([]Rule{{Name: "ev", Metric: MetricEvent, Kinds: kinds, Target: Target{Channel: -1}}}, northWeir(t, 1), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	kinds[0] = events.Swell
+	if got := e.Rules()[0].Kinds; len(got) != 1 || got[0] != events.Dip {
+		t.Errorf("Rules kinds %v after the caller changed its slice, want [dip]", got)
 	}
 }
 

@@ -2,6 +2,7 @@ package mqtt_test
 
 import (
 	"crypto/tls"
+	"strings"
 	"testing"
 
 	"github.com/gridloupe/gridloupe/stream/mqtt"
@@ -36,11 +37,33 @@ func TestTLSConfig(t *testing.T) {
 				return
 			}
 			if cfg.MinVersion != tls.VersionTLS12 {
-				t.Errorf("MinVersion %x, want TLS 1.2", cfg.MinVersion)
+				t.Errorf("MinVersion %x, want TLS 1.2 (doc of TLSConfig)", cfg.MinVersion)
 			}
 			if (tc.ca != "") != (cfg.RootCAs != nil) || (tc.cert != "") != (len(cfg.Certificates) == 1) {
 				t.Errorf("roots %v, %d certificates", cfg.RootCAs != nil, len(cfg.Certificates))
 			}
 		})
+	}
+}
+
+// TestTLSErrorsNameFiles: a refused file is named in the error, its
+// contents never are (doc of TLSConfig: a key must not reach a log).
+func TestTLSErrorsNameFiles(t *testing.T) {
+	t.Parallel()
+	c := testcert.New(t)
+	junk := t.TempDir() + "/junk.pem"
+	writeFile(t, junk, "not a certificate")
+	for _, tc := range []struct{ ca, cert, key, name string }{
+		{junk, "", "", junk},
+		{c.CAFile, c.ClientCert, c.ServerKey, c.ServerKey},
+	} {
+		_, err := mqtt.TLSConfig(tc.ca, tc.cert, tc.key)
+		if err == nil || !strings.Contains(err.Error(), tc.name) {
+			t.Errorf("TLSConfig(%q, %q, %q): %v, want an error naming %s", tc.ca, tc.cert, tc.key, err, tc.name)
+			continue
+		}
+		if strings.Contains(err.Error(), "not a certificate") || strings.Contains(err.Error(), "-----BEGIN") {
+			t.Errorf("the error quotes the file: %v", err)
+		}
 	}
 }
