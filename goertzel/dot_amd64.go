@@ -2,11 +2,10 @@
 
 package goertzel
 
-import "golang.org/x/sys/cpu"
-
-// dotVec reports whether this CPU runs dot2AVX (AVX2 and FMA). It is set
-// once, at package initialisation, and never changed.
-var dotVec = cpu.X86.HasAVX2 && cpu.X86.HasFMA
+// dotVec reports whether this CPU runs dot2AVX: it needs AVX2 and FMA, the
+// features Bank's kernel checks (vecOK, bank_amd64.go), so it is that check,
+// set once at package initialisation and never changed.
+var dotVec = vecOK
 
 // dot2AVX returns Σ x·y and Σ x·z over len(x); see dot_amd64.s.
 //

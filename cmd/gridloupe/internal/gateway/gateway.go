@@ -33,7 +33,6 @@ type Config struct {
 
 	Store     Store            // required; a *store.DB
 	Alarms    *alarm.Evaluator // nil = no alarm rules
-	Channels  []string         // channel names, for alarm payloads; nil = from the setup
 	Telemetry []metrics.Interval
 	Summary   []metrics.Interval // levels whose slim summary is published, retained (stream/summary)
 	// SummaryCircuits: with circuits, the indices in Setup.Circuits of
@@ -162,11 +161,8 @@ func New(cfg Config) (*Gateway, error) {
 	if g.cfg.QueueLen <= 0 {
 		g.cfg.QueueLen = 256
 	}
-	g.names = cfg.Channels
-	if g.names == nil {
-		for _, ch := range g.setup.Channels {
-			g.names = append(g.names, ch.Name)
-		}
+	for _, ch := range g.setup.Channels { // for alarm payloads
+		g.names = append(g.names, ch.Name)
 	}
 	for _, iv := range cfg.Telemetry {
 		if int(iv) < len(g.telem) {

@@ -130,6 +130,9 @@ func TestGatewayStoresAndAlarms(t *testing.T) {
 			if m.QoS != 1 {
 				t.Errorf("alarm QoS %d, want 1 (DESIGN)", m.QoS)
 			}
+			if p["channel"] != "ia" { // thdRule watches channel 1, ia (README "MQTT topics and payloads", …/alarm row)
+				t.Errorf("alarm payload channel %v, want ia: %s", p["channel"], m.Payload)
+			}
 		}
 	}
 	if alarms != len(trans) {
