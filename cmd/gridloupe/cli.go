@@ -27,26 +27,30 @@ Usage:
   gridloupe <command> [flags]
 
 Commands:
-  demo      run the whole gateway for a minute on a simulated drive cabinet:
-            simulator, embedded MQTT broker, store in a temporary folder,
-            live table, alarms raised and cleared
-  run       run the gateway unattended (source, store, alarms, MQTT) until
-            SIGINT or SIGTERM
-  export    print stored 3 s, 10 min or 2 h aggregates (CSV or JSON Lines)
-  events    list the stored voltage dips, swells and interruptions
-  waveform  draw one stored event's waveform capture as an SVG
-  evaluate  judge a stored week against the IEEE 519-2014 harmonic limits
-  replay    analyse a recorded waveform file (CSV or WAV) and print one record
-            per window or aggregation interval
-  simulate  write a recording of the built-in drive-cabinet simulator (CSV)
-  wiring    check a hook-up on site: rotation, reversed, swapped or misplaced
-            CTs, dead channels, voltages off nominal; plain-language findings
-  calibrate compare a few seconds with a reference instrument's readings and
-            print corrected scale and delay_us lines for the config
+  demo        run the whole gateway for a minute on a simulated drive cabinet:
+              simulator, embedded MQTT broker, store in a temporary folder,
+              live table, alarms raised and cleared
+  run         run the gateway unattended (source, store, alarms, MQTT) until
+              SIGINT or SIGTERM
+  export      print stored 3 s, 10 min or 2 h aggregates (JSON Lines, CSV or
+              tables)
+  events      list the stored voltage dips, swells and interruptions
+  waveform    draw one stored event's waveform capture as an SVG
+  evaluate    judge a stored week against the IEEE 519-2014 harmonic limits
+  replay      analyse a recording (CSV, WAV, COMTRADE or raw PCM) and print
+              one record per window or aggregation interval
+  simulate    write a recording of the built-in drive-cabinet simulator (CSV)
+  wiring      check a hook-up on site: rotation, reversed, swapped or
+              misplaced CTs, dead channels, voltages off nominal;
+              plain-language findings
+  calibrate   compare a few seconds with a reference instrument's readings
+              and print corrected scale and delay_us lines for the config
   modbus-map  print the Modbus TCP register map of a config (CSV) for a BMS
-  report    write the weekly report of a stored week as one HTML file with charts
-  config    print the documented defaults of every config key, or check a file
-  version   print the version and build information
+  report      write the weekly report of a stored week as one HTML file with
+              charts
+  config      print the documented defaults of every config key, or check a
+              file
+  version     print the version, build and Goertzel kernel
 
 Run 'gridloupe <command> --help' for a command's flags.
 
